@@ -1,0 +1,71 @@
+"""dampctl: design active vibration damping from modal parameters.
+
+Plant
+    ModalPlant, Mode, Actuator, Sensor, Pair, Output, Disturbance, Requirements
+        modal plant value objects; ``plant.statespace``, ``plant.frf``
+    load_plant, parse_plant, dump_plant
+        plant files (TOML)
+    survey_plant
+        participation of candidate pairs, near-repeated clusters, dominant modes
+
+Design
+    Design, Loop, Branch, Section, load_design
+        a damping design (``u = −K(s) y``) and its file form
+
+Errors
+    DampctlError and its subclasses (see :mod:`dampctl.errors`)
+"""
+
+from dampctl.design import Branch, Design, Loop, Section, load_design
+from dampctl.errors import (
+    DampctlError,
+    DesignError,
+    DesignRefused,
+    MissingFeatureError,
+    OutputError,
+    PlantError,
+    PlantFileError,
+    UsageError,
+)
+from dampctl.plant import (
+    Actuator,
+    Disturbance,
+    ModalPlant,
+    Mode,
+    Output,
+    Pair,
+    Requirements,
+    Sensor,
+)
+from dampctl.plantfile import dump_plant, load_plant, parse_plant
+from dampctl.survey import survey_plant
+
+__version__ = "0.1.0"
+
+__all__ = [
+    "Actuator",
+    "Branch",
+    "DampctlError",
+    "Design",
+    "DesignError",
+    "DesignRefused",
+    "Disturbance",
+    "Loop",
+    "MissingFeatureError",
+    "ModalPlant",
+    "Mode",
+    "Output",
+    "OutputError",
+    "Pair",
+    "PlantError",
+    "PlantFileError",
+    "Requirements",
+    "Section",
+    "Sensor",
+    "UsageError",
+    "dump_plant",
+    "load_design",
+    "load_plant",
+    "parse_plant",
+    "survey_plant",
+]

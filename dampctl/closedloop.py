@@ -1,0 +1,293 @@
+"""Closed-loop poles of a plant with a controller, and matching them to the plant's modes.
+
+Shared by the damping laws (tuning), assessment and sizing. Pure numpy/scipy: no
+python-control model is built, so this is cheap enough to call inside searches.
+
+Conventions: the plant is ``x' = A x + B u, y = C x + D u`` and the controller
+``x_c' = A_c x_c + B_c y, u = −(C_c x_c + D_c y)`` (negative feedback, as in
+:mod:`dampctl.design`). Loop delays and first-order actuator/sensor roll-offs are folded into
+the controller (:func:`lag_elements`), with the delay as a Padé approximant since poles are
+needed here; frequency-domain checks elsewhere use the exact e^{−jωT}.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.optimize import linear_sum_assignment
+
+__all__ = [
+    "MatchedModes",
+    "closed_loop_matrix",
+    "lag_elements",
+    "match_modes",
+    "modal_damping",
+    "open_loop_poles",
+    "pade_matrices",
+    "series_matrices",
+]
+
+Matrices = tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]
+
+
+def closed_loop_matrix(plant: Matrices, controller: Matrices) -> np.ndarray:
+    """State matrix of the negative-feedback loop of a plant and a controller.
+
+    Parameters
+    ----------
+    plant : tuple of ndarray
+        (A, B, C, D) of the plant, inputs = actuators, outputs = sensors.
+    controller : tuple of ndarray
+        (A_c, B_c, C_c, D_c) with ``u = −(C_c x_c + D_c y)``.
+
+    Returns
+    -------
+    ndarray, shape (n + n_c, n + n_c)
+        Closed-loop state matrix over the states ``[x, x_c]``.
+
+    Raises
+    ------
+    numpy.linalg.LinAlgError
+        When the loop is algebraically ill-posed (I + D_c D singular).
+    """
+    A, B, C, D = plant
+    Ac, Bc, Cc, Dc = controller
+    n, nc = A.shape[0], Ac.shape[0]
+    E = np.linalg.inv(np.eye(D.shape[1]) + Dc @ D) if np.any(D) and np.any(Dc) else None
+    if E is None:
+        Ux, Uc = -Dc @ C, -Cc
+    else:
+        Ux, Uc = -E @ Dc @ C, -E @ Cc
+    out = np.empty((n + nc, n + nc))
+    out[:n, :n] = A + B @ Ux
+    out[:n, n:] = B @ Uc
+    out[n:, :n] = Bc @ (C + D @ Ux)
+    out[n:, n:] = Ac + Bc @ D @ Uc
+    return out
+
+
+def series_matrices(first: Matrices, second: Matrices) -> Matrices:
+    """State space of ``second ∘ first`` (the output of ``first`` drives ``second``).
+
+    Parameters
+    ----------
+    first, second : tuple of ndarray
+        (A, B, C, D) of the two systems; first's outputs must match second's inputs.
+
+    Returns
+    -------
+    tuple of ndarray
+        (A, B, C, D) of the series connection, states ``[x_first, x_second]``.
+    """
+    A1, B1, C1, D1 = first
+    A2, B2, C2, D2 = second
+    n1, n2 = A1.shape[0], A2.shape[0]
+    A = np.zeros((n1 + n2, n1 + n2))
+    A[:n1, :n1] = A1
+    A[n1:, :n1] = B2 @ C1
+    A[n1:, n1:] = A2
+    return A, np.vstack([B1, B2 @ D1]), np.hstack([D2 @ C1, C2]), D2 @ D1
+
+
+def pade_matrices(delay_s: float, order: int = 2) -> Matrices:
+    """SISO state space of the [order/order] Padé approximant of e^{−s·delay}.
+
+    Parameters
+    ----------
+    delay_s : float
+        Delay (s), >= 0. Zero gives a unit gain with no states.
+    order : int, optional
+        Approximant order (1 to 10).
+
+    Returns
+    -------
+    tuple of ndarray
+        (A, B, C, D), one input and one output.
+    """
+    if delay_s <= 0.0:
+        return np.zeros((0, 0)), np.zeros((0, 1)), np.zeros((1, 0)), np.ones((1, 1))
+    from math import comb, factorial
+
+    k = np.arange(order + 1)
+    coeff = np.array(
+        [factorial(2 * order - j) * comb(order, j) / factorial(2 * order) for j in k]
+    ) * (delay_s**k)
+    den = coeff[::-1]  # Σ c_j (sT)^j, highest power first
+    num = (coeff * (-1.0) ** k)[::-1]
+    den, num = den / den[0], num / den[0]
+    A = np.zeros((order, order))
+    A[0, :] = -den[1:]
+    A[1:, :-1] = np.eye(order - 1)
+    B = np.zeros((order, 1))
+    B[0, 0] = 1.0
+    C = (num[1:] - num[0] * den[1:]).reshape(1, order)
+    return A, B, C, np.array([[num[0]]])
+
+
+def lag_elements(
+    controller: Matrices,
+    *,
+    delay_s: float = 0.0,
+    actuator_bandwidth_hz: Sequence[float | None] = (),
+    sensor_bandwidth_hz: Sequence[float | None] = (),
+    pade_order: int = 2,
+) -> Matrices:
+    """Fold loop delay and first-order roll-offs into a controller.
+
+    The effective controller is ``R_a(s) · e^{−sT} · K(s) · R_s(s)`` with diagonal first-order
+    low-passes R (unit DC gain) at the given corners and the delay as a Padé approximant on every
+    actuator channel.
+
+    Parameters
+    ----------
+    controller : tuple of ndarray
+        (A_c, B_c, C_c, D_c), sensors in, actuators out.
+    delay_s : float, optional
+        Loop delay (s) on every channel.
+    actuator_bandwidth_hz, sensor_bandwidth_hz : sequence of float or None, optional
+        Corner frequency (Hz) of each actuator / sensor channel; None or missing: ideal.
+    pade_order : int, optional
+        Order of the delay approximant.
+
+    Returns
+    -------
+    tuple of ndarray
+        The effective controller (A, B, C, D), same sign convention.
+    """
+    _Ac, _Bc, _Cc, Dc = controller
+    n_out, n_in = Dc.shape
+    system = _diagonal_lowpass(sensor_bandwidth_hz, n_in)
+    system = series_matrices(system, controller)
+    if delay_s > 0.0:
+        delay = _repeat(pade_matrices(delay_s, pade_order), n_out)
+        system = series_matrices(system, delay)
+    return series_matrices(system, _diagonal_lowpass(actuator_bandwidth_hz, n_out))
+
+
+def _diagonal_lowpass(corners_hz: Sequence[float | None], n: int) -> Matrices:
+    corners = [None] * n if not corners_hz else list(corners_hz)
+    blocks = []
+    for corner in corners:
+        if corner is None:
+            blocks.append((np.zeros((0, 0)), np.zeros((0, 1)), np.zeros((1, 0)), np.ones((1, 1))))
+        else:
+            w = 2.0 * np.pi * corner
+            blocks.append((np.array([[-w]]), np.array([[w]]), np.ones((1, 1)), np.zeros((1, 1))))
+    return _blockdiag(blocks)
+
+
+def _repeat(system: Matrices, n: int) -> Matrices:
+    return _blockdiag([system] * n)
+
+
+def _blockdiag(systems) -> Matrices:
+    parts = []
+    for k in range(4):
+        mats = [s[k] for s in systems]
+        out = np.zeros((sum(m.shape[0] for m in mats), sum(m.shape[1] for m in mats)))
+        r = c = 0
+        for m in mats:
+            out[r : r + m.shape[0], c : c + m.shape[1]] = m
+            r, c = r + m.shape[0], c + m.shape[1]
+        parts.append(out)
+    return tuple(parts)
+
+
+def modal_damping(poles: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Natural frequency (rad/s) and damping ratio of each pole.
+
+    Parameters
+    ----------
+    poles : array_like of complex
+        Poles (rad/s).
+
+    Returns
+    -------
+    omega : ndarray
+        |p| (rad/s).
+    damping : ndarray
+        −Re(p)/|p| (1 for a stable real pole, negative when unstable).
+    """
+    poles = np.asarray(poles, dtype=complex)
+    omega = np.abs(poles)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        damping = np.where(omega > 0, -poles.real / np.where(omega > 0, omega, 1.0), 1.0)
+    return omega, damping
+
+
+@dataclass(frozen=True)
+class MatchedModes:
+    """Closed-loop poles matched one-to-one to the plant's modes.
+
+    Attributes
+    ----------
+    poles : ndarray of complex, shape (n_modes,)
+        Closed-loop pole (upper half plane, or real) assigned to each plant mode, in mode order.
+    freq_hz : ndarray, shape (n_modes,)
+        |pole|/2π (Hz).
+    damping : ndarray, shape (n_modes,)
+        Damping ratio −Re/|p| of each matched pole (1.0 for a real pole: the mode no longer
+        oscillates; negative when unstable).
+    other_poles : ndarray of complex
+        The remaining closed-loop poles (controller, filter, roll-off and delay states), upper
+        half plane and real axis only.
+    stable : bool
+        True when every closed-loop pole has a negative real part.
+    max_real : float
+        Largest real part (1/s) of any closed-loop pole.
+    """
+
+    poles: np.ndarray
+    freq_hz: np.ndarray
+    damping: np.ndarray
+    other_poles: np.ndarray
+    stable: bool
+    max_real: float
+
+
+def match_modes(open_poles: np.ndarray, closed_poles: np.ndarray) -> MatchedModes:
+    """Assign closed-loop poles to open-loop modes by minimum total distance.
+
+    Matching is a linear assignment on the distance |ln(p_cl / p_ol)| (scale-free, so a 1 Hz
+    and a 5 kHz mode weigh alike), not a sort, so a row always speaks of the same physical mode
+    even for near-repeated modes or a pole that has moved far.
+
+    Parameters
+    ----------
+    open_poles : array_like of complex, shape (n_modes,)
+        Open-loop pole of each mode in the upper half plane (−ζω + jω√(1−ζ²)).
+    closed_poles : array_like of complex
+        All closed-loop poles (both conjugates).
+
+    Returns
+    -------
+    MatchedModes
+    """
+    open_poles = np.asarray(open_poles, dtype=complex)
+    closed = np.asarray(closed_poles, dtype=complex)
+    scale = np.max(np.abs(closed)) if closed.size else 1.0
+    candidates = closed[closed.imag >= -1e-9 * max(scale, 1.0)]
+    safe = np.where(candidates == 0, 1e-300, candidates)
+    cost = np.abs(np.log(safe[None, :] / open_poles[:, None]))
+    rows, cols = linear_sum_assignment(cost)
+    chosen = np.empty(open_poles.size, dtype=complex)
+    chosen[rows] = candidates[cols]
+    rest = np.delete(candidates, cols)
+    omega, damping = modal_damping(chosen)
+    max_real = float(np.max(closed.real)) if closed.size else -np.inf
+    return MatchedModes(
+        poles=chosen,
+        freq_hz=omega / (2.0 * np.pi),
+        damping=damping,
+        other_poles=rest[np.argsort(np.abs(rest))],
+        stable=bool(max_real < 0.0),
+        max_real=max_real,
+    )
+
+
+def open_loop_poles(omegas: np.ndarray, dampings: np.ndarray) -> np.ndarray:
+    """Upper-half-plane poles −ζω + jω√(1−ζ²) (rad/s) of modes."""
+    omegas, dampings = np.asarray(omegas, float), np.asarray(dampings, float)
+    return -dampings * omegas + 1j * omegas * np.sqrt(1.0 - dampings**2)

@@ -1,0 +1,94 @@
+"""Helpers shared by the subcommands: argument parsing, tables and JSON output."""
+
+from __future__ import annotations
+
+import json
+import math
+from collections.abc import Sequence
+from typing import Any, TextIO
+
+import numpy as np
+
+from dampctl.errors import UsageError
+
+SAFETY_LINES = (
+    "Safety: an active loop that is unstable on hardware can damage the structure, and piezo "
+    "amplifiers run at hazardous voltage.",
+    "Verify the loop on hardware with limited gain first, ramp the gain up, keep hardware "
+    "limits and an emergency stop, and follow local electrical-safety codes and lab procedures.",
+)
+
+
+def name_list(text: str | None, option: str) -> list[str]:
+    """Split ``a,b,c`` into names; empty or None gives []."""
+    if text is None:
+        return []
+    names = [part.strip() for part in text.split(",") if part.strip()]
+    if len(set(names)) != len(names):
+        raise UsageError(f"{option}: a name is repeated in {text!r}")
+    return names
+
+
+def mode_list(text: str | None, option: str = "--modes") -> list[int]:
+    """Parse ``1,2,5`` or ``1-4`` into mode numbers (1-based)."""
+    if text is None:
+        return []
+    modes: list[int] = []
+    try:
+        for part in text.split(","):
+            part = part.strip()
+            if not part:
+                continue
+            if "-" in part:
+                lo, hi = (int(x) for x in part.split("-", 1))
+                modes.extend(range(lo, hi + 1))
+            else:
+                modes.append(int(part))
+    except ValueError:
+        raise UsageError(f"{option}: expected mode numbers like 1,2 or 1-4, got {text!r}") from None
+    if any(m < 1 for m in modes):
+        raise UsageError(f"{option}: mode numbers start at 1, got {text!r}")
+    return sorted(set(modes))
+
+
+def jsonable(value: Any) -> Any:
+    """Convert numpy values (and non-finite floats, as None) for JSON."""
+    if isinstance(value, dict):
+        return {str(k): jsonable(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [jsonable(v) for v in value]
+    if isinstance(value, np.ndarray):
+        return jsonable(value.tolist())
+    if isinstance(value, np.generic):
+        return jsonable(value.item())
+    if isinstance(value, complex):
+        return [jsonable(value.real), jsonable(value.imag)]
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    return value
+
+
+def print_json(payload: Any, out: TextIO) -> None:
+    """Write ``payload`` as indented JSON (non-finite floats as null)."""
+    out.write(json.dumps(jsonable(payload), indent=2, allow_nan=False) + "\n")
+
+
+def table(headers: Sequence[str], rows: Sequence[Sequence[Any]]) -> str:
+    """Plain-text table with right-aligned columns."""
+    cells = [[str(h) for h in headers]] + [[_cell(v) for v in row] for row in rows]
+    widths = [max(len(r[k]) for r in cells) for k in range(len(headers))]
+    lines = ["  ".join(c.rjust(w) for c, w in zip(r, widths, strict=True)) for r in cells]
+    lines.insert(1, "  ".join("-" * w for w in widths))
+    return "\n".join(lines)
+
+
+def _cell(value: Any) -> str:
+    if value is None:
+        return "-"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, float | np.floating):
+        if not math.isfinite(value):
+            return "inf" if value > 0 else ("-inf" if value < 0 else "nan")
+        return f"{value:.4g}"
+    return str(value)

@@ -1,0 +1,97 @@
+"""``dampctl check PLANT``: read a plant file and say what its pairs can do."""
+
+from __future__ import annotations
+
+import argparse
+from typing import TextIO
+
+from dampctl.commands._common import print_json, table
+from dampctl.plantfile import load_plant
+from dampctl.survey import survey_plant
+
+NAME = "check"
+HELP = "read a plant file, list its modes and what each candidate pair can see"
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    """Options of ``dampctl check``."""
+    parser.add_argument("plant", help="plant file (TOML)")
+    parser.add_argument(
+        "--cluster-tol",
+        type=float,
+        default=0.02,
+        metavar="FRACTION",
+        help="relative frequency spacing of near-repeated modes (default 0.02)",
+    )
+    parser.add_argument("--json", action="store_true", help="print JSON on stdout")
+
+
+def check_payload(plant, survey) -> dict:
+    """The JSON form of a plant check (also used in reports)."""
+    return {
+        "plant": plant.title,
+        "fingerprint": plant.fingerprint,
+        "modes": [
+            {
+                "mode": k + 1,
+                "label": m.label,
+                "freq_hz": m.freq_hz,
+                "damping": m.damping,
+                "modal_mass": m.modal_mass_kg,
+            }
+            for k, m in enumerate(plant.modes)
+        ],
+        "first_freq_hz": float(min(plant.freqs_hz)),
+        "pairs": [
+            {
+                "pair": p.pair,
+                "collocated": p.collocated,
+                "kind": p.description,
+                "participation": [float(x) for x in p.participation],
+                "hsv": [float(x) for x in p.hsv],
+            }
+            for p in survey.pairs
+        ],
+        "unseen_modes": list(survey.unseen_modes),
+        "clusters": [
+            {"modes": list(c.modes), "pairs_needed": c.pairs_needed, "rank": c.rank}
+            for c in survey.clusters
+        ],
+        "dominant_modes": {
+            name: [{"mode": m, "share": s} for m, s in items]
+            for name, items in survey.dominant_modes.items()
+        },
+        "warnings": list(survey.warnings),
+    }
+
+
+def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    """Run ``dampctl check``; exit 0."""
+    plant = load_plant(args.plant)
+    survey = survey_plant(plant, cluster_tol=args.cluster_tol)
+    if args.json:
+        print_json(check_payload(plant, survey), out)
+        return 0
+    out.write(
+        f"{plant.title or args.plant}: {plant.n_modes} modes, {len(plant.actuators)} "
+        f"actuators, {len(plant.sensors)} sensors, {len(plant.pairs)} candidate pairs\n\n"
+    )
+    rows = [
+        (k + 1, m.label, m.freq_hz, m.damping, m.modal_mass_kg) for k, m in enumerate(plant.modes)
+    ]
+    out.write(table(["mode", "label", "freq (Hz)", "damping", "modal mass (kg)"], rows) + "\n")
+    out.write(f"\nfirst natural frequency: {min(plant.freqs_hz):.4g} Hz\n")
+    if survey.pairs:
+        out.write("\nparticipation: share of each mode's Hankel singular value per pair\n")
+        headers = ["pair", "kind", "collocated"] + [f"m{k + 1}" for k in range(plant.n_modes)]
+        rows = [
+            [p.pair, p.description, p.collocated] + [f"{x:.2f}" for x in p.participation]
+            for p in survey.pairs
+        ]
+        out.write(table(headers, rows) + "\n")
+    for name, items in survey.dominant_modes.items():
+        listing = ", ".join(f"mode {m} ({s:.0%})" for m, s in items) or "none"
+        out.write(f"\noutput {name}: motion dominated by {listing}\n")
+    if survey.warnings:
+        out.write("\nwarnings:\n" + "".join(f"  - {w}\n" for w in survey.warnings))
+    return 0

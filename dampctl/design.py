@@ -1,0 +1,512 @@
+"""The :class:`Design`: what a damping law produces, and its file form (JSON).
+
+Sign convention, for every law: the controller maps sensor signals y to actuator commands u by
+**negative feedback**, ``u = −K(s) y``. A decentralized design has one SISO loop per pair,
+``u_k = −K_k(s) y_k``; a model-based (LQG) design holds one MIMO state space. Either way
+:meth:`Design.statespace` gives the whole K(s) (sensors in, actuators out), which is what
+assessment, sizing and export use, so they never depend on the law.
+
+A SISO loop controller is a sum of branches, each a gain times a cascade of continuous-time
+sections (polynomials in s, highest power first, degree ≤ 2):
+
+    K_k(s) = Σ_b gain_b · Π_s num_s(s) / den_s(s)
+
+which holds a velocity-feedback gain with its roll-off, a leaky integrator, or a bank of
+positive-position filters (one branch per targeted mode) in physical units.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from types import MappingProxyType
+from typing import Any
+
+import numpy as np
+
+from dampctl.errors import DesignError
+from dampctl.plant import ModalPlant
+
+__all__ = ["Branch", "Design", "Loop", "Section", "design_from_dict", "load_design"]
+
+LAWS: tuple[str, ...] = ("dvf", "iff", "ppf", "lqg")
+FORMAT = "dampctl-design"
+FORMAT_VERSION = 1
+
+
+def _coefficients(values: Sequence[float], what: str) -> tuple[float, ...]:
+    out = tuple(float(v) for v in values)
+    if not 1 <= len(out) <= 3:
+        raise DesignError(f"{what} must have 1 to 3 coefficients (degree <= 2), got {len(out)}")
+    if not all(math.isfinite(v) for v in out):
+        raise DesignError(f"{what} coefficients must be finite, got {out}")
+    return out
+
+
+@dataclass(frozen=True)
+class Section:
+    """A continuous-time section num(s)/den(s) of degree ≤ 2.
+
+    Parameters
+    ----------
+    num, den : sequence of float
+        Polynomial coefficients in s (highest power first), 1 to 3 each; ``den[0] != 0`` and
+        deg num ≤ deg den.
+    """
+
+    num: tuple[float, ...]
+    den: tuple[float, ...]
+
+    def __post_init__(self) -> None:
+        num = _coefficients(self.num, "section numerator")
+        den = _coefficients(self.den, "section denominator")
+        num = tuple(np.trim_zeros(np.array(num), "f")) or (0.0,)
+        if den[0] == 0.0:
+            raise DesignError("section denominator must have a non-zero leading coefficient")
+        if len(num) > len(den):
+            raise DesignError("section must be proper (deg num <= deg den)")
+        object.__setattr__(self, "num", tuple(float(v) for v in num))
+        object.__setattr__(self, "den", den)
+
+    def response(self, s: np.ndarray) -> np.ndarray:
+        """Value at the complex frequencies ``s`` (rad/s)."""
+        return np.polyval(self.num, s) / np.polyval(self.den, s)
+
+
+@dataclass(frozen=True)
+class Branch:
+    """One branch of a loop controller: ``gain · Π sections``.
+
+    Parameters
+    ----------
+    gain : float
+        Gain in physical units (actuator unit per sensor unit, with the sections' units).
+    sections : sequence of Section
+        Cascade of sections; empty for a pure gain.
+    label : str, optional
+        What the branch is for ("mode 3 filter", "roll-off").
+    """
+
+    gain: float
+    sections: tuple[Section, ...] = ()
+    label: str = ""
+
+    def __post_init__(self) -> None:
+        gain = float(self.gain)
+        if not math.isfinite(gain):
+            raise DesignError(f"branch gain must be finite, got {gain}")
+        object.__setattr__(self, "gain", gain)
+        object.__setattr__(self, "sections", tuple(self.sections))
+
+    def response(self, s: np.ndarray) -> np.ndarray:
+        """Value at the complex frequencies ``s`` (rad/s)."""
+        out = np.full(np.shape(s), self.gain, dtype=complex)
+        for section in self.sections:
+            out = out * section.response(s)
+        return out
+
+
+@dataclass(frozen=True)
+class Loop:
+    """One decentralized loop on a pair: ``u = −K(s) y`` with K the sum of the branches.
+
+    Parameters
+    ----------
+    pair, actuator, sensor : str
+        The pair and its actuator and sensor names.
+    gain : float
+        The law's tuning gain, in the law's own normalization (documented by each law); the
+        controller itself is fully defined by ``branches``.
+    branches : sequence of Branch
+        The controller K(s) = Σ branches, in physical units.
+    """
+
+    pair: str
+    actuator: str
+    sensor: str
+    gain: float
+    branches: tuple[Branch, ...]
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "gain", float(self.gain))
+        object.__setattr__(self, "branches", tuple(self.branches))
+        if not self.branches:
+            raise DesignError(f"loop {self.pair!r} has no controller branches")
+
+    def response(self, freq_hz: np.ndarray) -> np.ndarray:
+        """K(j 2π f) of the loop at ``freq_hz`` (Hz)."""
+        s = 2j * np.pi * np.asarray(freq_hz, dtype=float)
+        return sum(branch.response(s) for branch in self.branches)
+
+    def statespace_matrices(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """Minimal-per-section state space (A, B, C, D) of K(s); one input, one output."""
+        blocks = [_branch_matrices(b) for b in self.branches]
+        return _parallel(blocks)
+
+
+@dataclass(frozen=True)
+class Design:
+    """A damping design for one plant.
+
+    Parameters
+    ----------
+    law : {"dvf", "iff", "ppf", "lqg"}
+        The damping law.
+    plant_fingerprint : str
+        :attr:`ModalPlant.fingerprint` of the plant it was designed for.
+    actuators, sensors : sequence of str
+        Controller outputs and inputs, in order.
+    target_modes : sequence of int
+        Modes (1-based) the design is meant to damp.
+    loops : sequence of Loop, optional
+        Decentralized loops (dvf, iff, ppf): loop k reads ``sensors[k]`` and drives
+        ``actuators[k]``.
+    controller : tuple of arrays (A, B, C, D), optional
+        MIMO controller state space (lqg): u = −(C x_c + D y), x_c' = A x_c + B y.
+    pairs : sequence of str, optional
+        Pair names the loops use (decentralized designs; may be given for lqg).
+    plant_title : str, optional
+        Title of the plant, for reports.
+    info : mapping, optional
+        Law-specific facts (target damping, leak frequency, achievable damping, reduction
+        error bound ...), JSON-serializable.
+    """
+
+    law: str
+    plant_fingerprint: str
+    actuators: tuple[str, ...]
+    sensors: tuple[str, ...]
+    target_modes: tuple[int, ...]
+    loops: tuple[Loop, ...] = ()
+    controller: tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray] | None = None
+    pairs: tuple[str, ...] = ()
+    plant_title: str = ""
+    info: Mapping[str, Any] = field(default_factory=dict)
+
+    def __post_init__(self) -> None:
+        if self.law not in LAWS:
+            raise DesignError(
+                f"law must be one of {', '.join(LAWS)}, got {self.law!r}", field="law"
+            )
+        for name in ("actuators", "sensors", "target_modes", "loops", "pairs"):
+            object.__setattr__(self, name, tuple(getattr(self, name)))
+        object.__setattr__(self, "target_modes", tuple(int(m) for m in self.target_modes))
+        object.__setattr__(self, "info", MappingProxyType(dict(self.info)))
+        if (self.controller is None) == (not self.loops):
+            raise DesignError("a design has either loops (decentralized) or a controller (MIMO)")
+        if self.loops:
+            if [lp.actuator for lp in self.loops] != list(self.actuators) or [
+                lp.sensor for lp in self.loops
+            ] != list(self.sensors):
+                raise DesignError("loop k must drive actuators[k] from sensors[k]")
+        if self.controller is not None:
+            A, B, C, D = (np.array(m, dtype=float, copy=True) for m in self.controller)
+            n = A.shape[0]
+            ok = (
+                A.shape == (n, n)
+                and B.shape == (n, len(self.sensors))
+                and C.shape == (len(self.actuators), n)
+                and D.shape == (len(self.actuators), len(self.sensors))
+            )
+            if not ok:
+                raise DesignError("controller matrices do not match the actuator/sensor counts")
+            for m in (A, B, C, D):
+                if not np.all(np.isfinite(m)):
+                    raise DesignError("controller matrices must be finite")
+                m.setflags(write=False)
+            object.__setattr__(self, "controller", (A, B, C, D))
+        for name in (*self.actuators, *self.sensors):
+            if not isinstance(name, str) or not name:
+                raise DesignError(f"invalid signal name {name!r}")
+
+    @property
+    def decentralized(self) -> bool:
+        """True for one SISO loop per pair (dvf, iff, ppf)."""
+        return bool(self.loops)
+
+    def statespace_matrices(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """(A, B, C, D) of the whole controller, sensors in, actuators out, ``u = −(Cx + Dy)``."""
+        if self.controller is not None:
+            return tuple(np.array(m) for m in self.controller)
+        return _block_diagonal([lp.statespace_matrices() for lp in self.loops])
+
+    def statespace(self):
+        """The controller K(s) as a python-control ``StateSpace`` (u = −K y).
+
+        Returns
+        -------
+        control.StateSpace
+            Inputs named after the sensors, outputs after the actuators.
+        """
+        import control
+
+        A, B, C, D = self.statespace_matrices()
+        return control.ss(
+            A,
+            B,
+            C,
+            D,
+            inputs=list(self.sensors),
+            outputs=list(self.actuators),
+            name=f"{self.law} controller",
+        )
+
+    def response(self, freq_hz: np.ndarray) -> np.ndarray:
+        """Controller frequency response K(j 2π f), shape (n_act, n_sens, n_freq)."""
+        freq_hz = np.asarray(freq_hz, dtype=float).ravel()
+        if self.loops:
+            out = np.zeros((len(self.actuators), len(self.sensors), freq_hz.size), complex)
+            for k, loop in enumerate(self.loops):
+                out[k, k] = loop.response(freq_hz)
+            return out
+        A, B, C, D = self.controller
+        s = 2j * np.pi * freq_hz
+        eye = np.eye(A.shape[0])
+        x = np.linalg.solve(s[:, None, None] * eye - A, np.broadcast_to(B, (s.size, *B.shape)))
+        return np.moveaxis(C @ x + D, 0, -1)
+
+    def check_plant(self, plant: ModalPlant, *, source: str | None = None) -> None:
+        """Raise :class:`DesignError` unless the design belongs to ``plant``.
+
+        Parameters
+        ----------
+        plant : ModalPlant
+            The plant the design is about to be used with.
+        source : str, optional
+            Design file name for the message.
+        """
+        if plant.fingerprint != self.plant_fingerprint:
+            raise DesignError(
+                f"was designed for a plant with fingerprint {self.plant_fingerprint}, but this "
+                f"plant's is {plant.fingerprint} (modes or hardware changed); tune it again",
+                source=source,
+                field="plant_fingerprint",
+            )
+
+    # ------------------------------------------------------------------ file form
+    def to_dict(self) -> dict[str, Any]:
+        """JSON-ready dictionary (full float precision); :func:`design_from_dict` inverts it."""
+        out: dict[str, Any] = {
+            "format": FORMAT,
+            "version": FORMAT_VERSION,
+            "law": self.law,
+            "plant_fingerprint": self.plant_fingerprint,
+            "plant_title": self.plant_title,
+            "pairs": list(self.pairs),
+            "actuators": list(self.actuators),
+            "sensors": list(self.sensors),
+            "target_modes": list(self.target_modes),
+            "sign_convention": "u = -K(s) y",
+        }
+        if self.loops:
+            out["loops"] = [
+                {
+                    "pair": lp.pair,
+                    "actuator": lp.actuator,
+                    "sensor": lp.sensor,
+                    "gain": lp.gain,
+                    "branches": [
+                        {
+                            "gain": b.gain,
+                            "label": b.label,
+                            "sections": [
+                                {"num": list(s.num), "den": list(s.den)} for s in b.sections
+                            ],
+                        }
+                        for b in lp.branches
+                    ],
+                }
+                for lp in self.loops
+            ]
+        else:
+            A, B, C, D = self.controller
+            out["controller"] = {"A": A.tolist(), "B": B.tolist(), "C": C.tolist(), "D": D.tolist()}
+        out["info"] = _jsonable(dict(self.info))
+        return out
+
+    def to_json(self) -> str:
+        """The design file text (JSON)."""
+        return json.dumps(self.to_dict(), indent=2, allow_nan=False) + "\n"
+
+
+def design_from_dict(data: Mapping[str, Any], *, source: str | None = None) -> Design:
+    """Build a :class:`Design` from its dictionary (the parsed design file).
+
+    Parameters
+    ----------
+    data : mapping
+        As produced by :meth:`Design.to_dict`.
+    source : str, optional
+        File name for error messages.
+
+    Returns
+    -------
+    Design
+    """
+    try:
+        if data.get("format") != FORMAT:
+            raise DesignError(f"not a dampctl design (format must be {FORMAT!r})", field="format")
+        loops = tuple(
+            Loop(
+                pair=lp["pair"],
+                actuator=lp["actuator"],
+                sensor=lp["sensor"],
+                gain=lp["gain"],
+                branches=tuple(
+                    Branch(
+                        gain=b["gain"],
+                        label=b.get("label", ""),
+                        sections=tuple(
+                            Section(tuple(s["num"]), tuple(s["den"])) for s in b.get("sections", ())
+                        ),
+                    )
+                    for b in lp["branches"]
+                ),
+            )
+            for lp in data.get("loops", ())
+        )
+        ctrl = data.get("controller")
+        controller = (
+            None
+            if ctrl is None
+            else tuple(
+                np.array(ctrl[k], dtype=float).reshape(_shape(ctrl, k, data)) for k in "ABCD"
+            )
+        )
+        return Design(
+            law=data["law"],
+            plant_fingerprint=data["plant_fingerprint"],
+            actuators=tuple(data["actuators"]),
+            sensors=tuple(data["sensors"]),
+            target_modes=tuple(data.get("target_modes", ())),
+            loops=loops,
+            controller=controller,
+            pairs=tuple(data.get("pairs", ())),
+            plant_title=data.get("plant_title", ""),
+            info=data.get("info", {}),
+        )
+    except DesignError as exc:
+        raise DesignError(exc.message, source=source, field=exc.field) from None
+    except KeyError as exc:
+        raise DesignError("missing required key", source=source, field=str(exc.args[0])) from None
+    except (TypeError, ValueError) as exc:
+        raise DesignError(f"malformed design ({exc})", source=source) from None
+
+
+def load_design(path: str | Path) -> Design:
+    """Read a design file written by ``dampctl tune``.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The design file (JSON).
+
+    Returns
+    -------
+    Design
+    """
+    path = Path(path)
+    try:
+        data = json.loads(path.read_text(encoding="utf-8"))
+    except OSError as exc:
+        raise DesignError(
+            f"cannot read the design file ({exc.strerror or exc})", source=str(path)
+        ) from None
+    except (UnicodeDecodeError, json.JSONDecodeError) as exc:
+        raise DesignError(f"not a JSON design file ({exc})", source=str(path)) from None
+    if not isinstance(data, dict):
+        raise DesignError("not a dampctl design (expected a JSON object)", source=str(path))
+    return design_from_dict(data, source=str(path))
+
+
+# ---------------------------------------------------------------------- helpers
+def _shape(ctrl, key, data):
+    n = len(ctrl["A"])
+    n_in, n_out = len(data["sensors"]), len(data["actuators"])
+    return {"A": (n, n), "B": (n, n_in), "C": (n_out, n), "D": (n_out, n_in)}[key]
+
+
+def _jsonable(value: Any) -> Any:
+    if isinstance(value, Mapping):
+        return {str(k): _jsonable(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_jsonable(v) for v in value]
+    if isinstance(value, np.ndarray):
+        return _jsonable(value.tolist())
+    if isinstance(value, np.generic):
+        return value.item()
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    return value
+
+
+def _section_matrices(section: Section):
+    """Controllable canonical form of one section (0, 1 or 2 states)."""
+    den = np.array(section.den) / section.den[0]
+    num = np.zeros(len(den))
+    num[len(den) - len(section.num) :] = np.array(section.num) / section.den[0]
+    order = len(den) - 1
+    d = num[0]
+    if order == 0:
+        return np.zeros((0, 0)), np.zeros((0, 1)), np.zeros((1, 0)), np.array([[d]])
+    rest = num[1:] - d * den[1:]  # strictly proper part, highest power first
+    A = np.zeros((order, order))
+    A[0, :] = -den[1:]
+    if order == 2:
+        A[1, 0] = 1.0
+    B = np.zeros((order, 1))
+    B[0, 0] = 1.0
+    C = rest.reshape(1, order)
+    return A, B, C, np.array([[d]])
+
+
+def _series(first, second):
+    """second ∘ first (first's output drives second's input)."""
+    A1, B1, C1, D1 = first
+    A2, B2, C2, D2 = second
+    n1, n2 = A1.shape[0], A2.shape[0]
+    A = np.zeros((n1 + n2, n1 + n2))
+    A[:n1, :n1] = A1
+    A[n1:, :n1] = B2 @ C1
+    A[n1:, n1:] = A2
+    B = np.vstack([B1, B2 @ D1])
+    C = np.hstack([D2 @ C1, C2])
+    return A, B, C, D2 @ D1
+
+
+def _branch_matrices(branch: Branch):
+    system = (np.zeros((0, 0)), np.zeros((0, 1)), np.zeros((1, 0)), np.array([[branch.gain]]))
+    for section in branch.sections:
+        system = _series(system, _section_matrices(section))
+    return system
+
+
+def _parallel(blocks):
+    A = _blkdiag([b[0] for b in blocks])
+    B = np.vstack([b[1] for b in blocks])
+    C = np.hstack([b[2] for b in blocks])
+    D = sum(b[3] for b in blocks)
+    return A, B, C, D
+
+
+def _block_diagonal(systems):
+    A = _blkdiag([s[0] for s in systems])
+    B = _blkdiag([s[1] for s in systems])
+    C = _blkdiag([s[2] for s in systems])
+    D = _blkdiag([s[3] for s in systems])
+    return A, B, C, D
+
+
+def _blkdiag(mats):
+    rows = sum(m.shape[0] for m in mats)
+    cols = sum(m.shape[1] for m in mats)
+    out = np.zeros((rows, cols))
+    r = c = 0
+    for m in mats:
+        out[r : r + m.shape[0], c : c + m.shape[1]] = m
+        r += m.shape[0]
+        c += m.shape[1]
+    return out
