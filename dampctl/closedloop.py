@@ -21,11 +21,15 @@ from scipy.optimize import linear_sum_assignment
 __all__ = [
     "MatchedModes",
     "closed_loop_matrix",
+    "closed_loop_modes",
+    "effective_controller",
     "lag_elements",
     "match_modes",
     "modal_damping",
     "open_loop_poles",
     "pade_matrices",
+    "plant_loop_delay_s",
+    "sampling_delay_s",
     "series_matrices",
 ]
 
@@ -291,3 +295,90 @@ def open_loop_poles(omegas: np.ndarray, dampings: np.ndarray) -> np.ndarray:
     """Upper-half-plane poles −ζω + jω√(1−ζ²) (rad/s) of modes."""
     omegas, dampings = np.asarray(omegas, float), np.asarray(dampings, float)
     return -dampings * omegas + 1j * omegas * np.sqrt(1.0 - dampings**2)
+
+
+def sampling_delay_s(sample_rate_hz: float | None) -> float:
+    """Equivalent delay (s) of a zero-order hold plus one sample of computation: 1.5 / f_s.
+
+    The ZOH lags by exactly ωT/2 and one sample of latency by ωT (Franklin, Powell & Workman,
+    *Digital Control of Dynamic Systems*, 3rd ed. 1998, discrete equivalents); zero when no
+    sample rate is given.
+    """
+    return 0.0 if not sample_rate_hz else 1.5 / float(sample_rate_hz)
+
+
+def plant_loop_delay_s(plant) -> float:
+    """Loop delay (s) the plant file states: ``loop_delay_s`` plus ZOH and one sample."""
+    req = plant.requirements
+    return float(req.loop_delay_s or 0.0) + sampling_delay_s(req.sample_rate_hz)
+
+
+def effective_controller(
+    plant, design, *, delay_s: float | None = None, roll_off: bool = True, pade_order: int = 2
+) -> Matrices:
+    """The design's controller with the loop's delay and the hardware roll-offs folded in.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant (supplies actuator/sensor ``bandwidth_hz`` and the default delay).
+    design : Design
+        The design.
+    delay_s : float, optional
+        Loop delay (s); default :func:`plant_loop_delay_s` of the plant.
+    roll_off : bool, optional
+        Include the first-order actuator and sensor roll-offs stated in the plant file.
+    pade_order : int, optional
+        Order of the Padé approximant of the delay.
+
+    Returns
+    -------
+    tuple of ndarray
+        (A, B, C, D) with ``u = −(C x_c + D y)``.
+    """
+    delay = plant_loop_delay_s(plant) if delay_s is None else float(delay_s)
+    act_bw = [plant.actuator(a).bandwidth_hz for a in design.actuators] if roll_off else []
+    sen_bw = [_sensor_bandwidth(plant, s) for s in design.sensors] if roll_off else []
+    return lag_elements(
+        design.statespace_matrices(),
+        delay_s=delay,
+        actuator_bandwidth_hz=act_bw,
+        sensor_bandwidth_hz=sen_bw,
+        pade_order=pade_order,
+    )
+
+
+def _sensor_bandwidth(plant, name: str):
+    return next((s.bandwidth_hz for s in plant.sensors if s.name == name), None)
+
+
+def closed_loop_modes(
+    plant, design, *, delay_s: float | None = None, roll_off: bool = True, pade_order: int = 2
+) -> MatchedModes:
+    """Closed-loop poles of plant + design, matched to the plant's modes by assignment.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant (all its modes are in the loop).
+    design : Design
+        The design (its actuators and sensors must exist in the plant).
+    delay_s : float, optional
+        Loop delay (s), as a Padé approximant; default the plant's stated delay
+        (:func:`plant_loop_delay_s`). Pass 0 for the ideal loop.
+    roll_off : bool, optional
+        Include actuator and sensor roll-offs stated in the plant file.
+    pade_order : int, optional
+        Order of the delay approximant.
+
+    Returns
+    -------
+    MatchedModes
+        One matched pole per plant mode, plus the controller-side poles.
+    """
+    mats = plant.statespace_matrices(design.actuators, design.sensors)
+    ctrl = effective_controller(
+        plant, design, delay_s=delay_s, roll_off=roll_off, pade_order=pade_order
+    )
+    poles = np.linalg.eigvals(closed_loop_matrix(mats, ctrl))
+    return match_modes(open_loop_poles(plant.omegas, plant.dampings), poles)

@@ -1,0 +1,270 @@
+"""Loop-at-a-time stability margins at the plant input, from exact frequency responses.
+
+Each loop k is broken at the plant input with every other loop closed. With the input return
+ratio M(jω) = K(jω) G(jω) (actuators × actuators), the loop seen at input k is
+
+    L_k = 1 / [(I + M)^{-1}]_kk − 1,
+
+which reduces to L = K G for a single loop. Delays enter exactly as e^{−jωT} and the
+first-order hardware roll-offs as their frequency responses; no Padé approximant is used here.
+
+Definitions (negative feedback, instability where L = −1):
+
+* **gain margin** (dB): 20 log10(1/|L|) at the phase crossover (L real and negative) closest to
+  −1 from inside the unit circle — the gain increase that destabilizes; +inf when there is no
+  such crossover. A crossover outside the unit circle gives the *gain reduction margin*
+  (negative dB).
+* **phase margin** (deg): at each gain crossover (|L| = 1) the phase *lag* that brings L to
+  −180°, (arg L + 180°) mod 360°, minimized over crossovers. For velocity feedback the phase
+  at crossover can be positive (e.g. +88°), where python-control's ``stability_margins``
+  reports the wrapped value (−92°); the lag to −180° (here 268°) is what a delay must supply,
+  so it is what we report.
+* **delay margin** (s): min over gain crossovers of lag_k / ω_k (Åström & Murray, *Feedback
+  Systems*, 2008, frequency-domain robustness; a single-crossover loop gives PM/ω_c).
+
+Crossovers are bracketed on a dense grid that contains every natural frequency and then
+refined by root finding on the exact response, so the reported delay margin puts the loop at
+−180° to root-finder precision.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.optimize import brentq
+
+from dampctl.closedloop import plant_loop_delay_s
+
+__all__ = ["LoopMargins", "default_grid", "input_loops", "loop_margins", "siso_margins"]
+
+
+@dataclass(frozen=True)
+class LoopMargins:
+    """Margins of one loop broken at the plant input.
+
+    Attributes
+    ----------
+    loop : str
+        Actuator name of the broken loop.
+    gain_margin_db : float
+        Gain increase (dB) to instability; inf when none.
+    gain_reduction_margin_db : float or None
+        Gain decrease (dB, negative) to instability, when a phase crossover lies outside the
+        unit circle; None otherwise.
+    phase_margin_deg : float
+        Smallest phase lag (deg) that brings L to −180° at a gain crossover; inf when |L| never
+        reaches 1.
+    delay_margin_s : float
+        Smallest extra delay (s) that destabilizes; inf when |L| never reaches 1.
+    crossover_hz : float or None
+        Gain crossover (Hz) that sets the phase margin.
+    crossovers_hz : tuple of float
+        Every gain crossover found (Hz).
+    phase_crossovers_hz : tuple of float
+        Every phase crossover (L real negative) found (Hz).
+    """
+
+    loop: str
+    gain_margin_db: float
+    gain_reduction_margin_db: float | None
+    phase_margin_deg: float
+    delay_margin_s: float
+    crossover_hz: float | None
+    crossovers_hz: tuple[float, ...]
+    phase_crossovers_hz: tuple[float, ...]
+
+
+def default_grid(plant, design=None, *, points: int = 4000) -> np.ndarray:
+    """Frequency grid (Hz) that resolves every mode and the controller's poles.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        Supplies the natural frequencies and damping ratios.
+    design : Design, optional
+        Its controller poles are resolved too.
+    points : int, optional
+        Number of log-spaced points over the whole band.
+
+    Returns
+    -------
+    ndarray
+        Sorted, unique frequencies (Hz), > 0.
+    """
+    freqs = list(plant.freqs_hz)
+    zetas = list(np.maximum(plant.dampings, 1e-4))
+    if design is not None:
+        A = design.statespace_matrices()[0]
+        if A.size:
+            poles = np.linalg.eigvals(A)
+            for p in poles:
+                if abs(p) > 0:
+                    freqs.append(abs(p) / (2 * np.pi))
+                    zetas.append(max(min(-p.real / abs(p), 1.0), 1e-4))
+    f_lo, f_hi = min(freqs) / 100.0, max(freqs) * 100.0
+    parts = [np.geomspace(f_lo, f_hi, points)]
+    offsets = np.linspace(-8.0, 8.0, 81)
+    for f, z in zip(freqs, zetas, strict=True):
+        parts.append(f * np.exp(z * offsets))
+    grid = np.unique(np.concatenate(parts))
+    return grid[grid > 0]
+
+
+def input_loops(
+    plant, design, freq_hz: np.ndarray, *, delay_s: float | None = None, roll_off: bool = True
+) -> np.ndarray:
+    """Loop-at-a-time return ratios L_k(jω) at the plant input.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant.
+    design : Design
+        The controller (u = −K y).
+    freq_hz : array_like
+        Frequencies (Hz).
+    delay_s : float, optional
+        Loop delay (s), exact; default the plant's stated delay (loop_delay_s plus ZOH and one
+        sample at the stated sample rate).
+    roll_off : bool, optional
+        Include the actuator and sensor roll-offs stated in the plant file.
+
+    Returns
+    -------
+    ndarray of complex, shape (n_loops, n_freq)
+        L_k for each actuator of the design.
+    """
+    freq = np.asarray(freq_hz, dtype=float).ravel()
+    delay = plant_loop_delay_s(plant) if delay_s is None else float(delay_s)
+    G = plant.frf(freq, design.actuators, design.sensors)  # (n_s, n_a, f)
+    K = design.response(freq)  # (n_a, n_s, f)
+    s = 2j * np.pi * freq
+    if roll_off:
+        for a, name in enumerate(design.actuators):
+            bw = plant.actuator(name).bandwidth_hz
+            if bw:
+                G[:, a, :] /= 1.0 + s / (2 * np.pi * bw)
+        for k, name in enumerate(design.sensors):
+            sensor = next((x for x in plant.sensors if x.name == name), None)
+            if sensor is not None and sensor.bandwidth_hz:
+                G[k, :, :] /= 1.0 + s / (2 * np.pi * sensor.bandwidth_hz)
+    if delay > 0:
+        K = K * np.exp(-s * delay)[None, None, :]
+    M = np.einsum("asf,sbf->fab", K, G)
+    n = M.shape[1]
+    if n == 1:
+        return M[:, 0, 0][None, :]
+    inv = np.linalg.inv(np.eye(n)[None] + M)
+    diag = np.einsum("fkk->kf", inv)
+    return 1.0 / diag - 1.0
+
+
+def siso_margins(
+    loop: Callable[[np.ndarray], np.ndarray], grid_hz: np.ndarray, *, name: str = ""
+) -> LoopMargins:
+    """Margins of a SISO return ratio given as a function of frequency.
+
+    Parameters
+    ----------
+    loop : callable
+        ``loop(freq_hz) -> L`` (complex array of the same shape), evaluated exactly.
+    grid_hz : array_like
+        Grid (Hz) used to bracket crossovers; it must resolve the response's resonances.
+    name : str, optional
+        Loop name for the result.
+
+    Returns
+    -------
+    LoopMargins
+    """
+    grid = np.asarray(grid_hz, dtype=float)
+    values = loop(grid)
+    log_mag = np.log(np.abs(values))
+    gain_x = [
+        _refine(lambda f: np.log(np.abs(loop(np.array([f]))[0])), grid, log_mag, k)
+        for k in np.flatnonzero(np.sign(log_mag[:-1]) * np.sign(log_mag[1:]) < 0)
+    ]
+    imag = values.imag
+    phase_x = []
+    for k in np.flatnonzero(np.sign(imag[:-1]) * np.sign(imag[1:]) < 0):
+        if values.real[k] < 0 or values.real[k + 1] < 0:
+            f = _refine(lambda f: loop(np.array([f]))[0].imag, grid, imag, k)
+            if loop(np.array([f]))[0].real < 0:
+                phase_x.append(f)
+    lags, delays = [], []
+    for f in gain_x:
+        lag = np.mod(np.angle(loop(np.array([f]))[0]) + np.pi, 2 * np.pi)
+        lags.append(lag)
+        delays.append(lag / (2 * np.pi * f))
+    ups, downs = [], []
+    for f in phase_x:
+        factor = 1.0 / abs(loop(np.array([f]))[0])
+        (ups if factor > 1 else downs).append(factor)
+    if lags:
+        best = int(np.argmin(lags))
+        pm, crossover = float(np.degrees(lags[best])), float(gain_x[best])
+        dm = float(min(delays))
+    else:
+        pm, crossover, dm = np.inf, None, np.inf
+    return LoopMargins(
+        loop=name,
+        gain_margin_db=float(20 * np.log10(min(ups))) if ups else np.inf,
+        gain_reduction_margin_db=float(20 * np.log10(max(downs))) if downs else None,
+        phase_margin_deg=pm,
+        delay_margin_s=dm,
+        crossover_hz=crossover,
+        crossovers_hz=tuple(float(f) for f in gain_x),
+        phase_crossovers_hz=tuple(float(f) for f in phase_x),
+    )
+
+
+def loop_margins(
+    plant,
+    design,
+    *,
+    delay_s: float | None = None,
+    roll_off: bool = True,
+    freq_hz: np.ndarray | None = None,
+) -> tuple[LoopMargins, ...]:
+    """Loop-at-a-time margins of every loop of a design, broken at the plant input.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant.
+    design : Design
+        The design.
+    delay_s : float, optional
+        Loop delay (s), exact e^{−jωT}; default the plant's stated delay (loop_delay_s plus a
+        ZOH and one sample at the stated sample rate).
+    roll_off : bool, optional
+        Include the actuator and sensor roll-offs stated in the plant file.
+    freq_hz : array_like, optional
+        Bracketing grid (Hz); default :func:`default_grid`.
+
+    Returns
+    -------
+    tuple of LoopMargins
+        One per actuator of the design, in order.
+    """
+    grid = default_grid(plant, design) if freq_hz is None else np.asarray(freq_hz, float)
+    out = []
+    for k, name in enumerate(design.actuators):
+
+        def loop(f, k=k):
+            return input_loops(plant, design, f, delay_s=delay_s, roll_off=roll_off)[k]
+
+        out.append(siso_margins(loop, grid, name=name))
+    return tuple(out)
+
+
+def _refine(fn: Callable[[float], float], grid: np.ndarray, values: np.ndarray, k: int) -> float:
+    """Root of fn between grid[k] and grid[k+1] (brentq on log frequency)."""
+    lo, hi = np.log(grid[k]), np.log(grid[k + 1])
+    try:
+        x = brentq(lambda t: fn(np.exp(t)), lo, hi, xtol=1e-14, rtol=1e-14, maxiter=200)
+    except ValueError:
+        x = lo - values[k] * (hi - lo) / (values[k + 1] - values[k])
+    return float(np.exp(x))
