@@ -1,0 +1,97 @@
+"""The HTML report: self-contained, shows the stages' tables, renders in a real browser."""
+
+from __future__ import annotations
+
+import io
+import re
+import shutil
+import subprocess
+
+import pytest
+
+from dampctl.report import ReportInputs, render_report
+
+
+def _png() -> bytes:
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    fig, ax = plt.subplots(figsize=(2, 1.5))
+    ax.plot([0, 1], [0, 1])
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png")
+    plt.close(fig)
+    return buf.getvalue()
+
+
+def _inputs(met: bool = True) -> ReportInputs:
+    check = {"plant": "test stage", "fingerprint": "abc", "first_freq_hz": 100.0,
+             "modes": [{"mode": 1, "label": "x", "freq_hz": 100.0, "damping": 0.01,
+                        "modal_mass": 1.0}],
+             "pairs": [{"pair": "p1", "collocated": True, "kind": "force/velocity",
+                        "participation": [1.0]}],
+             "warnings": ["a warning"]}
+    design = {"law": "dvf", "pairs": ["p1"], "target_modes": [1],
+              "loops": [{"pair": "p1", "actuator": "f", "sensor": "v", "gain": 5.0,
+                         "branches": [{"gain": 5.0, "sections": [{"num": [1.0],
+                                                                  "den": [1e-4, 1.0]}]}]}]}
+    assessment = {"stable": True,
+                  "modes": [{"mode": 1, "open_freq_hz": 100.0, "open_damping": 0.01,
+                             "closed_freq_hz": 99.0, "closed_damping": 0.08,
+                             "peak_reduction_db": 18.0}],
+                  "loops": [{"pair": "p1", "gain_margin_db": 12.0, "phase_margin_deg": 80.0,
+                             "delay_margin_s": 1e-3, "crossover_hz": 120.0}],
+                  "requirements": [{"name": "min_damping", "required": 0.05,
+                                    "achieved": 0.08 if met else 0.03, "met": met}]}
+    return ReportInputs(check=check, design=design, assessment=assessment,
+                        figures={"a figure": _png()})
+
+
+def test_report_is_self_contained_and_has_the_tables():
+    text = render_report(_inputs())
+    assert text.startswith("<!DOCTYPE html>")
+    assert "Closed-loop modes" in text and "Stability margins" in text
+    assert "Safety." in text and "emergency stop" in text
+    assert 'src="data:image/png;base64,' in text
+    # nothing is fetched from elsewhere
+    assert not re.search(r'(src|href)="(https?:)?//', text)
+    assert "Every requirement of the plant file is met" in text
+
+
+def test_report_shows_a_missed_requirement():
+    text = render_report(_inputs(met=False))
+    assert "Requirements not met: min_damping" in text
+    assert "NOT MET" in text
+
+
+def _chromium() -> str | None:
+    for name in ("chromium", "chromium-browser", "google-chrome"):
+        path = shutil.which(name)
+        if path:
+            return path
+    return None
+
+
+@pytest.mark.skipif(_chromium() is None, reason="no Chromium installed to render the report")
+def test_report_renders_in_headless_chromium(tmp_path):
+    probe = ("<script>window.addEventListener('load', function () {"
+             "var imgs = document.images, ok = 0;"
+             "for (var i = 0; i < imgs.length; i++) {"
+             " if (imgs[i].complete && imgs[i].naturalWidth > 0) ok++; }"
+             "document.body.setAttribute('data-images', ok + '/' + imgs.length); });</script>")
+    text = render_report(_inputs()).replace("</body>", probe + "</body>")
+    page = tmp_path / "report.html"
+    page.write_text(text, encoding="utf-8")
+    result = subprocess.run(
+        [_chromium(), "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
+         "--no-first-run", "--disable-background-networking", "--disable-component-update",
+         "--disable-sync", f"--user-data-dir={tmp_path / 'profile'}",
+         "--virtual-time-budget=5000", "--dump-dom", page.as_uri()],
+        capture_output=True, text=True, timeout=120,
+    )
+    match = re.search(r'data-images="(\d+)/(\d+)"', result.stdout)
+    assert match, result.stderr[-2000:]
+    loaded, total = int(match.group(1)), int(match.group(2))
+    assert total >= 1 and loaded == total
