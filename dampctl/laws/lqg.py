@@ -1,0 +1,718 @@
+"""Model-based damping: an LQG controller on a reduced modal model, checked on the full plant.
+
+Where the pairs are not collocated, loops interact, or an optimal MIMO design is wanted,
+:func:`design` builds a linear-quadratic-Gaussian (LQG) controller: an LQR state feedback
+``u = −K x̂`` on a Kalman-filter estimate ``x̂`` of a *design model* made of the target modes and
+their neighbours. The user asks for damping, not for Q and R; the rules below turn damping into
+weights.
+
+**Regulator weights (damping → Q, R).** For one mode q'' + 2ζωq' + ω²q = b u with cost
+∫ q₂ q'² + r u² dt (no position weight), the Riccati equation has the closed form
+p₁₂ = 0, p₂₂ = r(√(4ζ²ω² + q₂β) − 2ζω) with β = b²/r, so the regulator is velocity feedback and
+the closed-loop damping is ζ_cl = √(ζ² + q₂β/(4ω²)) at unchanged ω (for ζ = 0 this is the
+closed form of Kwakernaak & Sivan / Anderson & Moore: ζ_cl = √(q₂/r)/(2ω)). Inverting it,
+each design-model mode i gets the velocity weight
+
+    q₂,i = 4 ω_i² (ζ_goal,i² − ζ_i²) / β_i,   β_i = Σ_j b_ij² / r_j  (0 when ζ_i ≥ ζ_goal,i)
+
+on its state q_i' (the position states ω_i q_i get no weight), where ζ_goal = the target
+damping for target modes and ``FLOOR_DAMPING`` for neighbours (neighbours are modelled, not
+targeted). With several inputs the rule stays exact for one mode (minimizing Σ r_j u_j² for a
+given modal force gives β); with several modes it is the well-separated-mode approximation, and
+the damping actually reached is reported. R = diag(r_j) with r_j = (L_min / L_j)² from the
+actuator limits L_j (``max_force_n``, ``max_stroke_m`` for struts; Bryson's rule, common
+practice) when every actuator states one, else R = I; only the ratios matter, since Q scales
+with R.
+
+**Estimator noise.** Sensor noise comes from ``noise_density`` (one-sided amplitude spectral
+density n, sensor unit/√Hz). White noise of continuous intensity V (E v(t)v(τ) = V δ(t−τ)) has
+two-sided PSD V and one-sided PSD 2V, so V = n²/2. Process noise enters each mode's velocity
+state (its modal force), modes taken independent:
+
+* ``"disturbances"`` (the default when the plant has disturbances and every sensor a noise
+  density): W_i = ½ Σ_d b_di² S_d(f_i), the one-sided force PSD S_d of each disturbance mapped
+  to modal force at the mode's own frequency (a lightly damped mode responds only near it);
+* ``"relative"`` (otherwise): the dual of the regulator rule, W_i = 4ω_i²(ζ_e² − ζ_i²)/γ_i with
+  γ_i = Σ_k ‖c_ki‖²/V_k (c_ki the sensor row on mode i's two states), which gives the
+  single-mode Kalman filter the damping ζ_e (default twice the target, at most 0.7: estimator
+  faster than regulator, common practice). Sensors without a noise density then get
+  V_k = max_i ‖c_ki‖² (relative units).
+
+Every mode keeps at least the floor W_i of ζ_e = ``FLOOR_DAMPING`` so undamped modes stay
+stabilizable. Riccati equations are solved by python-control ``lqr`` / ``lqe`` (slycot).
+
+**Design model.** The target modes plus their neighbours: every mode within a frequency factor
+``neighbours`` (default 2, an octave) of the target band, provided the actuators reach it and the
+sensors see it (a mode one of them misses cannot spill over; Balas 1978). Modes above the band
+enter as their static compliance (displacement-like sensors: + c b/ω²; accelerometers lose
+their direct term), modes below are left out. The controller is then always checked on the
+full plant with the plant's stated delay and roll-offs: every mode's closed-loop damping is
+listed and residual modes pushed unstable are flagged as spillover.
+
+**Reduction.** ``order=N`` reduces the controller by balanced truncation (python-control
+``balred``, slycot ``ab09ad``/``ab09md``; unstable controller poles are kept whole and the stable
+part is truncated, Hsu & Hou 1991). The error bound ‖K − K_N‖∞ ≤ 2 Σ discarded Hankel singular
+values of the stable part (Enns 1984; Glover 1984) is reported with the damping the reduced
+controller actually keeps on the full plant.
+
+**Margins.** LQG has no guaranteed margins (Doyle 1978), so loop-at-a-time gain and phase
+margins at the plant input are always given (:func:`dampctl.margins.loop_margins`).
+
+Controller convention (:mod:`dampctl.design`): with the design model x' = Ax + Bu,
+y = Cx + Du and u = −K x̂, the estimator x̂' = Ax̂ + Bu + L(y − Cx̂ − Du) gives
+x̂' = (A − BK − LC + LDK) x̂ + L y, stored as (A − BK − LC + LDK, L, K, 0) with u = −(C_c x_c + D_c y).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import Any, Literal
+
+import numpy as np
+
+from dampctl.closedloop import (
+    MatchedModes,
+    closed_loop_modes,
+    match_modes,
+    open_loop_poles,
+    plant_loop_delay_s,
+)
+from dampctl.design import Design
+from dampctl.errors import DesignRefused, MissingFeatureError, UsageError
+from dampctl.margins import loop_margins
+from dampctl.plant import ModalPlant
+
+__all__ = [
+    "DEFAULT_TARGET_DAMPING",
+    "FLOOR_DAMPING",
+    "NEIGHBOUR_FACTOR",
+    "Reduction",
+    "damping_weights",
+    "design",
+    "design_modes",
+    "lqg_controller",
+    "reduce_controller",
+]
+
+Matrices = tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]
+
+#: target damping ratio when neither the call nor the plant's requirements give one
+DEFAULT_TARGET_DAMPING = 0.05
+#: default frequency factor around the target band that selects neighbour modes
+NEIGHBOUR_FACTOR = 2.0
+#: damping goal of neighbour modes and floor of regulator/estimator weights
+FLOOR_DAMPING = 1e-3
+#: default estimator damping = this factor times the target damping, capped at 0.7
+ESTIMATOR_FACTOR = 2.0
+MAX_ESTIMATOR_DAMPING = 0.7
+#: a mode whose modal input (output) gain is below this fraction of the plant's largest is
+#: treated as unreachable (unseen)
+REACH_TOL = 1e-10
+#: residual-mode damping loss (relative) that is reported as spillover
+SPILLOVER_LOSS = 0.1
+
+REGULATOR_RULE = (
+    "velocity weight per design-model mode q2 = 4 w^2 (z_goal^2 - z^2) / beta, "
+    "beta = sum_j b_j^2 / r_j; z_goal = target damping (targets), floor (neighbours); "
+    "exact for one mode: z_cl = sqrt(z^2 + q2 beta / (4 w^2))"
+)
+
+
+def damping_weights(
+    omegas: np.ndarray, dampings: np.ndarray, goals: np.ndarray, gains: np.ndarray
+) -> np.ndarray:
+    """Velocity weights that give each mode a damping goal (the single-mode LQR closed form).
+
+    Parameters
+    ----------
+    omegas : array_like
+        Natural frequencies ω_i (rad/s).
+    dampings : array_like
+        Open-loop damping ratios ζ_i.
+    goals : array_like
+        Damping ratios wanted, one per mode.
+    gains : array_like
+        Squared modal input gains β_i = Σ_j b_ij²/r_j (regulator), or squared modal output gains
+        γ_i = Σ_k ‖c_ki‖²/V_k (estimator, by duality), > 0.
+
+    Returns
+    -------
+    ndarray
+        q_i = 4 ω_i² max(goal_i² − ζ_i², 0) / β_i: the weight on the velocity state (regulator)
+        or the process-noise intensity on it (estimator).
+    """
+    omegas, dampings = np.asarray(omegas, float), np.asarray(dampings, float)
+    goals, gains = np.asarray(goals, float), np.asarray(gains, float)
+    return 4.0 * omegas**2 * np.maximum(goals**2 - dampings**2, 0.0) / gains
+
+
+def lqg_controller(
+    A: np.ndarray, B: np.ndarray, C: np.ndarray, D: np.ndarray, K: np.ndarray, L: np.ndarray
+) -> Matrices:
+    """Observer-based controller of a plant model, in the ``u = −(C_c x_c + D_c y)`` convention.
+
+    Parameters
+    ----------
+    A, B, C, D : ndarray
+        Model x' = Ax + Bu, y = Cx + Du (inputs actuators, outputs sensors, SI units).
+    K : ndarray, shape (n_u, n)
+        State-feedback gain, u = −K x̂.
+    L : ndarray, shape (n, n_y)
+        Estimator gain, x̂' = A x̂ + B u + L (y − C x̂ − D u).
+
+    Returns
+    -------
+    tuple of ndarray
+        (A − BK − LC + LDK, L, K, 0).
+    """
+    A, B, C, D, K, L = (np.asarray(m, dtype=float) for m in (A, B, C, D, K, L))
+    Ac = A - B @ K - L @ C + L @ D @ K
+    return Ac, L.copy(), K.copy(), np.zeros((K.shape[0], L.shape[1]))
+
+
+def design_modes(
+    plant: ModalPlant, targets: Sequence[int], *, neighbours: float = NEIGHBOUR_FACTOR
+) -> tuple[int, ...]:
+    """Target modes plus neighbours within a frequency factor of the target band (0-based).
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant.
+    targets : sequence of int
+        Target modes, 0-based indices.
+    neighbours : float, optional
+        Frequency factor (>= 1): modes with f_min/neighbours <= f <= f_max·neighbours join.
+
+    Returns
+    -------
+    tuple of int
+        Sorted 0-based mode indices of the design model (before reachability checks).
+    """
+    w = plant.omegas
+    lo, hi = np.min(w[list(targets)]) / neighbours, np.max(w[list(targets)]) * neighbours
+    chosen = set(targets) | {i for i in range(plant.n_modes) if lo <= w[i] <= hi}
+    return tuple(sorted(chosen))
+
+
+@dataclass(frozen=True)
+class Reduction:
+    """A controller reduced by balanced truncation.
+
+    Attributes
+    ----------
+    controller : tuple of ndarray
+        Reduced (A, B, C, D), same convention and units as the full controller.
+    order, full_order : int
+        Reduced and full state counts.
+    hankel_singular_values : tuple of float
+        Hankel singular values of the stable part of the full controller, decreasing.
+    unstable_states : int
+        Controller poles with Re ≥ 0, kept unreduced.
+    error_bound : float
+        2 Σ discarded Hankel singular values, a bound on ‖K − K_r‖∞ (sensor unit → actuator
+        unit).
+    """
+
+    controller: Matrices
+    order: int
+    full_order: int
+    hankel_singular_values: tuple[float, ...]
+    unstable_states: int
+    error_bound: float
+
+
+def reduce_controller(controller: Matrices, order: int) -> Reduction:
+    """Reduce a controller by balanced truncation (python-control ``balred`` with slycot).
+
+    Parameters
+    ----------
+    controller : tuple of ndarray
+        (A, B, C, D) of the controller.
+    order : int
+        States to keep, at least the number of unstable controller poles.
+
+    Returns
+    -------
+    Reduction
+
+    Raises
+    ------
+    UsageError
+        When ``order`` is below the unstable pole count or not below the full order.
+    MissingFeatureError
+        When slycot is not installed.
+    """
+    try:
+        from slycot import ab09ad, ab09md
+    except ImportError:
+        raise MissingFeatureError(
+            "controller reduction (--order) needs slycot; install it with pip install slycot"
+        ) from None
+    import control
+
+    A, B, C, D = (np.array(m, dtype=float) for m in controller)
+    n, m, p = A.shape[0], B.shape[1], C.shape[0]
+    n_unstable = int(np.sum(np.linalg.eigvals(A).real >= 0.0))
+    if not n_unstable <= order < n:
+        raise UsageError(
+            f"order must be between the controller's {n_unstable} unstable poles and its full "
+            f"order {n} (exclusive), got {order}",
+            field="order",
+        )
+    reduced = control.balred(control.ss(A, B, C, D), order, method="truncate")
+    if n_unstable:
+        *_, n_stable, hsv = ab09md(
+            "C", "B", "N", n, m, p, A.copy(), B.copy(), C.copy(), alpha=0.0, nr=order, tol=0.0
+        )
+    else:
+        *_, hsv = ab09ad("C", "B", "N", n, m, p, A.copy(), B.copy(), C.copy(), nr=order, tol=0.0)
+        n_stable = n
+    hsv = np.asarray(hsv[:n_stable], dtype=float)
+    bound = 2.0 * float(np.sum(hsv[order - n_unstable :]))
+    mats = tuple(np.asarray(x, dtype=float) for x in (reduced.A, reduced.B, reduced.C, reduced.D))
+    return Reduction(
+        controller=mats,
+        order=int(mats[0].shape[0]),
+        full_order=n,
+        hankel_singular_values=tuple(float(v) for v in hsv),
+        unstable_states=n_unstable,
+        error_bound=bound,
+    )
+
+
+# ---------------------------------------------------------------------- the law
+def design(
+    plant: ModalPlant,
+    actuators: Sequence[str],
+    sensors: Sequence[str],
+    *,
+    modes: Sequence[int] | None = None,
+    target_damping: float | None = None,
+    order: int | None = None,
+    neighbours: float = NEIGHBOUR_FACTOR,
+    process_noise: Literal["auto", "disturbances", "relative"] = "auto",
+    estimator_damping: float | None = None,
+    delay_s: float | None = None,
+    pairs: Sequence[str] = (),
+) -> Design:
+    """Design an LQG damping controller and check it on the full plant.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant (all its modes are used in the check).
+    actuators, sensors : sequence of str
+        Actuator names (controller outputs: N or m) and sensor names (controller inputs, SI).
+        May be empty when ``pairs`` is given.
+    modes : sequence of int, optional
+        Target modes, 1-based; default the plant's ``requirements.modes``, else every mode.
+    target_damping : float, optional
+        Closed-loop damping ratio wanted on the target modes, in (0, 1); default the plant's
+        ``requirements.min_damping``, else 0.05.
+    order : int, optional
+        Reduce the controller to this many states by balanced truncation.
+    neighbours : float, optional
+        Frequency factor (>= 1) around the target band whose modes join the design model;
+        default 2. Use 1 for the target modes only.
+    process_noise : {"auto", "disturbances", "relative"}, optional
+        Estimator process-noise rule (module docstring). ``auto``: ``disturbances`` when the
+        plant has disturbances and every sensor a noise density, else ``relative``.
+    estimator_damping : float, optional
+        Damping ratio the ``relative`` rule gives each mode's estimator, in (0, 1); default
+        min(2 × target damping, 0.7).
+    delay_s : float, optional
+        Loop delay (s) used in the full-plant check and margins; default the plant's stated
+        delay (``loop_delay_s`` plus ZOH and one sample at ``sample_rate_hz``).
+    pairs : sequence of str, optional
+        Pair names; when given they set the actuators and sensors (pair k: actuator k,
+        sensor k) and are recorded in the design.
+
+    Returns
+    -------
+    Design
+        ``law="lqg"``, ``controller=(A, B, C, D)``; ``info`` holds the rules and weights, the
+        design model, the full-plant closed-loop modes with spillover flags, the reduction
+        (bound, damping kept) and the loop-at-a-time margins at the plant input.
+
+    Raises
+    ------
+    UsageError
+        Bad mode numbers, damping, order or option values.
+    DesignRefused
+        A target mode the actuators cannot reach or the sensors cannot see.
+    """
+    actuators, sensors, pairs = _hardware(plant, actuators, sensors, pairs)
+    targets = _targets(plant, modes)
+    zeta_c = _target_damping(plant, target_damping)
+    if not neighbours >= 1.0:
+        raise UsageError(f"neighbours must be a frequency factor >= 1, got {neighbours}")
+    if process_noise not in ("auto", "disturbances", "relative"):
+        raise UsageError(
+            f"process_noise must be one of auto, disturbances, relative, got {process_noise!r}"
+        )
+    zeta_e = min(ESTIMATOR_FACTOR * zeta_c, MAX_ESTIMATOR_DAMPING)
+    if estimator_damping is not None:
+        zeta_e = _ratio(estimator_damping, "estimator_damping")
+    if order is not None and (isinstance(order, bool) or int(order) != order or order < 1):
+        raise UsageError(f"order must be a whole number of states >= 1, got {order!r}")
+
+    full = plant.statespace_matrices(actuators, sensors)
+    beta_all = _input_gains(full, plant.n_modes, _input_weights(plant, actuators))
+    warnings: list[str] = []
+    kept, dropped = _reachable(plant, targets, neighbours, full, beta_all)
+    model = _design_model(plant, full, kept, actuators, sensors)
+    w, z = plant.omegas[kept], plant.dampings[kept]
+    r = _input_weights(plant, actuators)
+    goals = np.array([zeta_c if i in targets else FLOOR_DAMPING for i in kept])
+    beta = _input_gains(model, len(kept), r)
+    q_vel = damping_weights(w, z, np.maximum(goals, FLOOR_DAMPING), beta)
+    q_vel = np.maximum(q_vel, damping_weights(w, z, np.full(w.shape, FLOOR_DAMPING), beta))
+    noise = _estimator_noise(plant, model, kept, sensors, process_noise, zeta_e)
+    if noise["relative_sensor_noise"]:
+        warnings.append(
+            "some sensors have no noise_density: estimator noise is in relative units"
+        )
+    K, L = _gains(model, q_vel, r, noise["W"], noise["V"])
+    controller = lqg_controller(*model, K, L)
+
+    info: dict[str, Any] = {
+        "target_damping": zeta_c,
+        "regulator": {
+            "rule": REGULATOR_RULE,
+            "state_weight": "velocity states only",
+            "velocity_weights": q_vel.tolist(),
+            "input_weights": r.tolist(),
+            "damping_goals": goals.tolist(),
+            "regulator_damping": _pole_damping(model[0] - model[1] @ K, w, z),
+        },
+        "estimator": {
+            "process_noise": noise["rule"],
+            "sensor_noise_density": noise["density"],
+            "sensor_noise_intensity": np.diag(noise["V"]).tolist(),
+            "process_noise_intensity": noise["W"].tolist(),
+            "estimator_damping_goal": zeta_e if noise["rule"] == "relative" else None,
+            "estimator_damping": _pole_damping(model[0] - L @ model[2], w, z),
+            "conversion": "intensity = ASD^2 / 2 (one-sided ASD to continuous white intensity)",
+        },
+        "design_model": {
+            "modes": [i + 1 for i in kept],
+            "targets": [i + 1 for i in targets],
+            "neighbours": [i + 1 for i in kept if i not in targets],
+            "left_out": dropped,
+            "neighbour_factor": float(neighbours),
+            "static_correction": "modes above the band as static compliance",
+        },
+    }
+    result = _make(plant, actuators, sensors, targets, controller, pairs, info)
+    delay = plant_loop_delay_s(plant) if delay_s is None else float(delay_s)
+    check = _closed_loop_info(plant, result, targets, kept, delay)
+    info["closed_loop"] = check
+    info["full_order"] = int(controller[0].shape[0])
+    info["controller_order"] = info["full_order"]
+    info["reduction"] = None
+    if order is not None and int(order) != controller[0].shape[0]:
+        reduction = reduce_controller(controller, int(order))
+        result = _make(plant, actuators, sensors, targets, reduction.controller, pairs, info)
+        reduced_check = _closed_loop_info(plant, result, targets, kept, delay)
+        info["reduction"] = {
+            "method": "balanced truncation (stable part; unstable poles kept)",
+            "order": reduction.order,
+            "full_order": reduction.full_order,
+            "unstable_states": reduction.unstable_states,
+            "hankel_singular_values": list(reduction.hankel_singular_values),
+            "error_bound": reduction.error_bound,
+            "full_order_target_damping_min": check["target_damping_min"],
+            "kept_target_damping_min": reduced_check["target_damping_min"],
+        }
+        info["closed_loop_full_order"] = check
+        info["closed_loop"] = check = reduced_check
+        info["controller_order"] = reduction.order
+    info["margins"] = _margins_info(plant, result, delay)
+    info["margins_note"] = (
+        "loop-at-a-time at the plant input, other loops closed; LQG has no guaranteed margins "
+        "(Doyle 1978); null = no crossover"
+    )
+    warnings += _warnings(plant, check, info["margins"], zeta_c)
+    info["warnings"] = warnings
+    return _make(plant, actuators, sensors, targets, result.controller, pairs, info)
+
+
+# ---------------------------------------------------------------------- helpers
+def _make(plant, actuators, sensors, targets, controller, pairs, info) -> Design:
+    return Design(
+        law="lqg",
+        plant_fingerprint=plant.fingerprint,
+        actuators=tuple(actuators),
+        sensors=tuple(sensors),
+        target_modes=tuple(i + 1 for i in targets),
+        controller=controller,
+        pairs=tuple(pairs),
+        plant_title=plant.title,
+        info=info,
+    )
+
+
+def _hardware(plant, actuators, sensors, pairs):
+    actuators, sensors, pairs = list(actuators), list(sensors), list(pairs)
+    if pairs:
+        from_pairs = [plant.pair(p) for p in pairs]
+        a = [p.actuator for p in from_pairs]
+        s = [p.sensor for p in from_pairs]
+        if (actuators and actuators != a) or (sensors and sensors != s):
+            raise UsageError("give either pairs or actuators and sensors, not conflicting both")
+        actuators, sensors = a, s
+    if not actuators or not sensors:
+        raise UsageError("LQG needs at least one actuator and one sensor")
+    for names, what in ((actuators, "actuator"), (sensors, "sensor")):
+        if len(set(names)) != len(names):
+            raise UsageError(f"an {what} is named twice in {names}")
+    for name in actuators:
+        plant.actuator(name)
+    for name in sensors:
+        plant.sensor(name)
+    return actuators, sensors, pairs
+
+
+def _targets(plant, modes) -> list[int]:
+    numbers = list(plant.requirements.modes) if modes is None else list(modes)
+    if not numbers:
+        numbers = list(range(1, plant.n_modes + 1))
+    for m in numbers:
+        if isinstance(m, bool) or int(m) != m or not 1 <= m <= plant.n_modes:
+            raise UsageError(f"mode {m!r} does not exist (the plant has modes 1-{plant.n_modes})")
+    return sorted({int(m) - 1 for m in numbers})
+
+
+def _ratio(value, name: str) -> float:
+    value = float(value)
+    if not 0.0 < value < 1.0:
+        raise UsageError(f"{name} must be a damping ratio in (0, 1), got {value!r}")
+    return value
+
+
+def _target_damping(plant, target_damping) -> float:
+    if target_damping is None:
+        target_damping = plant.requirements.min_damping or DEFAULT_TARGET_DAMPING
+    return _ratio(target_damping, "target_damping")
+
+
+def _input_weights(plant, actuators) -> np.ndarray:
+    limits = []
+    for name in actuators:
+        act = plant.actuator(name)
+        limits.append(act.max_force_n if act.kind == "force" else act.max_stroke_m)
+    if any(v is None for v in limits):
+        return np.ones(len(actuators))
+    limits = np.asarray(limits, dtype=float)
+    return (limits.min() / limits) ** 2
+
+
+def _input_gains(mats, n_modes: int, r: np.ndarray) -> np.ndarray:
+    B = mats[1]
+    rows = B[2 * np.arange(n_modes) + 1]
+    return np.sum(rows**2 / r[None, :], axis=1)
+
+
+def _output_gains(C: np.ndarray, n_modes: int, V: np.ndarray) -> np.ndarray:
+    blocks = C.reshape(C.shape[0], n_modes, 2)
+    return np.sum(np.sum(blocks**2, axis=2) / V[:, None], axis=0)
+
+
+def _reachable(plant, targets, neighbours, full, beta_all):
+    """Design-model modes (0-based) and the neighbours left out, with the reason."""
+    C = full[2]
+    gamma_all = _output_gains(C, plant.n_modes, np.ones(C.shape[0]))
+    reach = beta_all > REACH_TOL * np.max(beta_all) if np.max(beta_all) > 0 else beta_all > 0
+    seen = gamma_all > REACH_TOL * np.max(gamma_all) if np.max(gamma_all) > 0 else gamma_all > 0
+    for i in targets:
+        if not reach[i]:
+            raise DesignRefused(
+                f"mode {i + 1} cannot be reached by the actuators (its shape is zero there)"
+            )
+        if not seen[i]:
+            raise DesignRefused(f"mode {i + 1} cannot be seen by the sensors")
+    kept, dropped = [], []
+    for i in design_modes(plant, targets, neighbours=neighbours):
+        if reach[i] and seen[i]:
+            kept.append(i)
+        else:
+            why = "not reached by the actuators" if not reach[i] else "not seen by the sensors"
+            dropped.append({"mode": i + 1, "reason": why + " (cannot spill over)"})
+    return kept, dropped
+
+
+def _design_model(plant, full, kept, actuators, sensors) -> Matrices:
+    """Sliced modal model of the kept modes with the static correction of higher modes."""
+    A, B, C, D = full
+    idx = np.ravel([[2 * i, 2 * i + 1] for i in kept])
+    D = D.copy()
+    w_top = plant.omegas[kept].max()
+    above = [i for i in range(plant.n_modes) if i not in kept and plant.omegas[i] > w_top]
+    if above:
+        b = np.column_stack([plant.input_row(a) for a in actuators])  # n_modes × n_u
+        for o, name in enumerate(sensors):
+            row, order = plant.output_row(name)
+            if order == 0:
+                D[o] += (row[above] / plant.omegas[above] ** 2) @ b[above]
+            elif order == 2:
+                D[o] -= row[above] @ b[above]
+    return A[np.ix_(idx, idx)], B[idx], C[:, idx], D
+
+
+def _estimator_noise(plant, model, kept, sensors, rule, zeta_e) -> dict:
+    density = [float(plant.sensor(s).noise_density) for s in sensors]
+    have_noise = all(d > 0 for d in density)
+    C = model[2]
+    n = len(kept)
+    if have_noise:
+        V = np.array(density) ** 2 / 2.0
+    else:
+        blocks = C.reshape(C.shape[0], n, 2)
+        V = np.max(np.sum(blocks**2, axis=2), axis=1)
+    if rule == "auto":
+        rule = "disturbances" if plant.disturbances and have_noise else "relative"
+    if rule == "disturbances" and not (plant.disturbances and have_noise):
+        raise UsageError(
+            "process_noise='disturbances' needs disturbances in the plant and a noise_density "
+            "on every sensor"
+        )
+    w, z = plant.omegas[kept], plant.dampings[kept]
+    gamma = _output_gains(C, n, V)
+    floor = damping_weights(w, z, np.full(n, FLOOR_DAMPING), gamma)
+    if rule == "disturbances":
+        W = np.zeros(n)
+        for d in plant.disturbances:
+            b = plant.input_row(d.name)[kept]
+            W += 0.5 * b**2 * d.psd_at(plant.freqs_hz[kept])
+    else:
+        W = damping_weights(w, z, np.full(n, zeta_e), gamma)
+    return {
+        "rule": rule,
+        "density": density,
+        "V": np.diag(V),
+        "W": np.maximum(W, floor),
+        "relative_sensor_noise": not have_noise,
+    }
+
+
+def _gains(model, q_vel, r, W, V):
+    """LQR and Kalman gains, with each Riccati problem scaled for the solver.
+
+    K is unchanged when Q and R are scaled by one factor, and L when W and V are; the factors
+    are chosen so that the weights on the two sides of each Hamiltonian are of one size (in SI
+    units they can differ by 10 orders of magnitude, which the Schur ordering does not survive).
+    """
+    import control
+
+    A, B, C, _ = model
+    n = A.shape[0] // 2
+    vel = 2 * np.arange(n) + 1
+    beta = _input_gains(model, n, r)
+    gamma = _output_gains(C, n, np.diag(V))
+    Q = np.zeros((2 * n, 2 * n))
+    Q[vel, vel] = q_vel
+    c_r = np.sqrt(np.median(beta) / max(np.median(q_vel), 1e-300 * np.median(beta)))
+    K, _, _ = control.lqr(A, B, Q * c_r, np.diag(r) * c_r)
+    G = np.zeros((2 * n, n))
+    G[vel, np.arange(n)] = 1.0
+    c_e = np.sqrt(np.median(W) / np.median(gamma))
+    L, _, _ = control.lqe(A, G, C, np.diag(W) / c_e, V / c_e)
+    return np.asarray(K), np.asarray(L)
+
+
+def _pole_damping(Acl: np.ndarray, w: np.ndarray, z: np.ndarray) -> list[float]:
+    matched = match_modes(open_loop_poles(w, z), np.linalg.eigvals(Acl))
+    return [float(v) for v in matched.damping]
+
+
+def _closed_loop_info(plant, design_, targets, kept, delay) -> dict:
+    cl: MatchedModes = closed_loop_modes(plant, design_, delay_s=delay)
+    rows, unstable, reduced = [], [], []
+    for i in range(plant.n_modes):
+        role = "target" if i in targets else ("neighbour" if i in kept else "residual")
+        zeta_ol, zeta_cl = float(plant.dampings[i]), float(cl.damping[i])
+        is_unstable = bool(cl.poles[i].real >= 0)
+        rows.append(
+            {
+                "mode": i + 1,
+                "role": role,
+                "freq_hz": float(plant.freqs_hz[i]),
+                "open_loop_damping": zeta_ol,
+                "closed_loop_freq_hz": float(cl.freq_hz[i]),
+                "closed_loop_damping": zeta_cl,
+                "unstable": is_unstable,
+            }
+        )
+        if role != "target":
+            if is_unstable:
+                unstable.append(i + 1)
+            elif zeta_cl < (1.0 - SPILLOVER_LOSS) * zeta_ol:
+                reduced.append(i + 1)
+    target_min = min(rows[i]["closed_loop_damping"] for i in targets)
+    return {
+        "delay_s": delay,
+        "stable": cl.stable,
+        "max_real_per_s": cl.max_real,
+        "target_damping_min": float(target_min),
+        "modes": rows,
+        "residual_modes": [r for r in rows if r["role"] != "target"],
+        "spillover_unstable": unstable,
+        "spillover_reduced": reduced,
+    }
+
+
+def _finite_or_none(value):
+    if value is None:
+        return None
+    value = float(value)
+    return value if np.isfinite(value) else None
+
+
+def _margins_info(plant, design_, delay) -> list[dict]:
+    out = []
+    for m in loop_margins(plant, design_, delay_s=delay):
+        out.append(
+            {
+                "actuator": m.loop,
+                "gain_margin_db": _finite_or_none(m.gain_margin_db),
+                "gain_reduction_margin_db": _finite_or_none(m.gain_reduction_margin_db),
+                "phase_margin_deg": _finite_or_none(m.phase_margin_deg),
+                "delay_margin_s": _finite_or_none(m.delay_margin_s),
+                "crossover_hz": _finite_or_none(m.crossover_hz),
+            }
+        )
+    return out
+
+
+def _warnings(plant, check, margins, zeta_c) -> list[str]:
+    out = []
+    if not check["stable"]:
+        out.append(
+            "the closed loop on the full plant is UNSTABLE (its margins do not mean stability)"
+        )
+    if check["spillover_unstable"]:
+        modes = ", ".join(str(m) for m in check["spillover_unstable"])
+        out.append(
+            f"spillover: mode(s) {modes} outside the targets are driven unstable (add them "
+            "to the design model, e.g. raise neighbours, or use collocated pairs)"
+        )
+    if check["spillover_reduced"]:
+        modes = ", ".join(str(m) for m in check["spillover_reduced"])
+        out.append(f"spillover: damping of mode(s) {modes} is reduced by the loop")
+    if check["target_damping_min"] < zeta_c:
+        out.append(
+            f"target damping {zeta_c:.3g} not reached (lowest target mode damping "
+            f"{check['target_damping_min']:.3g})"
+        )
+    req = plant.requirements
+    for m in margins:
+        gm, pm = m["gain_margin_db"], m["phase_margin_deg"]
+        if req.min_gain_margin_db is not None and gm is not None and gm < req.min_gain_margin_db:
+            out.append(f"loop {m['actuator']}: gain margin {gm:.3g} dB below the requirement")
+        if req.min_phase_margin_deg is not None and pm is not None and (
+            pm < req.min_phase_margin_deg
+        ):
+            out.append(f"loop {m['actuator']}: phase margin {pm:.3g} deg below the requirement")
+    return out
