@@ -60,7 +60,8 @@ margins at the plant input are always given (:func:`dampctl.margins.loop_margins
 
 Controller convention (:mod:`dampctl.design`): with the design model x' = Ax + Bu,
 y = Cx + Du and u = −K x̂, the estimator x̂' = Ax̂ + Bu + L(y − Cx̂ − Du) gives
-x̂' = (A − BK − LC + LDK) x̂ + L y, stored as (A − BK − LC + LDK, L, K, 0) with u = −(C_c x_c + D_c y).
+x̂' = (A − BK − LC + LDK) x̂ + L y, stored as (A − BK − LC + LDK, L, K, 0) with
+u = −(C_c x_c + D_c y).
 """
 
 from __future__ import annotations
