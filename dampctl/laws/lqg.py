@@ -34,9 +34,10 @@ state (its modal force), modes taken independent:
   to modal force at the mode's own frequency (a lightly damped mode responds only near it);
 * ``"relative"`` (otherwise): the dual of the regulator rule, W_i = 4ω_i²(ζ_e² − ζ_i²)/γ_i with
   γ_i = Σ_k ‖c_ki‖²/V_k (c_ki the sensor row on mode i's two states), which gives the
-  single-mode Kalman filter the damping ζ_e (default twice the target, at most 0.7: estimator
-  faster than regulator, common practice). Sensors without a noise density then get
-  V_k = max_i ‖c_ki‖² (relative units).
+  single-mode Kalman filter the damping ζ_e on target modes (default twice the target, at most
+  0.7: estimator faster than regulator, common practice) and ``FLOOR_DAMPING`` on neighbours
+  (their estimate follows the model's prediction of their response to u). Sensors without a
+  noise density then get V_k = max_i ‖c_ki‖² (relative units).
 
 Every mode keeps at least the floor W_i of ζ_e = ``FLOOR_DAMPING`` so undamped modes stay
 stabilizable. Riccati equations are solved by python-control ``lqr`` / ``lqe`` (slycot).
@@ -89,8 +90,10 @@ __all__ = [
     "FLOOR_DAMPING",
     "NEIGHBOUR_FACTOR",
     "Reduction",
+    "check_on_plant",
     "damping_weights",
     "design",
+    "design_model_matrices",
     "design_modes",
     "lqg_controller",
     "reduce_controller",
@@ -363,14 +366,15 @@ def design(
     beta_all = _input_gains(full, plant.n_modes, _input_weights(plant, actuators))
     warnings: list[str] = []
     kept, dropped = _reachable(plant, targets, neighbours, full, beta_all)
-    model = _design_model(plant, full, kept, actuators, sensors)
+    model = design_model_matrices(plant, actuators, sensors, [i + 1 for i in kept])
     w, z = plant.omegas[kept], plant.dampings[kept]
     r = _input_weights(plant, actuators)
     goals = np.array([zeta_c if i in targets else FLOOR_DAMPING for i in kept])
     beta = _input_gains(model, len(kept), r)
     q_vel = damping_weights(w, z, np.maximum(goals, FLOOR_DAMPING), beta)
     q_vel = np.maximum(q_vel, damping_weights(w, z, np.full(w.shape, FLOOR_DAMPING), beta))
-    noise = _estimator_noise(plant, model, kept, sensors, process_noise, zeta_e)
+    est_goals = np.array([zeta_e if i in targets else FLOOR_DAMPING for i in kept])
+    noise = _estimator_noise(plant, model, kept, sensors, process_noise, est_goals)
     if noise["relative_sensor_noise"]:
         warnings.append(
             "some sensors have no noise_density: estimator noise is in relative units"
@@ -393,7 +397,7 @@ def design(
             "sensor_noise_density": noise["density"],
             "sensor_noise_intensity": np.diag(noise["V"]).tolist(),
             "process_noise_intensity": noise["W"].tolist(),
-            "estimator_damping_goal": zeta_e if noise["rule"] == "relative" else None,
+            "estimator_damping_goals": est_goals.tolist() if noise["rule"] == "relative" else None,
             "estimator_damping": _pole_damping(model[0] - L @ model[2], w, z),
             "conversion": "intensity = ASD^2 / 2 (one-sided ASD to continuous white intensity)",
         },
@@ -408,7 +412,8 @@ def design(
     }
     result = _make(plant, actuators, sensors, targets, controller, pairs, info)
     delay = plant_loop_delay_s(plant) if delay_s is None else float(delay_s)
-    check = _closed_loop_info(plant, result, targets, kept, delay)
+    model_modes = [i + 1 for i in kept]
+    check = check_on_plant(plant, result, model_modes=model_modes, delay_s=delay)
     info["closed_loop"] = check
     info["full_order"] = int(controller[0].shape[0])
     info["controller_order"] = info["full_order"]
@@ -416,7 +421,7 @@ def design(
     if order is not None and int(order) != controller[0].shape[0]:
         reduction = reduce_controller(controller, int(order))
         result = _make(plant, actuators, sensors, targets, reduction.controller, pairs, info)
-        reduced_check = _closed_loop_info(plant, result, targets, kept, delay)
+        reduced_check = check_on_plant(plant, result, model_modes=model_modes, delay_s=delay)
         info["reduction"] = {
             "method": "balanced truncation (stable part; unstable poles kept)",
             "order": reduction.order,
@@ -544,8 +549,31 @@ def _reachable(plant, targets, neighbours, full, beta_all):
     return kept, dropped
 
 
-def _design_model(plant, full, kept, actuators, sensors) -> Matrices:
-    """Sliced modal model of the kept modes with the static correction of higher modes."""
+def design_model_matrices(
+    plant: ModalPlant, actuators: Sequence[str], sensors: Sequence[str], modes: Sequence[int]
+) -> Matrices:
+    """State space of the design model: the given modes, with the static correction of higher ones.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The full plant.
+    actuators, sensors : sequence of str
+        Inputs (N or m) and outputs (SI units).
+    modes : sequence of int
+        Modes of the model, 1-based.
+
+    Returns
+    -------
+    tuple of ndarray
+        (A, B, C, D) in the balanced modal form of :meth:`ModalPlant.statespace_matrices`,
+        restricted to ``modes``. Modes above the highest kept one add their static compliance
+        c b/ω² to D for displacement-like (and force) sensors and drop their direct term c b for
+        accelerometers, so the model's DC gain of a displacement sensor is the full plant's when
+        no lower mode is left out.
+    """
+    kept = sorted(int(m) - 1 for m in modes)
+    full = plant.statespace_matrices(actuators, sensors)
     A, B, C, D = full
     idx = np.ravel([[2 * i, 2 * i + 1] for i in kept])
     D = D.copy()
@@ -562,7 +590,7 @@ def _design_model(plant, full, kept, actuators, sensors) -> Matrices:
     return A[np.ix_(idx, idx)], B[idx], C[:, idx], D
 
 
-def _estimator_noise(plant, model, kept, sensors, rule, zeta_e) -> dict:
+def _estimator_noise(plant, model, kept, sensors, rule, goals) -> dict:
     density = [float(plant.sensor(s).noise_density) for s in sensors]
     have_noise = all(d > 0 for d in density)
     C = model[2]
@@ -588,7 +616,7 @@ def _estimator_noise(plant, model, kept, sensors, rule, zeta_e) -> dict:
             b = plant.input_row(d.name)[kept]
             W += 0.5 * b**2 * d.psd_at(plant.freqs_hz[kept])
     else:
-        W = damping_weights(w, z, np.full(n, zeta_e), gamma)
+        W = damping_weights(w, z, goals, gamma)
     return {
         "rule": rule,
         "density": density,
@@ -628,8 +656,40 @@ def _pole_damping(Acl: np.ndarray, w: np.ndarray, z: np.ndarray) -> list[float]:
     return [float(v) for v in matched.damping]
 
 
-def _closed_loop_info(plant, design_, targets, kept, delay) -> dict:
-    cl: MatchedModes = closed_loop_modes(plant, design_, delay_s=delay)
+def check_on_plant(
+    plant: ModalPlant,
+    design: Design,
+    *,
+    model_modes: Sequence[int] = (),
+    delay_s: float | None = None,
+) -> dict[str, Any]:
+    """Closed-loop modes of a design on the full plant, with spillover flags (Balas 1978).
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The full plant.
+    design : Design
+        The design; its ``target_modes`` are the targets.
+    model_modes : sequence of int, optional
+        Modes (1-based) of the design model; the non-target ones are reported as neighbours,
+        all others as residual modes.
+    delay_s : float, optional
+        Loop delay (s), Padé approximant; default the plant's stated delay.
+
+    Returns
+    -------
+    dict
+        JSON-ready: ``delay_s``, ``stable``, ``max_real_per_s`` (1/s), ``target_damping_min``,
+        ``modes`` (every mode: number, role, freq_hz, open- and closed-loop damping,
+        closed_loop_freq_hz, unstable), ``residual_modes`` (the non-target rows),
+        ``spillover_unstable`` (non-target modes with Re ≥ 0) and ``spillover_reduced``
+        (non-target modes that lost more than 10 % of their open-loop damping).
+    """
+    delay = plant_loop_delay_s(plant) if delay_s is None else float(delay_s)
+    targets = [m - 1 for m in design.target_modes]
+    kept = [m - 1 for m in model_modes]
+    cl: MatchedModes = closed_loop_modes(plant, design, delay_s=delay)
     rows, unstable, reduced = [], [], []
     for i in range(plant.n_modes):
         role = "target" if i in targets else ("neighbour" if i in kept else "residual")
