@@ -376,9 +376,7 @@ def design(
     est_goals = np.array([zeta_e if i in targets else FLOOR_DAMPING for i in kept])
     noise = _estimator_noise(plant, model, kept, sensors, process_noise, est_goals)
     if noise["relative_sensor_noise"]:
-        warnings.append(
-            "some sensors have no noise_density: estimator noise is in relative units"
-        )
+        warnings.append("some sensors have no noise_density: estimator noise is in relative units")
     K, L = _gains(model, q_vel, r, noise["W"], noise["V"])
     controller = lqg_controller(*model, K, L)
 
@@ -772,8 +770,10 @@ def _warnings(plant, check, margins, zeta_c) -> list[str]:
         gm, pm = m["gain_margin_db"], m["phase_margin_deg"]
         if req.min_gain_margin_db is not None and gm is not None and gm < req.min_gain_margin_db:
             out.append(f"loop {m['actuator']}: gain margin {gm:.3g} dB below the requirement")
-        if req.min_phase_margin_deg is not None and pm is not None and (
-            pm < req.min_phase_margin_deg
+        if (
+            req.min_phase_margin_deg is not None
+            and pm is not None
+            and (pm < req.min_phase_margin_deg)
         ):
             out.append(f"loop {m['actuator']}: phase margin {pm:.3g} deg below the requirement")
     return out
