@@ -18,8 +18,10 @@ each design-model mode i gets the velocity weight
 on its state q_i' (the position states ω_i q_i get no weight), where ζ_goal = the target
 damping for target modes and ``FLOOR_DAMPING`` for neighbours (neighbours are modelled, not
 targeted). With several inputs the rule stays exact for one mode (minimizing Σ r_j u_j² for a
-given modal force gives β); with several modes it is the well-separated-mode approximation, and
-the damping actually reached is reported. R = diag(r_j) with r_j = (L_min / L_j)² from the
+given modal force gives β); with several modes sharing actuators it is the well-separated-mode
+approximation, so the target goals are corrected (at most three more Riccati solves) until the
+design model's regulator poles reach the target to 0.1 %; the damping reached on the full plant
+is reported. R = diag(r_j) with r_j = (L_min / L_j)² from the
 actuator limits L_j (``max_force_n``, ``max_stroke_m`` for struts; Bryson's rule, common
 practice) when every actuator states one, else R = I; only the ratios matter, since Q scales
 with R.
@@ -113,6 +115,11 @@ MAX_ESTIMATOR_DAMPING = 0.7
 #: a mode whose modal input (output) gain is below this fraction of the plant's largest is
 #: treated as unreachable (unseen)
 REACH_TOL = 1e-10
+#: corrections of the target goals for mode coupling, and the tolerance they aim at
+GOAL_ITERATIONS = 3
+GOAL_TOL = 1e-3
+#: relative shortfall of the closed-loop target damping that is reported
+TARGET_TOL = 0.01
 #: residual-mode damping loss (relative) that is reported as spillover
 SPILLOVER_LOSS = 0.1
 
@@ -311,7 +318,8 @@ def design(
         Actuator names (controller outputs: N or m) and sensor names (controller inputs, SI).
         May be empty when ``pairs`` is given.
     modes : sequence of int, optional
-        Target modes, 1-based; default the plant's ``requirements.modes``, else every mode.
+        Target modes, 1-based; default (None or empty) the plant's ``requirements.modes``, else
+        every mode.
     target_damping : float, optional
         Closed-loop damping ratio wanted on the target modes, in (0, 1); default the plant's
         ``requirements.min_damping``, else 0.05.
@@ -370,14 +378,14 @@ def design(
     w, z = plant.omegas[kept], plant.dampings[kept]
     r = _input_weights(plant, actuators)
     goals = np.array([zeta_c if i in targets else FLOOR_DAMPING for i in kept])
+    is_target = np.array([i in targets for i in kept])
     beta = _input_gains(model, len(kept), r)
-    q_vel = damping_weights(w, z, np.maximum(goals, FLOOR_DAMPING), beta)
-    q_vel = np.maximum(q_vel, damping_weights(w, z, np.full(w.shape, FLOOR_DAMPING), beta))
+    q_vel, K, regulator_damping, effective = _regulator(model, w, z, goals, is_target, beta, r)
     est_goals = np.array([zeta_e if i in targets else FLOOR_DAMPING for i in kept])
     noise = _estimator_noise(plant, model, kept, sensors, process_noise, est_goals)
     if noise["relative_sensor_noise"]:
         warnings.append("some sensors have no noise_density: estimator noise is in relative units")
-    K, L = _gains(model, q_vel, r, noise["W"], noise["V"])
+    L = _estimator_gain(model, noise["W"], noise["V"])
     controller = lqg_controller(*model, K, L)
 
     info: dict[str, Any] = {
@@ -388,7 +396,8 @@ def design(
             "velocity_weights": q_vel.tolist(),
             "input_weights": r.tolist(),
             "damping_goals": goals.tolist(),
-            "regulator_damping": _pole_damping(model[0] - model[1] @ K, w, z),
+            "corrected_goals": effective.tolist(),
+            "regulator_damping": regulator_damping,
         },
         "estimator": {
             "process_noise": noise["rule"],
@@ -480,7 +489,7 @@ def _hardware(plant, actuators, sensors, pairs):
 
 
 def _targets(plant, modes) -> list[int]:
-    numbers = list(plant.requirements.modes) if modes is None else list(modes)
+    numbers = list(modes or ()) or list(plant.requirements.modes)
     if not numbers:
         numbers = list(range(1, plant.n_modes + 1))
     for m in numbers:
@@ -624,29 +633,63 @@ def _estimator_noise(plant, model, kept, sensors, rule, goals) -> dict:
     }
 
 
-def _gains(model, q_vel, r, W, V):
-    """LQR and Kalman gains, with each Riccati problem scaled for the solver.
+def _regulator(model, w, z, goals, is_target, beta, r):
+    """Velocity weights and LQR gain, with the target goals corrected for mode coupling.
 
-    K is unchanged when Q and R are scaled by one factor, and L when W and V are; the factors
-    are chosen so that the weights on the two sides of each Hamiltonian are of one size (in SI
-    units they can differ by 10 orders of magnitude, which the Schur ordering does not survive).
+    The single-mode rule is exact for one mode; with several modes sharing actuators the
+    regulator poles land slightly off. Up to ``GOAL_ITERATIONS`` times, each target mode's goal
+    is scaled by target / reached (regulator poles of the design model) until every target is
+    within ``GOAL_TOL``.
+    """
+    effective = np.maximum(goals, FLOOR_DAMPING)
+    floor = damping_weights(w, z, np.full(w.shape, FLOOR_DAMPING), beta)
+    for attempt in range(GOAL_ITERATIONS + 1):
+        q_vel = np.maximum(damping_weights(w, z, effective, beta), floor)
+        K = _regulator_gain(model, q_vel, r)
+        reached = np.array(_pole_damping(model[0] - model[1] @ K, w, z))
+        short = is_target & (reached < goals * (1.0 - GOAL_TOL)) & (reached > 0)
+        if not np.any(short) or attempt == GOAL_ITERATIONS:
+            break
+        effective = np.where(short, np.minimum(effective * goals / reached, 0.99), effective)
+    return q_vel, K, reached.tolist(), effective
+
+
+def _positive_median(values: np.ndarray) -> float:
+    positive = values[values > 0]
+    return float(np.median(positive)) if positive.size else 1.0
+
+
+def _regulator_gain(model, q_vel, r) -> np.ndarray:
+    """LQR gain, with Q and R scaled by one factor for the solver (K does not change).
+
+    The factor makes the two sides of the Hamiltonian of one size: in SI units they can differ
+    by 10 orders of magnitude, which the Schur ordering in the solver does not survive.
     """
     import control
 
-    A, B, C, _ = model
+    A, B, _, _ = model
     n = A.shape[0] // 2
     vel = 2 * np.arange(n) + 1
-    beta = _input_gains(model, n, r)
-    gamma = _output_gains(C, n, np.diag(V))
     Q = np.zeros((2 * n, 2 * n))
     Q[vel, vel] = q_vel
-    c_r = np.sqrt(np.median(beta) / max(np.median(q_vel), 1e-300 * np.median(beta)))
+    c_r = np.sqrt(_positive_median(_input_gains(model, n, r)) / _positive_median(q_vel))
     K, _, _ = control.lqr(A, B, Q * c_r, np.diag(r) * c_r)
+    return np.asarray(K)
+
+
+def _estimator_gain(model, W, V) -> np.ndarray:
+    """Kalman gain, with W and V scaled by one factor for the solver (L does not change)."""
+    import control
+
+    A, _, C, _ = model
+    n = A.shape[0] // 2
+    vel = 2 * np.arange(n) + 1
     G = np.zeros((2 * n, n))
     G[vel, np.arange(n)] = 1.0
-    c_e = np.sqrt(np.median(W) / np.median(gamma))
+    gamma = _output_gains(C, n, np.diag(V))
+    c_e = np.sqrt(_positive_median(W) / _positive_median(gamma))
     L, _, _ = control.lqe(A, G, C, np.diag(W) / c_e, V / c_e)
-    return np.asarray(K), np.asarray(L)
+    return np.asarray(L)
 
 
 def _pole_damping(Acl: np.ndarray, w: np.ndarray, z: np.ndarray) -> list[float]:
@@ -760,7 +803,7 @@ def _warnings(plant, check, margins, zeta_c) -> list[str]:
     if check["spillover_reduced"]:
         modes = ", ".join(str(m) for m in check["spillover_reduced"])
         out.append(f"spillover: damping of mode(s) {modes} is reduced by the loop")
-    if check["target_damping_min"] < zeta_c:
+    if check["target_damping_min"] < zeta_c * (1.0 - TARGET_TOL):
         out.append(
             f"target damping {zeta_c:.3g} not reached (lowest target mode damping "
             f"{check['target_damping_min']:.3g})"
