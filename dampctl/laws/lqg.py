@@ -70,22 +70,17 @@ u = −(C_c x_c + D_c y).
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
 from typing import Any, Literal
 
 import numpy as np
 
-from dampctl.closedloop import (
-    MatchedModes,
-    closed_loop_modes,
-    match_modes,
-    open_loop_poles,
-    plant_loop_delay_s,
-)
+from dampctl.closedloop import match_modes, open_loop_poles, plant_loop_delay_s
 from dampctl.design import Design
-from dampctl.errors import DesignRefused, MissingFeatureError, UsageError
+from dampctl.errors import DesignRefused, UsageError
+from dampctl.laws.spillover import check_on_plant
 from dampctl.margins import loop_margins
 from dampctl.plant import ModalPlant
+from dampctl.reduction import Reduction, reduce_controller
 
 __all__ = [
     "DEFAULT_TARGET_DAMPING",
@@ -120,8 +115,6 @@ GOAL_ITERATIONS = 3
 GOAL_TOL = 1e-3
 #: relative shortfall of the closed-loop target damping that is reported
 TARGET_TOL = 0.01
-#: residual-mode damping loss (relative) that is reported as spillover
-SPILLOVER_LOSS = 0.1
 
 REGULATOR_RULE = (
     "velocity weight per design-model mode q2 = 4 w^2 (z_goal^2 - z^2) / beta, "
@@ -205,92 +198,6 @@ def design_modes(
     lo, hi = np.min(w[list(targets)]) / neighbours, np.max(w[list(targets)]) * neighbours
     chosen = set(targets) | {i for i in range(plant.n_modes) if lo <= w[i] <= hi}
     return tuple(sorted(chosen))
-
-
-@dataclass(frozen=True)
-class Reduction:
-    """A controller reduced by balanced truncation.
-
-    Attributes
-    ----------
-    controller : tuple of ndarray
-        Reduced (A, B, C, D), same convention and units as the full controller.
-    order, full_order : int
-        Reduced and full state counts.
-    hankel_singular_values : tuple of float
-        Hankel singular values of the stable part of the full controller, decreasing.
-    unstable_states : int
-        Controller poles with Re ≥ 0, kept unreduced.
-    error_bound : float
-        2 Σ discarded Hankel singular values, a bound on ‖K − K_r‖∞ (sensor unit → actuator
-        unit).
-    """
-
-    controller: Matrices
-    order: int
-    full_order: int
-    hankel_singular_values: tuple[float, ...]
-    unstable_states: int
-    error_bound: float
-
-
-def reduce_controller(controller: Matrices, order: int) -> Reduction:
-    """Reduce a controller by balanced truncation (python-control ``balred`` with slycot).
-
-    Parameters
-    ----------
-    controller : tuple of ndarray
-        (A, B, C, D) of the controller.
-    order : int
-        States to keep, at least the number of unstable controller poles.
-
-    Returns
-    -------
-    Reduction
-
-    Raises
-    ------
-    UsageError
-        When ``order`` is below the unstable pole count or not below the full order.
-    MissingFeatureError
-        When slycot is not installed.
-    """
-    try:
-        from slycot import ab09ad, ab09md
-    except ImportError:
-        raise MissingFeatureError(
-            "controller reduction (--order) needs slycot; install it with pip install slycot"
-        ) from None
-    import control
-
-    A, B, C, D = (np.array(m, dtype=float) for m in controller)
-    n, m, p = A.shape[0], B.shape[1], C.shape[0]
-    n_unstable = int(np.sum(np.linalg.eigvals(A).real >= 0.0))
-    if not n_unstable <= order < n:
-        raise UsageError(
-            f"order must be between the controller's {n_unstable} unstable poles and its full "
-            f"order {n} (exclusive), got {order}",
-            field="order",
-        )
-    reduced = control.balred(control.ss(A, B, C, D), order, method="truncate")
-    if n_unstable:
-        *_, n_stable, hsv = ab09md(
-            "C", "B", "N", n, m, p, A.copy(), B.copy(), C.copy(), alpha=0.0, nr=order, tol=0.0
-        )
-    else:
-        *_, hsv = ab09ad("C", "B", "N", n, m, p, A.copy(), B.copy(), C.copy(), nr=order, tol=0.0)
-        n_stable = n
-    hsv = np.asarray(hsv[:n_stable], dtype=float)
-    bound = 2.0 * float(np.sum(hsv[order - n_unstable :]))
-    mats = tuple(np.asarray(x, dtype=float) for x in (reduced.A, reduced.B, reduced.C, reduced.D))
-    return Reduction(
-        controller=mats,
-        order=int(mats[0].shape[0]),
-        full_order=n,
-        hankel_singular_values=tuple(float(v) for v in hsv),
-        unstable_states=n_unstable,
-        error_bound=bound,
-    )
 
 
 # ---------------------------------------------------------------------- the law
@@ -695,74 +602,6 @@ def _estimator_gain(model, W, V) -> np.ndarray:
 def _pole_damping(Acl: np.ndarray, w: np.ndarray, z: np.ndarray) -> list[float]:
     matched = match_modes(open_loop_poles(w, z), np.linalg.eigvals(Acl))
     return [float(v) for v in matched.damping]
-
-
-def check_on_plant(
-    plant: ModalPlant,
-    design: Design,
-    *,
-    model_modes: Sequence[int] = (),
-    delay_s: float | None = None,
-) -> dict[str, Any]:
-    """Closed-loop modes of a design on the full plant, with spillover flags (Balas 1978).
-
-    Parameters
-    ----------
-    plant : ModalPlant
-        The full plant.
-    design : Design
-        The design; its ``target_modes`` are the targets.
-    model_modes : sequence of int, optional
-        Modes (1-based) of the design model; the non-target ones are reported as neighbours,
-        all others as residual modes.
-    delay_s : float, optional
-        Loop delay (s), Padé approximant; default the plant's stated delay.
-
-    Returns
-    -------
-    dict
-        JSON-ready: ``delay_s``, ``stable``, ``max_real_per_s`` (1/s), ``target_damping_min``,
-        ``modes`` (every mode: number, role, freq_hz, open- and closed-loop damping,
-        closed_loop_freq_hz, unstable), ``residual_modes`` (the non-target rows),
-        ``spillover_unstable`` (non-target modes with Re ≥ 0) and ``spillover_reduced``
-        (non-target modes that lost more than 10 % of their open-loop damping).
-    """
-    delay = plant_loop_delay_s(plant) if delay_s is None else float(delay_s)
-    targets = [m - 1 for m in design.target_modes]
-    kept = [m - 1 for m in model_modes]
-    cl: MatchedModes = closed_loop_modes(plant, design, delay_s=delay)
-    rows, unstable, reduced = [], [], []
-    for i in range(plant.n_modes):
-        role = "target" if i in targets else ("neighbour" if i in kept else "residual")
-        zeta_ol, zeta_cl = float(plant.dampings[i]), float(cl.damping[i])
-        is_unstable = bool(cl.poles[i].real >= 0)
-        rows.append(
-            {
-                "mode": i + 1,
-                "role": role,
-                "freq_hz": float(plant.freqs_hz[i]),
-                "open_loop_damping": zeta_ol,
-                "closed_loop_freq_hz": float(cl.freq_hz[i]),
-                "closed_loop_damping": zeta_cl,
-                "unstable": is_unstable,
-            }
-        )
-        if role != "target":
-            if is_unstable:
-                unstable.append(i + 1)
-            elif zeta_cl < (1.0 - SPILLOVER_LOSS) * zeta_ol:
-                reduced.append(i + 1)
-    target_min = min(rows[i]["closed_loop_damping"] for i in targets)
-    return {
-        "delay_s": delay,
-        "stable": cl.stable,
-        "max_real_per_s": cl.max_real,
-        "target_damping_min": float(target_min),
-        "modes": rows,
-        "residual_modes": [r for r in rows if r["role"] != "target"],
-        "spillover_unstable": unstable,
-        "spillover_reduced": reduced,
-    }
 
 
 def _finite_or_none(value):
