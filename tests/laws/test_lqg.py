@@ -91,6 +91,21 @@ def test_sdof_design_meets_target_and_separation_holds():
     np.testing.assert_allclose(Ac, A - B @ K - L @ C, atol=1e-9 * np.abs(A).max())
 
 
+def test_relative_estimator_rule_is_the_dual_of_the_regulator_rule():
+    # Kalman filter / regulator duality (R. E. Kalman, "A new approach to linear filtering and
+    # prediction problems", 1960; from memory): for a velocity sensor the estimator problem of
+    # one mode is the regulator problem of the transposed block, which is similar to the block
+    # itself, so the same closed form gives the estimator damping exactly (2 × target here).
+    plant = sdof_plant(2.0, 8.0e4, 8.0)
+    design = lqg.design(plant, ["f"], ["v"], target_damping=0.15, delay_s=0.0)
+    assert design.info["estimator"]["process_noise"] == "relative"
+    A, _, C, _ = plant.statespace_matrices(["f"], ["v"])
+    L = design.controller[1]
+    np.testing.assert_allclose(_zeta(np.linalg.eigvals(A - L @ C))[0], 0.3, rtol=1e-9)
+    assert design.info["estimator"]["estimator_damping"][0] == pytest.approx(0.3, rel=1e-9)
+    assert any("relative units" in w for w in design.info["warnings"])
+
+
 # ---------------------------------------------------------------------- gains vs python-control
 def _disturbed_chain():
     M, Kmat = chain_matrices([1.0, 0.5, 0.8], [5e5, 2e5, 3e5])
@@ -307,14 +322,22 @@ def test_neighbours_select_modes_in_band_and_drop_unreachable():
     plant2 = ModalPlant(
         modes=[Mode(freq_hz=10.0, damping=0.01), Mode(freq_hz=15.0, damping=0.01)],
         sites={"a": [1.0, 0.0], "s": [1.0, 0.5]},
-        actuators=[Actuator(name="fa", kind="force", site="a")],
-        sensors=[Sensor(name="vs", kind="velocity", site="s")],
+        sensors=[
+            Sensor(name="vs", kind="velocity", site="s"),
+            Sensor(name="vn", kind="velocity", site="a"),
+        ],
+        actuators=[
+            Actuator(name="fa", kind="force", site="a"),
+            Actuator(name="fs", kind="force", site="s"),
+        ],
     )
     design = lqg.design(plant2, ["fa"], ["vs"], modes=[1], delay_s=0.0)
     assert design.info["design_model"]["modes"] == [1]
     assert design.info["design_model"]["left_out"][0]["mode"] == 2
     with pytest.raises(DesignRefused, match="mode 2 cannot be reached"):
         lqg.design(plant2, ["fa"], ["vs"], modes=[2])
+    with pytest.raises(DesignRefused, match="mode 2 cannot be seen"):
+        lqg.design(plant2, ["fs"], ["vn"], modes=[2])
 
 
 # ---------------------------------------------------------------------- reduction
