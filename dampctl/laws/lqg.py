@@ -327,7 +327,7 @@ def design(
     result = _make(plant, actuators, sensors, targets, controller, pairs, info)
     delay = plant_loop_delay_s(plant) if delay_s is None else float(delay_s)
     model_modes = [i + 1 for i in kept]
-    check = check_on_plant(plant, result, model_modes=model_modes, delay_s=delay)
+    check = check_on_plant(plant, result, model_modes=model_modes, delay_s=delay).to_dict()
     info["closed_loop"] = check
     info["full_order"] = int(controller[0].shape[0])
     info["controller_order"] = info["full_order"]
@@ -335,7 +335,9 @@ def design(
     if order is not None and int(order) != controller[0].shape[0]:
         reduction = reduce_controller(controller, int(order))
         result = _make(plant, actuators, sensors, targets, reduction.controller, pairs, info)
-        reduced_check = check_on_plant(plant, result, model_modes=model_modes, delay_s=delay)
+        reduced_check = check_on_plant(
+            plant, result, model_modes=model_modes, delay_s=delay
+        ).to_dict()
         info["reduction"] = {
             "method": "balanced truncation (stable part; unstable poles kept)",
             "order": reduction.order,

@@ -11,16 +11,89 @@ became unstable or lost damping.
 from __future__ import annotations
 
 from collections.abc import Sequence
+from dataclasses import asdict, dataclass
 from typing import Any
 
 from dampctl.closedloop import MatchedModes, closed_loop_modes, plant_loop_delay_s
 from dampctl.design import Design
 from dampctl.plant import ModalPlant
 
-__all__ = ["SPILLOVER_LOSS", "check_on_plant"]
+__all__ = ["SPILLOVER_LOSS", "ModeCheck", "PlantCheck", "check_on_plant"]
 
 #: relative loss of a non-target mode's damping that is reported as spillover
 SPILLOVER_LOSS = 0.1
+
+
+@dataclass(frozen=True)
+class ModeCheck:
+    """One plant mode in closed loop.
+
+    Attributes
+    ----------
+    mode : int
+        Mode number (1-based).
+    role : {"target", "neighbour", "residual"}
+        Target of the design, modelled neighbour, or left out of the design model.
+    freq_hz, closed_loop_freq_hz : float
+        Open- and closed-loop natural frequency (Hz) of the matched pole.
+    open_loop_damping, closed_loop_damping : float
+        Damping ratios (negative when the pole is unstable).
+    unstable : bool
+        The matched closed-loop pole has Re ≥ 0.
+    """
+
+    mode: int
+    role: str
+    freq_hz: float
+    open_loop_damping: float
+    closed_loop_freq_hz: float
+    closed_loop_damping: float
+    unstable: bool
+
+
+@dataclass(frozen=True)
+class PlantCheck:
+    """Result of :func:`check_on_plant`.
+
+    Attributes
+    ----------
+    delay_s : float
+        Loop delay (s) used.
+    stable : bool
+        Every closed-loop pole (plant and controller side) has Re < 0.
+    max_real_per_s : float
+        Largest real part (1/s) of the closed-loop poles.
+    target_damping_min : float
+        Smallest closed-loop damping over the target modes.
+    modes : tuple of ModeCheck
+        Every plant mode, in order.
+    spillover_unstable : tuple of int
+        Non-target modes driven unstable.
+    spillover_reduced : tuple of int
+        Non-target modes, still stable, that lost more than ``SPILLOVER_LOSS`` of their damping.
+    """
+
+    delay_s: float
+    stable: bool
+    max_real_per_s: float
+    target_damping_min: float
+    modes: tuple[ModeCheck, ...]
+    spillover_unstable: tuple[int, ...]
+    spillover_reduced: tuple[int, ...]
+
+    @property
+    def residual_modes(self) -> tuple[ModeCheck, ...]:
+        """The non-target modes (neighbours and residual modes)."""
+        return tuple(m for m in self.modes if m.role != "target")
+
+    def to_dict(self) -> dict[str, Any]:
+        """JSON-ready form, with ``residual_modes`` listed beside ``modes``."""
+        out = asdict(self)
+        out["modes"] = [asdict(m) for m in self.modes]
+        out["residual_modes"] = [asdict(m) for m in self.residual_modes]
+        out["spillover_unstable"] = list(self.spillover_unstable)
+        out["spillover_reduced"] = list(self.spillover_reduced)
+        return out
 
 
 def check_on_plant(
@@ -29,7 +102,7 @@ def check_on_plant(
     *,
     model_modes: Sequence[int] = (),
     delay_s: float | None = None,
-) -> dict[str, Any]:
+) -> PlantCheck:
     """Closed-loop modes of a design on the full plant, with spillover flags (Balas 1978).
 
     Parameters
@@ -46,12 +119,7 @@ def check_on_plant(
 
     Returns
     -------
-    dict
-        JSON-ready: ``delay_s``, ``stable``, ``max_real_per_s`` (1/s), ``target_damping_min``,
-        ``modes`` (every mode: number, role, freq_hz, open- and closed-loop damping,
-        closed_loop_freq_hz, unstable), ``residual_modes`` (the non-target rows),
-        ``spillover_unstable`` (non-target modes with Re ≥ 0) and ``spillover_reduced``
-        (non-target modes that lost more than 10 % of their open-loop damping).
+    PlantCheck
     """
     delay = plant_loop_delay_s(plant) if delay_s is None else float(delay_s)
     targets = [m - 1 for m in design.target_modes]
@@ -63,29 +131,27 @@ def check_on_plant(
         zeta_ol, zeta_cl = float(plant.dampings[i]), float(cl.damping[i])
         is_unstable = bool(cl.poles[i].real >= 0)
         rows.append(
-            {
-                "mode": i + 1,
-                "role": role,
-                "freq_hz": float(plant.freqs_hz[i]),
-                "open_loop_damping": zeta_ol,
-                "closed_loop_freq_hz": float(cl.freq_hz[i]),
-                "closed_loop_damping": zeta_cl,
-                "unstable": is_unstable,
-            }
+            ModeCheck(
+                mode=i + 1,
+                role=role,
+                freq_hz=float(plant.freqs_hz[i]),
+                open_loop_damping=zeta_ol,
+                closed_loop_freq_hz=float(cl.freq_hz[i]),
+                closed_loop_damping=zeta_cl,
+                unstable=is_unstable,
+            )
         )
         if role != "target":
             if is_unstable:
                 unstable.append(i + 1)
             elif zeta_cl < (1.0 - SPILLOVER_LOSS) * zeta_ol:
                 reduced.append(i + 1)
-    target_min = min(rows[i]["closed_loop_damping"] for i in targets)
-    return {
-        "delay_s": delay,
-        "stable": cl.stable,
-        "max_real_per_s": cl.max_real,
-        "target_damping_min": float(target_min),
-        "modes": rows,
-        "residual_modes": [r for r in rows if r["role"] != "target"],
-        "spillover_unstable": unstable,
-        "spillover_reduced": reduced,
-    }
+    return PlantCheck(
+        delay_s=delay,
+        stable=bool(cl.stable),
+        max_real_per_s=float(cl.max_real),
+        target_damping_min=float(min(rows[i].closed_loop_damping for i in targets)),
+        modes=tuple(rows),
+        spillover_unstable=tuple(unstable),
+        spillover_reduced=tuple(reduced),
+    )

@@ -53,7 +53,7 @@ def _balas_design(plant: ModalPlant) -> Design:
 def test_spillover_example_reproduces_unstable_residual_pole():
     plant = _balas_plant(-1.0)
     design = _balas_design(plant)
-    report = check_on_plant(plant, design, model_modes=[1], delay_s=0.0)
+    report = check_on_plant(plant, design, model_modes=[1], delay_s=0.0).to_dict()
     assert not report["stable"]
     assert report["spillover_unstable"] == [2]
     mats = plant.statespace_matrices(["fa"], ["xs"])
@@ -73,6 +73,7 @@ def test_spillover_cures():
     # Same-sign ("collocated-like") sensor shape: stable, max Re = −0.1518.
     plant = _balas_plant(+1.0)
     report = check_on_plant(plant, _balas_design(plant), model_modes=[1], delay_s=0.0)
+    report = report.to_dict()
     assert report["stable"] and report["spillover_unstable"] == []
     assert report["max_real_per_s"] == pytest.approx(-0.1518, abs=1e-4)
     # Observation spillover removed (c2 = 0): spectrum = designed poles ∪ open-loop residual.
