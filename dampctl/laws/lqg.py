@@ -78,7 +78,7 @@ from dampctl.closedloop import match_modes, open_loop_poles, plant_loop_delay_s
 from dampctl.design import Design
 from dampctl.errors import DesignRefused, UsageError
 from dampctl.laws.spillover import check_on_plant
-from dampctl.margins import loop_margins
+from dampctl.margins import default_grid, loop_margins
 from dampctl.plant import ModalPlant
 from dampctl.reduction import Reduction, reduce_controller
 
@@ -614,8 +614,13 @@ def _finite_or_none(value):
 
 
 def _margins_info(plant, design_, delay) -> list[dict]:
+    # The default grid holds every natural frequency exactly; an undamped mode's modal sum is
+    # infinite there, so those points are left out (the crossovers are bracketed either side).
+    grid = default_grid(plant, design_)
+    undamped = plant.freqs_hz[plant.dampings == 0.0]
+    grid = grid[~np.isin(grid, undamped)]
     out = []
-    for m in loop_margins(plant, design_, delay_s=delay):
+    for m in loop_margins(plant, design_, delay_s=delay, freq_hz=grid):
         out.append(
             {
                 "actuator": m.loop,

@@ -7,6 +7,8 @@ import json
 import control
 import numpy as np
 import pytest
+from hypothesis import given
+from hypothesis import strategies as st
 from scipy.linalg import matrix_balance, solve_continuous_are
 
 from dampctl import Actuator, Disturbance, ModalPlant, Mode, Pair, Sensor, survey_plant
@@ -70,6 +72,28 @@ def test_damping_rule_is_exact_for_one_damped_mode(omega, zeta, goal, b):
     poles = np.linalg.eigvals(A - B @ (B.T @ P))
     np.testing.assert_allclose(_zeta(poles), goal, rtol=1e-9)
     np.testing.assert_allclose(np.abs(poles), omega, rtol=1e-9)
+
+
+@given(
+    freq_hz=st.floats(1.0, 5000.0),
+    zeta=st.one_of(st.just(0.0), st.floats(1e-6, 0.05)),
+    target=st.floats(0.06, 0.6),
+    mass=st.floats(0.01, 100.0),
+)
+def test_single_mode_design_reaches_any_target(freq_hz, zeta, target, mass):
+    # Property of the closed form above: one mode, one actuator, any scale and damping, the
+    # regulator poles of the design sit exactly at the target damping (1e-6, Riccati solver).
+    plant = ModalPlant(
+        modes=[Mode(freq_hz=freq_hz, damping=zeta, modal_mass_kg=mass)],
+        sites={"x": [1.0]},
+        actuators=[Actuator(name="f", kind="force", site="x")],
+        sensors=[Sensor(name="x", kind="displacement", site="x", noise_density=1e-9)],
+    )
+    design = lqg.design(plant, ["f"], ["x"], target_damping=target, delay_s=0.0)
+    A, B, _, _ = plant.statespace_matrices(["f"], ["x"])
+    poles = np.linalg.eigvals(A - B @ design.controller[2])
+    np.testing.assert_allclose(_zeta(poles[poles.imag > 0]), target, rtol=1e-6)
+    assert design.info["closed_loop"]["stable"]
 
 
 def test_sdof_design_meets_target_and_separation_holds():
