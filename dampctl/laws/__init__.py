@@ -1,0 +1,1 @@
+"""Damping laws: each module turns a plant and a choice of hardware into a Design."""

@@ -1,0 +1,668 @@
+"""Model-based damping: an LQG controller on a reduced modal model, checked on the full plant.
+
+Where the pairs are not collocated, loops interact, or an optimal MIMO design is wanted,
+:func:`design` builds a linear-quadratic-Gaussian (LQG) controller: an LQR state feedback
+``u = −K x̂`` on a Kalman-filter estimate ``x̂`` of a *design model* made of the target modes and
+their neighbours. The user asks for damping, not for Q and R; the rules below turn damping into
+weights.
+
+**Regulator weights (damping → Q, R).** For one mode q'' + 2ζωq' + ω²q = b u with cost
+∫ q₂ q'² + r u² dt (no position weight), the Riccati equation has the closed form
+p₁₂ = 0, p₂₂ = r(√(4ζ²ω² + q₂β) − 2ζω) with β = b²/r, so the regulator is velocity feedback and
+the closed-loop damping is ζ_cl = √(ζ² + q₂β/(4ω²)) at unchanged ω (for ζ = 0 this is the
+closed form of Kwakernaak & Sivan / Anderson & Moore: ζ_cl = √(q₂/r)/(2ω)). Inverting it,
+each design-model mode i gets the velocity weight
+
+    q₂,i = 4 ω_i² (ζ_goal,i² − ζ_i²) / β_i,   β_i = Σ_j b_ij² / r_j  (0 when ζ_i ≥ ζ_goal,i)
+
+on its state q_i' (the position states ω_i q_i get no weight), where ζ_goal = the target
+damping for target modes and ``FLOOR_DAMPING`` for neighbours (neighbours are modelled, not
+targeted). With several inputs the rule stays exact for one mode (minimizing Σ r_j u_j² for a
+given modal force gives β); with several modes sharing actuators it is the well-separated-mode
+approximation, so the target goals are corrected (at most three more Riccati solves) until the
+design model's regulator poles reach the target to 0.1 %; the damping reached on the full plant
+is reported. R = diag(r_j) with r_j = (L_min / L_j)² from the
+actuator limits L_j (``max_force_n``, ``max_stroke_m`` for struts; Bryson's rule, common
+practice) when every actuator states one, else R = I; only the ratios matter, since Q scales
+with R.
+
+**Estimator noise.** Sensor noise comes from ``noise_density`` (one-sided amplitude spectral
+density n, sensor unit/√Hz). White noise of continuous intensity V (E v(t)v(τ) = V δ(t−τ)) has
+two-sided PSD V and one-sided PSD 2V, so V = n²/2. Process noise enters each mode's velocity
+state (its modal force), modes taken independent:
+
+* ``"disturbances"`` (the default when the plant has disturbances and every sensor a noise
+  density): W_i = ½ Σ_d b_di² S_d(f_i), the one-sided force PSD S_d of each disturbance mapped
+  to modal force at the mode's own frequency (a lightly damped mode responds only near it);
+* ``"relative"`` (otherwise): the dual of the regulator rule, W_i = 4ω_i²(ζ_e² − ζ_i²)/γ_i with
+  γ_i = Σ_k ‖c_ki‖²/V_k (c_ki the sensor row on mode i's two states), which gives the
+  single-mode Kalman filter the damping ζ_e on target modes (default twice the target, at most
+  0.7: estimator faster than regulator, common practice) and ``FLOOR_DAMPING`` on neighbours
+  (their estimate follows the model's prediction of their response to u). Sensors without a
+  noise density then get V_k = max_i ‖c_ki‖² (relative units).
+
+Every mode keeps at least the floor W_i of ζ_e = ``FLOOR_DAMPING`` so undamped modes stay
+stabilizable. Riccati equations are solved by python-control ``lqr`` / ``lqe`` (slycot).
+
+**Design model.** The target modes plus their neighbours: every mode within a frequency factor
+``neighbours`` (default 2, an octave) of the target band, provided the actuators reach it and the
+sensors see it (a mode one of them misses cannot spill over; Balas 1978). Modes above the band
+enter as their static compliance (displacement-like sensors: + c b/ω²; accelerometers lose
+their direct term), modes below are left out. The controller is then always checked on the
+full plant with the plant's stated delay and roll-offs: every mode's closed-loop damping is
+listed and residual modes pushed unstable are flagged as spillover.
+
+**Reduction.** ``order=N`` reduces the controller by balanced truncation (python-control
+``balred``, slycot ``ab09ad``/``ab09md``; unstable controller poles are kept whole and the stable
+part is truncated, Hsu & Hou 1991). The error bound ‖K − K_N‖∞ ≤ 2 Σ discarded Hankel singular
+values of the stable part (Enns 1984; Glover 1984) is reported with the damping the reduced
+controller actually keeps on the full plant.
+
+**Margins.** LQG has no guaranteed margins (Doyle 1978), so loop-at-a-time gain and phase
+margins at the plant input are always given (:func:`dampctl.margins.loop_margins`).
+
+Controller convention (:mod:`dampctl.design`): with the design model x' = Ax + Bu,
+y = Cx + Du and u = −K x̂, the estimator x̂' = Ax̂ + Bu + L(y − Cx̂ − Du) gives
+x̂' = (A − BK − LC + LDK) x̂ + L y, stored as (A − BK − LC + LDK, L, K, 0) with
+u = −(C_c x_c + D_c y).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from typing import Any, Literal
+
+import numpy as np
+
+from dampctl.closedloop import match_modes, open_loop_poles, plant_loop_delay_s
+from dampctl.design import Design
+from dampctl.errors import DesignRefused, UsageError
+from dampctl.laws.spillover import check_on_plant
+from dampctl.margins import default_grid, loop_margins
+from dampctl.plant import ModalPlant
+from dampctl.reduction import Reduction, reduce_controller
+
+__all__ = [
+    "DEFAULT_TARGET_DAMPING",
+    "FLOOR_DAMPING",
+    "NEIGHBOUR_FACTOR",
+    "Reduction",
+    "check_on_plant",
+    "damping_weights",
+    "design",
+    "design_model_matrices",
+    "design_modes",
+    "lqg_controller",
+    "reduce_controller",
+]
+
+Matrices = tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]
+
+#: target damping ratio when neither the call nor the plant's requirements give one
+DEFAULT_TARGET_DAMPING = 0.05
+#: default frequency factor around the target band that selects neighbour modes
+NEIGHBOUR_FACTOR = 2.0
+#: damping goal of neighbour modes and floor of regulator/estimator weights
+FLOOR_DAMPING = 1e-3
+#: default estimator damping = this factor times the target damping, capped at 0.7
+ESTIMATOR_FACTOR = 2.0
+MAX_ESTIMATOR_DAMPING = 0.7
+#: a mode whose modal input (output) gain is below this fraction of the plant's largest is
+#: treated as unreachable (unseen)
+REACH_TOL = 1e-10
+#: corrections of the target goals for mode coupling, and the tolerance they aim at
+GOAL_ITERATIONS = 3
+GOAL_TOL = 1e-3
+#: relative shortfall of the closed-loop target damping that is reported
+TARGET_TOL = 0.01
+
+REGULATOR_RULE = (
+    "velocity weight per design-model mode q2 = 4 w^2 (z_goal^2 - z^2) / beta, "
+    "beta = sum_j b_j^2 / r_j; z_goal = target damping (targets), floor (neighbours); "
+    "exact for one mode: z_cl = sqrt(z^2 + q2 beta / (4 w^2))"
+)
+
+
+def damping_weights(
+    omegas: np.ndarray, dampings: np.ndarray, goals: np.ndarray, gains: np.ndarray
+) -> np.ndarray:
+    """Velocity weights that give each mode a damping goal (the single-mode LQR closed form).
+
+    Parameters
+    ----------
+    omegas : array_like
+        Natural frequencies ω_i (rad/s).
+    dampings : array_like
+        Open-loop damping ratios ζ_i.
+    goals : array_like
+        Damping ratios wanted, one per mode.
+    gains : array_like
+        Squared modal input gains β_i = Σ_j b_ij²/r_j (regulator), or squared modal output gains
+        γ_i = Σ_k ‖c_ki‖²/V_k (estimator, by duality), > 0.
+
+    Returns
+    -------
+    ndarray
+        q_i = 4 ω_i² max(goal_i² − ζ_i², 0) / β_i: the weight on the velocity state (regulator)
+        or the process-noise intensity on it (estimator).
+    """
+    omegas, dampings = np.asarray(omegas, float), np.asarray(dampings, float)
+    goals, gains = np.asarray(goals, float), np.asarray(gains, float)
+    return 4.0 * omegas**2 * np.maximum(goals**2 - dampings**2, 0.0) / gains
+
+
+def lqg_controller(
+    A: np.ndarray, B: np.ndarray, C: np.ndarray, D: np.ndarray, K: np.ndarray, L: np.ndarray
+) -> Matrices:
+    """Observer-based controller of a plant model, in the ``u = −(C_c x_c + D_c y)`` convention.
+
+    Parameters
+    ----------
+    A, B, C, D : ndarray
+        Model x' = Ax + Bu, y = Cx + Du (inputs actuators, outputs sensors, SI units).
+    K : ndarray, shape (n_u, n)
+        State-feedback gain, u = −K x̂.
+    L : ndarray, shape (n, n_y)
+        Estimator gain, x̂' = A x̂ + B u + L (y − C x̂ − D u).
+
+    Returns
+    -------
+    tuple of ndarray
+        (A − BK − LC + LDK, L, K, 0).
+    """
+    A, B, C, D, K, L = (np.asarray(m, dtype=float) for m in (A, B, C, D, K, L))
+    Ac = A - B @ K - L @ C + L @ D @ K
+    return Ac, L.copy(), K.copy(), np.zeros((K.shape[0], L.shape[1]))
+
+
+def design_modes(
+    plant: ModalPlant, targets: Sequence[int], *, neighbours: float = NEIGHBOUR_FACTOR
+) -> tuple[int, ...]:
+    """Target modes plus neighbours within a frequency factor of the target band (0-based).
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant.
+    targets : sequence of int
+        Target modes, 0-based indices.
+    neighbours : float, optional
+        Frequency factor (>= 1): modes with f_min/neighbours <= f <= f_max·neighbours join.
+
+    Returns
+    -------
+    tuple of int
+        Sorted 0-based mode indices of the design model (before reachability checks).
+    """
+    w = plant.omegas
+    lo, hi = np.min(w[list(targets)]) / neighbours, np.max(w[list(targets)]) * neighbours
+    chosen = set(targets) | {i for i in range(plant.n_modes) if lo <= w[i] <= hi}
+    return tuple(sorted(chosen))
+
+
+# ---------------------------------------------------------------------- the law
+def design(
+    plant: ModalPlant,
+    actuators: Sequence[str],
+    sensors: Sequence[str],
+    *,
+    modes: Sequence[int] | None = None,
+    target_damping: float | None = None,
+    order: int | None = None,
+    neighbours: float = NEIGHBOUR_FACTOR,
+    process_noise: Literal["auto", "disturbances", "relative"] = "auto",
+    estimator_damping: float | None = None,
+    delay_s: float | None = None,
+    pairs: Sequence[str] = (),
+) -> Design:
+    """Design an LQG damping controller and check it on the full plant.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant (all its modes are used in the check).
+    actuators, sensors : sequence of str
+        Actuator names (controller outputs: N or m) and sensor names (controller inputs, SI).
+        May be empty when ``pairs`` is given.
+    modes : sequence of int, optional
+        Target modes, 1-based; default (None or empty) the plant's ``requirements.modes``, else
+        every mode.
+    target_damping : float, optional
+        Closed-loop damping ratio wanted on the target modes, in (0, 1); default the plant's
+        ``requirements.min_damping``, else 0.05.
+    order : int, optional
+        Reduce the controller to this many states by balanced truncation.
+    neighbours : float, optional
+        Frequency factor (>= 1) around the target band whose modes join the design model;
+        default 2. Use 1 for the target modes only.
+    process_noise : {"auto", "disturbances", "relative"}, optional
+        Estimator process-noise rule (module docstring). ``auto``: ``disturbances`` when the
+        plant has disturbances and every sensor a noise density, else ``relative``.
+    estimator_damping : float, optional
+        Damping ratio the ``relative`` rule gives each mode's estimator, in (0, 1); default
+        min(2 × target damping, 0.7).
+    delay_s : float, optional
+        Loop delay (s) used in the full-plant check and margins; default the plant's stated
+        delay (``loop_delay_s`` plus ZOH and one sample at ``sample_rate_hz``).
+    pairs : sequence of str, optional
+        Pair names; when given they set the actuators and sensors (pair k: actuator k,
+        sensor k) and are recorded in the design.
+
+    Returns
+    -------
+    Design
+        ``law="lqg"``, ``controller=(A, B, C, D)``; ``info`` holds the rules and weights, the
+        design model, the full-plant closed-loop modes with spillover flags, the reduction
+        (bound, damping kept) and the loop-at-a-time margins at the plant input.
+
+    Raises
+    ------
+    UsageError
+        Bad mode numbers, damping, order or option values.
+    DesignRefused
+        A target mode the actuators cannot reach or the sensors cannot see.
+    """
+    actuators, sensors, pairs = _hardware(plant, actuators, sensors, pairs)
+    targets = _targets(plant, modes)
+    zeta_c = _target_damping(plant, target_damping)
+    if not neighbours >= 1.0:
+        raise UsageError(f"neighbours must be a frequency factor >= 1, got {neighbours}")
+    if process_noise not in ("auto", "disturbances", "relative"):
+        raise UsageError(
+            f"process_noise must be one of auto, disturbances, relative, got {process_noise!r}"
+        )
+    zeta_e = min(ESTIMATOR_FACTOR * zeta_c, MAX_ESTIMATOR_DAMPING)
+    if estimator_damping is not None:
+        zeta_e = _ratio(estimator_damping, "estimator_damping")
+    if order is not None and (isinstance(order, bool) or int(order) != order or order < 1):
+        raise UsageError(f"order must be a whole number of states >= 1, got {order!r}")
+
+    full = plant.statespace_matrices(actuators, sensors)
+    beta_all = _input_gains(full, plant.n_modes, _input_weights(plant, actuators))
+    warnings: list[str] = []
+    kept, dropped = _reachable(plant, targets, neighbours, full, beta_all)
+    model = design_model_matrices(plant, actuators, sensors, [i + 1 for i in kept])
+    w, z = plant.omegas[kept], plant.dampings[kept]
+    r = _input_weights(plant, actuators)
+    goals = np.array([zeta_c if i in targets else FLOOR_DAMPING for i in kept])
+    is_target = np.array([i in targets for i in kept])
+    beta = _input_gains(model, len(kept), r)
+    q_vel, K, regulator_damping, effective = _regulator(model, w, z, goals, is_target, beta, r)
+    est_goals = np.array([zeta_e if i in targets else FLOOR_DAMPING for i in kept])
+    noise = _estimator_noise(plant, model, kept, sensors, process_noise, est_goals)
+    if noise["relative_sensor_noise"]:
+        warnings.append("some sensors have no noise_density: estimator noise is in relative units")
+    L = _estimator_gain(model, noise["W"], noise["V"])
+    controller = lqg_controller(*model, K, L)
+
+    info: dict[str, Any] = {
+        "target_damping": zeta_c,
+        "regulator": {
+            "rule": REGULATOR_RULE,
+            "state_weight": "velocity states only",
+            "velocity_weights": q_vel.tolist(),
+            "input_weights": r.tolist(),
+            "damping_goals": goals.tolist(),
+            "corrected_goals": effective.tolist(),
+            "regulator_damping": regulator_damping,
+        },
+        "estimator": {
+            "process_noise": noise["rule"],
+            "sensor_noise_density": noise["density"],
+            "sensor_noise_intensity": np.diag(noise["V"]).tolist(),
+            "process_noise_intensity": noise["W"].tolist(),
+            "estimator_damping_goals": est_goals.tolist() if noise["rule"] == "relative" else None,
+            "estimator_damping": _pole_damping(model[0] - L @ model[2], w, z),
+            "conversion": "intensity = ASD^2 / 2 (one-sided ASD to continuous white intensity)",
+        },
+        "design_model": {
+            "modes": [i + 1 for i in kept],
+            "targets": [i + 1 for i in targets],
+            "neighbours": [i + 1 for i in kept if i not in targets],
+            "left_out": dropped,
+            "neighbour_factor": float(neighbours),
+            "static_correction": "modes above the band as static compliance",
+        },
+    }
+    result = _make(plant, actuators, sensors, targets, controller, pairs, info)
+    delay = plant_loop_delay_s(plant) if delay_s is None else float(delay_s)
+    model_modes = [i + 1 for i in kept]
+    check = check_on_plant(plant, result, model_modes=model_modes, delay_s=delay).to_dict()
+    info["closed_loop"] = check
+    info["full_order"] = int(controller[0].shape[0])
+    info["controller_order"] = info["full_order"]
+    info["reduction"] = None
+    if order is not None and int(order) != controller[0].shape[0]:
+        reduction = reduce_controller(controller, int(order))
+        result = _make(plant, actuators, sensors, targets, reduction.controller, pairs, info)
+        reduced_check = check_on_plant(
+            plant, result, model_modes=model_modes, delay_s=delay
+        ).to_dict()
+        info["reduction"] = {
+            "method": "balanced truncation (stable part; unstable poles kept)",
+            "order": reduction.order,
+            "full_order": reduction.full_order,
+            "unstable_states": reduction.unstable_states,
+            "hankel_singular_values": list(reduction.hankel_singular_values),
+            "error_bound": reduction.error_bound,
+            "full_order_target_damping_min": check["target_damping_min"],
+            "kept_target_damping_min": reduced_check["target_damping_min"],
+        }
+        info["closed_loop_full_order"] = check
+        info["closed_loop"] = check = reduced_check
+        info["controller_order"] = reduction.order
+    info["margins"] = _margins_info(plant, result, delay)
+    info["margins_note"] = (
+        "loop-at-a-time at the plant input, other loops closed; LQG has no guaranteed margins "
+        "(Doyle 1978); null = no crossover"
+    )
+    warnings += _warnings(plant, check, info["margins"], zeta_c)
+    info["warnings"] = warnings
+    return _make(plant, actuators, sensors, targets, result.controller, pairs, info)
+
+
+# ---------------------------------------------------------------------- helpers
+def _make(plant, actuators, sensors, targets, controller, pairs, info) -> Design:
+    return Design(
+        law="lqg",
+        plant_fingerprint=plant.fingerprint,
+        actuators=tuple(actuators),
+        sensors=tuple(sensors),
+        target_modes=tuple(i + 1 for i in targets),
+        controller=controller,
+        pairs=tuple(pairs),
+        plant_title=plant.title,
+        info=info,
+    )
+
+
+def _hardware(plant, actuators, sensors, pairs):
+    actuators, sensors, pairs = list(actuators), list(sensors), list(pairs)
+    if pairs:
+        from_pairs = [plant.pair(p) for p in pairs]
+        a = [p.actuator for p in from_pairs]
+        s = [p.sensor for p in from_pairs]
+        if (actuators and actuators != a) or (sensors and sensors != s):
+            raise UsageError("give either pairs or actuators and sensors, not conflicting both")
+        actuators, sensors = a, s
+    if not actuators or not sensors:
+        raise UsageError("LQG needs at least one actuator and one sensor")
+    for names, what in ((actuators, "actuator"), (sensors, "sensor")):
+        if len(set(names)) != len(names):
+            raise UsageError(f"an {what} is named twice in {names}")
+    for name in actuators:
+        plant.actuator(name)
+    for name in sensors:
+        plant.sensor(name)
+    return actuators, sensors, pairs
+
+
+def _targets(plant, modes) -> list[int]:
+    numbers = list(modes or ()) or list(plant.requirements.modes)
+    if not numbers:
+        numbers = list(range(1, plant.n_modes + 1))
+    for m in numbers:
+        if isinstance(m, bool) or int(m) != m or not 1 <= m <= plant.n_modes:
+            raise UsageError(f"mode {m!r} does not exist (the plant has modes 1-{plant.n_modes})")
+    return sorted({int(m) - 1 for m in numbers})
+
+
+def _ratio(value, name: str) -> float:
+    value = float(value)
+    if not 0.0 < value < 1.0:
+        raise UsageError(f"{name} must be a damping ratio in (0, 1), got {value!r}")
+    return value
+
+
+def _target_damping(plant, target_damping) -> float:
+    if target_damping is None:
+        target_damping = plant.requirements.min_damping or DEFAULT_TARGET_DAMPING
+    return _ratio(target_damping, "target_damping")
+
+
+def _input_weights(plant, actuators) -> np.ndarray:
+    limits = []
+    for name in actuators:
+        act = plant.actuator(name)
+        limits.append(act.max_force_n if act.kind == "force" else act.max_stroke_m)
+    if any(v is None for v in limits):
+        return np.ones(len(actuators))
+    limits = np.asarray(limits, dtype=float)
+    return (limits.min() / limits) ** 2
+
+
+def _input_gains(mats, n_modes: int, r: np.ndarray) -> np.ndarray:
+    B = mats[1]
+    rows = B[2 * np.arange(n_modes) + 1]
+    return np.sum(rows**2 / r[None, :], axis=1)
+
+
+def _output_gains(C: np.ndarray, n_modes: int, V: np.ndarray) -> np.ndarray:
+    blocks = C.reshape(C.shape[0], n_modes, 2)
+    return np.sum(np.sum(blocks**2, axis=2) / V[:, None], axis=0)
+
+
+def _reachable(plant, targets, neighbours, full, beta_all):
+    """Design-model modes (0-based) and the neighbours left out, with the reason."""
+    C = full[2]
+    gamma_all = _output_gains(C, plant.n_modes, np.ones(C.shape[0]))
+    reach = beta_all > REACH_TOL * np.max(beta_all) if np.max(beta_all) > 0 else beta_all > 0
+    seen = gamma_all > REACH_TOL * np.max(gamma_all) if np.max(gamma_all) > 0 else gamma_all > 0
+    for i in targets:
+        if not reach[i]:
+            raise DesignRefused(
+                f"mode {i + 1} cannot be reached by the actuators (its shape is zero there)"
+            )
+        if not seen[i]:
+            raise DesignRefused(f"mode {i + 1} cannot be seen by the sensors")
+    kept, dropped = [], []
+    for i in design_modes(plant, targets, neighbours=neighbours):
+        if reach[i] and seen[i]:
+            kept.append(i)
+        else:
+            why = "not reached by the actuators" if not reach[i] else "not seen by the sensors"
+            dropped.append({"mode": i + 1, "reason": why + " (cannot spill over)"})
+    return kept, dropped
+
+
+def design_model_matrices(
+    plant: ModalPlant, actuators: Sequence[str], sensors: Sequence[str], modes: Sequence[int]
+) -> Matrices:
+    """State space of the design model: the given modes, with the static correction of higher ones.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The full plant.
+    actuators, sensors : sequence of str
+        Inputs (N or m) and outputs (SI units).
+    modes : sequence of int
+        Modes of the model, 1-based.
+
+    Returns
+    -------
+    tuple of ndarray
+        (A, B, C, D) in the balanced modal form of :meth:`ModalPlant.statespace_matrices`,
+        restricted to ``modes``. Modes above the highest kept one add their static compliance
+        c b/ω² to D for displacement-like (and force) sensors and drop their direct term c b for
+        accelerometers, so the model's DC gain of a displacement sensor is the full plant's when
+        no lower mode is left out.
+    """
+    kept = sorted(int(m) - 1 for m in modes)
+    full = plant.statespace_matrices(actuators, sensors)
+    A, B, C, D = full
+    idx = np.ravel([[2 * i, 2 * i + 1] for i in kept])
+    D = D.copy()
+    w_top = plant.omegas[kept].max()
+    above = [i for i in range(plant.n_modes) if i not in kept and plant.omegas[i] > w_top]
+    if above:
+        b = np.column_stack([plant.input_row(a) for a in actuators])  # n_modes × n_u
+        for o, name in enumerate(sensors):
+            row, order = plant.output_row(name)
+            if order == 0:
+                D[o] += (row[above] / plant.omegas[above] ** 2) @ b[above]
+            elif order == 2:
+                D[o] -= row[above] @ b[above]
+    return A[np.ix_(idx, idx)], B[idx], C[:, idx], D
+
+
+def _estimator_noise(plant, model, kept, sensors, rule, goals) -> dict:
+    density = [float(plant.sensor(s).noise_density) for s in sensors]
+    have_noise = all(d > 0 for d in density)
+    C = model[2]
+    n = len(kept)
+    if have_noise:
+        V = np.array(density) ** 2 / 2.0
+    else:
+        blocks = C.reshape(C.shape[0], n, 2)
+        V = np.max(np.sum(blocks**2, axis=2), axis=1)
+    if rule == "auto":
+        rule = "disturbances" if plant.disturbances and have_noise else "relative"
+    if rule == "disturbances" and not (plant.disturbances and have_noise):
+        raise UsageError(
+            "process_noise='disturbances' needs disturbances in the plant and a noise_density "
+            "on every sensor"
+        )
+    w, z = plant.omegas[kept], plant.dampings[kept]
+    gamma = _output_gains(C, n, V)
+    floor = damping_weights(w, z, np.full(n, FLOOR_DAMPING), gamma)
+    if rule == "disturbances":
+        W = np.zeros(n)
+        for d in plant.disturbances:
+            b = plant.input_row(d.name)[kept]
+            W += 0.5 * b**2 * d.psd_at(plant.freqs_hz[kept])
+    else:
+        W = damping_weights(w, z, goals, gamma)
+    return {
+        "rule": rule,
+        "density": density,
+        "V": np.diag(V),
+        "W": np.maximum(W, floor),
+        "relative_sensor_noise": not have_noise,
+    }
+
+
+def _regulator(model, w, z, goals, is_target, beta, r):
+    """Velocity weights and LQR gain, with the target goals corrected for mode coupling.
+
+    The single-mode rule is exact for one mode; with several modes sharing actuators the
+    regulator poles land slightly off. Up to ``GOAL_ITERATIONS`` times, each target mode's goal
+    is scaled by target / reached (regulator poles of the design model) until every target is
+    within ``GOAL_TOL``.
+    """
+    effective = np.maximum(goals, FLOOR_DAMPING)
+    floor = damping_weights(w, z, np.full(w.shape, FLOOR_DAMPING), beta)
+    for attempt in range(GOAL_ITERATIONS + 1):
+        q_vel = np.maximum(damping_weights(w, z, effective, beta), floor)
+        K = _regulator_gain(model, q_vel, r)
+        reached = np.array(_pole_damping(model[0] - model[1] @ K, w, z))
+        short = is_target & (reached < goals * (1.0 - GOAL_TOL)) & (reached > 0)
+        if not np.any(short) or attempt == GOAL_ITERATIONS:
+            break
+        effective = np.where(short, np.minimum(effective * goals / reached, 0.99), effective)
+    return q_vel, K, reached.tolist(), effective
+
+
+def _positive_median(values: np.ndarray) -> float:
+    positive = values[values > 0]
+    return float(np.median(positive)) if positive.size else 1.0
+
+
+def _regulator_gain(model, q_vel, r) -> np.ndarray:
+    """LQR gain, with Q and R scaled by one factor for the solver (K does not change).
+
+    The factor makes the two sides of the Hamiltonian of one size: in SI units they can differ
+    by 10 orders of magnitude, which the Schur ordering in the solver does not survive.
+    """
+    import control
+
+    A, B, _, _ = model
+    n = A.shape[0] // 2
+    vel = 2 * np.arange(n) + 1
+    Q = np.zeros((2 * n, 2 * n))
+    Q[vel, vel] = q_vel
+    c_r = np.sqrt(_positive_median(_input_gains(model, n, r)) / _positive_median(q_vel))
+    K, _, _ = control.lqr(A, B, Q * c_r, np.diag(r) * c_r)
+    return np.asarray(K)
+
+
+def _estimator_gain(model, W, V) -> np.ndarray:
+    """Kalman gain, with W and V scaled by one factor for the solver (L does not change)."""
+    import control
+
+    A, _, C, _ = model
+    n = A.shape[0] // 2
+    vel = 2 * np.arange(n) + 1
+    G = np.zeros((2 * n, n))
+    G[vel, np.arange(n)] = 1.0
+    gamma = _output_gains(C, n, np.diag(V))
+    c_e = np.sqrt(_positive_median(W) / _positive_median(gamma))
+    L, _, _ = control.lqe(A, G, C, np.diag(W) / c_e, V / c_e)
+    return np.asarray(L)
+
+
+def _pole_damping(Acl: np.ndarray, w: np.ndarray, z: np.ndarray) -> list[float]:
+    matched = match_modes(open_loop_poles(w, z), np.linalg.eigvals(Acl))
+    return [float(v) for v in matched.damping]
+
+
+def _finite_or_none(value):
+    if value is None:
+        return None
+    value = float(value)
+    return value if np.isfinite(value) else None
+
+
+def _margins_info(plant, design_, delay) -> list[dict]:
+    # The default grid holds every natural frequency exactly; an undamped mode's modal sum is
+    # infinite there, so those points are left out (the crossovers are bracketed either side).
+    grid = default_grid(plant, design_)
+    undamped = plant.freqs_hz[plant.dampings == 0.0]
+    grid = grid[~np.isin(grid, undamped)]
+    out = []
+    for m in loop_margins(plant, design_, delay_s=delay, freq_hz=grid):
+        out.append(
+            {
+                "actuator": m.loop,
+                "gain_margin_db": _finite_or_none(m.gain_margin_db),
+                "gain_reduction_margin_db": _finite_or_none(m.gain_reduction_margin_db),
+                "phase_margin_deg": _finite_or_none(m.phase_margin_deg),
+                "delay_margin_s": _finite_or_none(m.delay_margin_s),
+                "crossover_hz": _finite_or_none(m.crossover_hz),
+            }
+        )
+    return out
+
+
+def _warnings(plant, check, margins, zeta_c) -> list[str]:
+    out = []
+    if not check["stable"]:
+        out.append(
+            "the closed loop on the full plant is UNSTABLE (its margins do not mean stability)"
+        )
+    if check["spillover_unstable"]:
+        modes = ", ".join(str(m) for m in check["spillover_unstable"])
+        out.append(
+            f"spillover: mode(s) {modes} outside the targets are driven unstable (add them "
+            "to the design model, e.g. raise neighbours, or use collocated pairs)"
+        )
+    if check["spillover_reduced"]:
+        modes = ", ".join(str(m) for m in check["spillover_reduced"])
+        out.append(f"spillover: damping of mode(s) {modes} is reduced by the loop")
+    if check["target_damping_min"] < zeta_c * (1.0 - TARGET_TOL):
+        out.append(
+            f"target damping {zeta_c:.3g} not reached (lowest target mode damping "
+            f"{check['target_damping_min']:.3g})"
+        )
+    req = plant.requirements
+    for m in margins:
+        gm, pm = m["gain_margin_db"], m["phase_margin_deg"]
+        if req.min_gain_margin_db is not None and gm is not None and gm < req.min_gain_margin_db:
+            out.append(f"loop {m['actuator']}: gain margin {gm:.3g} dB below the requirement")
+        if (
+            req.min_phase_margin_deg is not None
+            and pm is not None
+            and (pm < req.min_phase_margin_deg)
+        ):
+            out.append(f"loop {m['actuator']}: phase margin {pm:.3g} deg below the requirement")
+    return out
