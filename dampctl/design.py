@@ -264,6 +264,16 @@ class Design:
             return out
         A, B, C, D = self.controller
         s = 2j * np.pi * freq_hz
+        if A.shape[0] == 0:
+            return np.repeat(D[:, :, None].astype(complex), s.size, axis=2)
+        # diagonalize once (the controller is small and its poles distinct in practice);
+        # fall back to one solve per frequency when the eigenvectors are ill-conditioned
+        poles, V = np.linalg.eig(A)
+        if np.linalg.cond(V) < 1e8:
+            Bm = np.linalg.solve(V, B)
+            Cm = C @ V
+            resolvent = 1.0 / (s[None, :] - poles[:, None])
+            return np.einsum("ai,if,is->asf", Cm, resolvent, Bm, optimize=True) + D[:, :, None]
         eye = np.eye(A.shape[0])
         x = np.linalg.solve(s[:, None, None] * eye - A, np.broadcast_to(B, (s.size, *B.shape)))
         return np.moveaxis(C @ x + D, 0, -1)
