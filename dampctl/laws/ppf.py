@@ -21,8 +21,9 @@ Tuning rule (named): equal damping by pole coalescence
     so Σ_k k_ki r_ik = g ω_i² (the single-mode derivation holds for the sum). With a target
     damping the rule is applied at ζ_c = target and ζ_c is raised until the full model (all
     modes, delay, roll-offs) reaches it; without one, ζ_c is scanned for the largest smallest
-    closed-loop damping, up to ζ_c = ``MAX_RULE_DAMPING`` (0.5, g = 0.5: the static stiffness
-    at the pair at most halves — our choice).
+    closed-loop damping, up to ζ_c = ``MAX_RULE_DAMPING`` (0.5, g = 0.5) and a DC loop gain of
+    at most ``MAX_DC_LOOP_GAIN`` (0.5): the static stiffness the loops see at most halves, a
+    static margin of 2 (our choice; 1 is the stability limit).
 
 Static stability condition (enforced)
     A single PPF loop on one mode is stable for every 0 ≤ g < 1 and unstable for g > 1, any
@@ -50,7 +51,14 @@ from dampctl.laws._checks import check_collocated
 from dampctl.laws._tuning import stack_loops
 from dampctl.plant import ModalPlant, Pair
 
-__all__ = ["MAX_RULE_DAMPING", "RULE", "design", "equal_damping_rule", "rule_damping"]
+__all__ = [
+    "MAX_DC_LOOP_GAIN",
+    "MAX_RULE_DAMPING",
+    "RULE",
+    "design",
+    "equal_damping_rule",
+    "rule_damping",
+]
 
 LAW = "ppf"
 RULE = (
@@ -61,6 +69,9 @@ _DISPLACEMENT = ("displacement", "relative_displacement")
 #: largest rule damping the tuning uses: g = 0.5, so the static stiffness seen at the pair at
 #: most halves (our choice; the rule's g tends to 1 as the damping grows)
 MAX_RULE_DAMPING = 0.5
+#: largest DC loop gain λ_max(G(0)K(0)) a tuned design may have: a static margin of 2, the
+#: same as g = 0.5 on one mode (our choice); 1 is the stability limit
+MAX_DC_LOOP_GAIN = 0.5
 #: filter damping rule used when an explicit gain >= 1 leaves no rule damping (our choice)
 _FALLBACK_RULE_DAMPING = 0.1
 
@@ -174,6 +185,11 @@ def design(
         gains = np.full(len(request.pairs), equal_damping_rule(1.0, zeta_c)[2])
         loops = bank.loops(zeta_c, gains)
         dc = bank.dc_loop_gain(loops)
+        if MAX_DC_LOOP_GAIN < dc < 1.0:
+            warnings.append(
+                f"DC loop gain {dc:.3g} is close to the static stability limit 1: the loops "
+                "soften the structure a lot at low frequency (static margin under 2)"
+            )
     final = model.evaluate([model.effective(stack_loops(loops))])
     evaluations += 1
     filters = [
@@ -280,13 +296,13 @@ def _tune(bank: _Bank, model, request) -> tuple[float, int, bool | None]:
     n = len(request.pairs)
     count = 0
 
-    def scores(candidates: np.ndarray) -> np.ndarray:
+    def scores(candidates: np.ndarray, limit: float = MAX_DC_LOOP_GAIN) -> np.ndarray:
         nonlocal count
         out = np.full(candidates.size, -np.inf)
         controllers, index = [], []
         for j, zeta_c in enumerate(candidates):
             loops = bank.loops(float(zeta_c), np.full(n, equal_damping_rule(1.0, zeta_c)[2]))
-            if bank.dc_loop_gain(loops) < 1.0:
+            if bank.dc_loop_gain(loops) <= limit:
                 controllers.append(model.effective(stack_loops(loops)))
                 index.append(j)
         if controllers:
@@ -308,13 +324,13 @@ def _tune(bank: _Bank, model, request) -> tuple[float, int, bool | None]:
             )
         reach = target * (1.0 - 1e-6)  # coalesced (repeated) poles are computed to ~1e-8
         grid = np.geomspace(target, max(MAX_RULE_DAMPING, target), 16)
-        values = scores(grid)
+        values = scores(grid, 1.0 - 1e-9)
         ok = values >= reach
         if np.any(ok):
             j = int(np.argmax(ok))
             if j > 0:
                 fine = np.geomspace(grid[j - 1], grid[j], 9)
-                fine_ok = scores(fine) >= reach
+                fine_ok = scores(fine, 1.0 - 1e-9) >= reach
                 return float(fine[int(np.argmax(fine_ok))]), count, True
             return float(grid[0]), count, True
     grid = np.geomspace(0.003, MAX_RULE_DAMPING, 27)
