@@ -94,7 +94,8 @@ def check_collocated(plant: ModalPlant, pair: Pair, law: str) -> None:
     else:
         detail = "its sensor does not act at the actuator's place and direction"
     raise DesignRefused(
-        f"{law.upper()} needs a collocated pair, but pair {pair.name!r} is not: {detail}; "
+        f"{law.upper()} needs a collocated pair, but pair {pair.name!r} is not collocated: "
+        f"{detail}; "
         "collocated-law stability is not guaranteed there — use --law lqg "
         "(model-based) for non-collocated pairs",
         field=f"pairs.{pair.name}",
