@@ -168,7 +168,7 @@ def search_gains(
     *,
     target: float | None = None,
     log_range: tuple[float, float] = (-4.0, 2.0),
-    points_per_decade: int = 6,
+    points_per_decade: int = 4,
     refine_loops: bool = True,
 ) -> SearchResult:
     """Search per-loop gains ``g = s · base`` (then loop by loop) for the damping objective.
@@ -229,7 +229,7 @@ def search_gains(
     for _ in range(6):  # zoom around the best scale until it is fixed to ~1e-4
         if hi / lo < 1.0 + 1e-4:
             break
-        fine = np.logspace(np.log10(lo), np.log10(hi), 13)
+        fine = np.logspace(np.log10(lo), np.log10(hi), 9)
         fine_scores = run(fine[:, None] * base[None, :])
         j = _smallest_best(fine_scores)
         if fine_scores[j] >= score:
@@ -252,7 +252,7 @@ def _smallest_best(scores: np.ndarray) -> int:
 
 
 def _refine_loops(run, gains: np.ndarray, score: float, sweeps: int = 2):
-    factors = np.logspace(-0.5, 0.5, 11)
+    factors = np.logspace(-0.5, 0.5, 9)
     for _ in range(sweeps):
         improved = False
         for k in range(gains.size):
