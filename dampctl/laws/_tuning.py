@@ -8,10 +8,12 @@ closed-loop poles are matched to the plant's modes by assignment
 
 The search (:func:`search_gains`) works on per-loop gains ``g = s · base`` with a common scale
 s over a log grid (base normalizes each loop by what its pair sees), then refines s locally and
-finally each loop's gain one at a time (coordinate refinement). Either it maximizes the
-objective (the smallest closed-loop damping ratio over the target groups, unstable = −inf),
-taking the smallest gains within a hair of the maximum, or it finds the smallest gains that
-reach a target damping.
+finally each loop against the rest (loop k by f, the others by c, on a shrinking 5 × 5 grid:
+a max-min objective has kinks where two modes share the smallest damping, which moving one
+loop alone cannot leave). Either it maximizes the objective (the smallest closed-loop damping
+ratio over the target groups, unstable = −inf), taking the smallest gains within 0.1 % of the
+maximum, or it finds the smallest gains that reach a target damping (then lowers each loop
+alone while the target still holds).
 """
 
 from __future__ import annotations
@@ -251,20 +253,27 @@ def _smallest_best(scores: np.ndarray) -> int:
     return int(np.argmax(scores >= best - tol))
 
 
-def _refine_loops(run, gains: np.ndarray, score: float, sweeps: int = 2):
-    factors = np.logspace(-0.5, 0.5, 9)
+def _refine_loops(run, gains: np.ndarray, score: float, sweeps: int = 3):
+    """Loop-by-loop refinement of a max-min objective.
+
+    Each step scales loop k by f and all other loops together by c on a small 2-D grid
+    (one batch): a move of one loop alone cannot leave a kink where two modes share the
+    smallest damping, a move of k against the rest can. The step shrinks each sweep.
+    """
+    span = 0.4
     for _ in range(sweeps):
-        improved = False
+        f = np.logspace(-span, span, 5)
+        c = np.logspace(-span / 2, span / 2, 5)
         for k in range(gains.size):
-            trial = np.repeat(gains[None, :], factors.size, axis=0)
-            trial[:, k] *= factors
+            trial = np.repeat(gains[None, :], f.size * c.size, axis=0)
+            others = np.arange(gains.size) != k
+            trial[:, k] *= np.repeat(f, c.size)
+            trial[:, others] *= np.tile(c, f.size)[:, None]
             values = run(trial)
             j = _smallest_best(values)
-            tol = _TIE * max(abs(score), 1e-6)
-            if values[j] > score + tol:
-                gains, score, improved = trial[j], float(values[j]), True
-        if not improved:
-            break
+            if values[j] > score + _TIE * 1e-2 * max(abs(score), 1e-6):
+                gains, score = trial[j], float(values[j])
+        span /= 2.0
     return gains, score
 
 
