@@ -207,19 +207,20 @@ def search_gains(
     scores = run(scales[:, None] * base[None, :])
     best_seen = float(np.max(scores))
     reached = True
-    if target is not None and np.any(scores >= target):
-        k = int(np.argmax(scores >= target))
+    reach = -np.inf if target is None else target * (1.0 - 1e-9)  # repeated poles: ~1e-8
+    if target is not None and np.any(scores >= reach):
+        k = int(np.argmax(scores >= reach))
         lo = scales[k - 1] if k > 0 else scales[0] / 10.0
         hi = scales[k]
         for _ in range(3):  # three batched bisection passes on the log scale
             fine = np.logspace(np.log10(lo), np.log10(hi), 9)
             values = run(fine[:, None] * base[None, :])
-            ok = values >= target
+            ok = values >= reach
             j = int(np.argmax(ok)) if np.any(ok) else len(fine) - 1
             lo, hi = fine[max(j - 1, 0)], fine[j]
         gains = hi * base
         if refine_loops and base.size > 1:
-            gains = _reduce_loops(run, gains, target)
+            gains = _reduce_loops(run, gains, reach)
         score = float(run(gains[None, :])[0])
         best_seen = max(best_seen, score)
         return SearchResult(gains, score, best_seen, True, count)

@@ -110,7 +110,7 @@ def design(
     roll_off_hz : float, optional
         Corner (Hz) of the roll-off / differentiator; default the corner rule (module
         docstring) when a delay or hardware bandwidth is stated; 0 disables the roll-off on
-        velocity loops.
+        velocity loops (a displacement sensor's differentiator then keeps the rule's corner).
 
     refine : bool, optional
         Refine the gains loop by loop after the common-scale search (default). False keeps
@@ -149,9 +149,7 @@ def design(
     else:
         corner_hz = roll_off_hz or None
     kinds = [plant.sensor(p.sensor).kind for p in request.pairs]
-    filters = [
-        _filter(kind, corner_hz, rule_hz if roll_off_hz is None else roll_off_hz) for kind in kinds
-    ]
+    filters = [_filter(kind, corner_hz, roll_off_hz or rule_hz) for kind in kinds]
     unit_loops = [_loop(p, 1.0, f) for p, f in zip(request.pairs, filters, strict=True)]
     unit = model.effective(stack_loops(unit_loops))
 
@@ -185,6 +183,9 @@ def design(
         "gains": [float(g) for g in gains],
         "roll_off_hz": corner_hz,
         "roll_off_rule": "max(2 f_top, min(5 f_top, 1/(8 T)))",
+        "differentiator_hz": (roll_off_hz or rule_hz)
+        if any(k in _DISPLACEMENT for k in kinds)
+        else None,
         "sensor_filters": [
             "band-limited differentiator"
             if kind in _DISPLACEMENT
@@ -224,9 +225,9 @@ def _check_pair(plant: ModalPlant, pair: Pair) -> None:
     check_collocated(plant, pair, LAW)
 
 
-def _filter(kind: str, corner_hz: float | None, differentiator_hz: float | None):
-    if kind in _DISPLACEMENT:
-        w = 2.0 * math.pi * (differentiator_hz or corner_hz)
+def _filter(kind: str, corner_hz: float | None, differentiator_hz: float):
+    if kind in _DISPLACEMENT:  # the differentiator always needs a corner (0 means the rule)
+        w = 2.0 * math.pi * differentiator_hz
         return (Section((w, 0.0), (1.0, w)),)
     if corner_hz:
         w = 2.0 * math.pi * corner_hz
