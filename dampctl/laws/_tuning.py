@@ -8,7 +8,7 @@ closed-loop poles are matched to the plant's modes by assignment
 
 The search (:func:`search_gains`) works on per-loop gains ``g = s · base`` with a common scale
 s over a log grid (base normalizes each loop by what its pair sees), then refines s locally and
-finally each loop against the rest (loop k by f, the others by c, on a shrinking 5 × 5 grid:
+finally each loop against the rest (loop k by f, the others by c, on a 3 × 3 pattern search:
 a max-min objective has kinks where two modes share the smallest damping, which moving one
 loop alone cannot leave). Either it maximizes the objective (the smallest closed-loop damping
 ratio over the target groups, unstable = −inf), taking the smallest gains within 0.1 % of the
@@ -254,27 +254,34 @@ def _smallest_best(scores: np.ndarray) -> int:
     return int(np.argmax(scores >= best - tol))
 
 
-def _refine_loops(run, gains: np.ndarray, score: float, sweeps: int = 3):
-    """Loop-by-loop refinement of a max-min objective.
+def _refine_loops(run, gains: np.ndarray, score: float, passes: int = 8):
+    """Loop-against-rest pattern search on a max-min objective.
 
-    Each step scales loop k by f and all other loops together by c on a small 2-D grid
-    (one batch): a move of one loop alone cannot leave a kink where two modes share the
-    smallest damping, a move of k against the rest can. The step shrinks each sweep.
+    Each step scales loop k by f and all other loops together by c on a 3 × 3 pattern (one
+    batch): a move of one loop alone cannot leave a kink where two modes share the smallest
+    damping, a move of k against the rest can. The pattern keeps its size while a pass
+    improves and halves when it does not, down to a factor of 10^±0.03.
     """
     span = 0.4
-    for _ in range(sweeps):
-        f = np.logspace(-span, span, 5)
-        c = np.logspace(-span / 2, span / 2, 5)
+    steps = np.array([-1.0, 0.0, 1.0])
+    f_exp, c_exp = np.repeat(steps, 3), np.tile(steps, 3) / 2.0
+    keep = (f_exp != 0) | (c_exp != 0)
+    f_exp, c_exp = f_exp[keep], c_exp[keep]
+    for _ in range(passes):
+        improved = False
         for k in range(gains.size):
-            trial = np.repeat(gains[None, :], f.size * c.size, axis=0)
+            trial = np.repeat(gains[None, :], f_exp.size, axis=0)
             others = np.arange(gains.size) != k
-            trial[:, k] *= np.repeat(f, c.size)
-            trial[:, others] *= np.tile(c, f.size)[:, None]
+            trial[:, k] *= 10.0 ** (span * f_exp)
+            trial[:, others] *= (10.0 ** (span * c_exp))[:, None]
             values = run(trial)
-            j = _smallest_best(values)
+            j = int(np.argmax(values))
             if values[j] > score + _TIE * 1e-2 * max(abs(score), 1e-6):
-                gains, score = trial[j], float(values[j])
-        span /= 2.0
+                gains, score, improved = trial[j], float(values[j]), True
+        if not improved:
+            span /= 2.0
+            if span < 0.03:
+                break
     return gains, score
 
 
