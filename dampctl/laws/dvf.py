@@ -29,9 +29,9 @@ Tuning
     / (2 ω_i)) over the target modes (so s = 1 would add a first-order damping ratio of 1 to the
     pair's best mode). The common scale s is scanned on a log grid with batched eigenvalues,
     refined, then each loop is refined against the others (a 3 × 3 pattern search over its own
-    factor and a common factor on the rest, halving the pattern when a pass gains nothing). Without a target the search
-    maximizes the smallest closed-loop damping ratio over the target modes (smallest gains
-    within 0.1 % on a tie); with
+    factor and a common factor on the rest, halving the pattern when a pass gains nothing).
+    Without a target the search maximizes the smallest closed-loop damping ratio over the
+    target modes (smallest gains within 0.1 % on a tie); with
     ``target_damping`` it takes the smallest gains reaching it (falling back to the maximum when
     it cannot be reached, and saying so).
 """
