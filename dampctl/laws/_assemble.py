@@ -108,6 +108,12 @@ def finish(
     if request.target_damping is not None:
         target_reached = bool(achieved >= request.target_damping * (1.0 - 1e-6))
     notes = list(request.groups.warnings) + list(warnings)
+    open_min = float(np.min(plant.dampings[list(request.targets)]))
+    if request.target_damping is not None and open_min >= request.target_damping:
+        notes.append(
+            f"the target modes already have damping >= {request.target_damping:g} without "
+            "control: the loops are not needed for this target"
+        )
     if not stable:
         notes.append(
             "the closed loop is UNSTABLE with the stated delay and roll-offs "

@@ -235,3 +235,9 @@ def test_ideal_dvf_stable_on_random_modal_plants(freqs, shape, damping, log_gain
     assert modes.stable
     small = dvf.design(plant, ["fv"], gain=1e-6, delay_s=0.0)
     assert np.all(closed_loop_modes(plant, small).damping >= plant.dampings - 1e-9)
+
+
+def test_target_already_met_without_control_is_said():
+    design = dvf.design(_sdof(), ["fv"], target_damping=0.005)
+    assert design.info["target_reached"] is True
+    assert any("without control" in w for w in design.info["warnings"])
