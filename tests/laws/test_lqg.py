@@ -82,7 +82,8 @@ def test_damping_rule_is_exact_for_one_damped_mode(omega, zeta, goal, b):
 )
 def test_single_mode_design_reaches_any_target(freq_hz, zeta, target, mass):
     # Property of the closed form above: one mode, one actuator, any scale and damping, the
-    # regulator poles of the design sit exactly at the target damping (1e-6, Riccati solver).
+    # regulator poles of the design sit exactly at the aimed damping, target × (1 + headroom)
+    # (1e-6, Riccati solver).
     plant = ModalPlant(
         modes=[Mode(freq_hz=freq_hz, damping=zeta, modal_mass_kg=mass)],
         sites={"x": [1.0]},
@@ -92,7 +93,9 @@ def test_single_mode_design_reaches_any_target(freq_hz, zeta, target, mass):
     design = lqg.design(plant, ["f"], ["x"], target_damping=target, delay_s=0.0)
     A, B, _, _ = plant.statespace_matrices(["f"], ["x"])
     poles = np.linalg.eigvals(A - B @ design.controller[2])
-    np.testing.assert_allclose(_zeta(poles[poles.imag > 0]), target, rtol=1e-6)
+    np.testing.assert_allclose(
+        _zeta(poles[poles.imag > 0]), target * (1 + lqg.GOAL_HEADROOM), rtol=1e-6
+    )
     assert design.info["closed_loop"]["stable"]
 
 
@@ -107,10 +110,14 @@ def test_sdof_design_meets_target_and_separation_holds():
     closed = np.linalg.eigvals(closed_loop_matrix((A, B, C, D), design.controller))
     expected = np.concatenate([np.linalg.eigvals(A - B @ K), np.linalg.eigvals(A - L @ C)])
     np.testing.assert_allclose(np.sort_complex(closed), np.sort_complex(expected), rtol=1e-9)
-    np.testing.assert_allclose(_zeta(np.linalg.eigvals(A - B @ K))[0], 0.2, rtol=1e-9)
+    np.testing.assert_allclose(
+        _zeta(np.linalg.eigvals(A - B @ K))[0], 0.2 * (1 + lqg.GOAL_HEADROOM), rtol=1e-9
+    )
     info = design.info
     assert info["closed_loop"]["stable"]
-    assert info["closed_loop"]["target_damping_min"] == pytest.approx(0.2, rel=1e-6)
+    assert info["closed_loop"]["target_damping_min"] == pytest.approx(
+        0.2 * (1 + lqg.GOAL_HEADROOM), rel=1e-6
+    )
     assert design.law == "lqg" and design.target_modes == (1,)
     np.testing.assert_allclose(Ac, A - B @ K - L @ C, atol=1e-9 * np.abs(A).max())
 
@@ -200,9 +207,9 @@ def test_gains_agree_with_control_lqr_and_lqe():
     )
     assert not np.any(Dc)
     # Three modes share the actuators: after the goal correction the regulator poles of the
-    # model (recomputed here from the stored gain) reach the target damping to 0.1 %.
+    # model (recomputed here from the stored gain) reach the aimed damping to 0.1 %.
     reg = np.linalg.eigvals(A - B @ Cc)
-    np.testing.assert_allclose(_zeta(reg[reg.imag > 0]), 0.08, rtol=1e-3)
+    np.testing.assert_allclose(_zeta(reg[reg.imag > 0]), 0.08 * (1 + lqg.GOAL_HEADROOM), rtol=1e-3)
 
 
 def test_feedthrough_enters_the_estimator():
@@ -377,7 +384,12 @@ def test_reduction_bound_covers_actual_error_and_reports_damping():
     # Hankel singular values agree with python-control's hsvd on the (stable) full controller.
     sys_full = full.statespace()
     if red["unstable_states"] == 0:
-        np.testing.assert_allclose(red["hankel_singular_values"], control.hsvd(sys_full), rtol=1e-6)
+        # two solvers of one quantity: agree to 1e-6 of the largest value (the small values carry
+            # the absolute rounding of the large ones)
+            hsv = control.hsvd(sys_full)
+            np.testing.assert_allclose(
+                red["hankel_singular_values"], hsv, rtol=1e-6, atol=1e-6 * hsv[0]
+            )
     # Bound >= actual H-infinity error (Enns 1984; Glover 1984), measured on a dense grid that
     # includes the controller's own resonances.
     poles = np.linalg.eigvals(full.controller[0])
