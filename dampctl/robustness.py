@@ -1,0 +1,621 @@
+"""Robustness of a closed loop: frequency drift, extra delay, hardware bandwidth, spillover.
+
+Everything here works on closed-loop poles (plain numpy eigenvalues, batched where many cases
+are needed; no python-control model is built). Loop delays need poles, so they enter as a
+cascade of m second-order Padé sections of T/m each, with m chosen so that ω_ref·T/m ≤ 1 at
+the highest frequency where the loop gain matters (phase error of one [2/2] section at
+ωT = 1 is 1.3e-3 rad; all-pass, so magnitudes are exact).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from dampctl.closedloop import (
+    closed_loop_matrix,
+    lag_elements,
+    match_modes,
+    open_loop_poles,
+    pade_matrices,
+    series_matrices,
+)
+
+__all__ = [
+    "BandwidthLimit",
+    "DelayLimit",
+    "DriftResult",
+    "GainLocus",
+    "SpilloverMode",
+    "delay_sections",
+    "drift_cases",
+    "drift_robustness",
+    "drifted_plant_matrices",
+    "extra_delay_to_instability",
+    "gain_locus",
+    "loop_controller",
+    "loop_poles",
+    "roll_off_limit",
+    "spillover",
+]
+
+Matrices = tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]
+
+#: largest number of [2/2] Padé sections per channel
+MAX_SECTIONS = 12
+#: modes up to this count get all 2^n drift corners
+ALL_CORNERS_UP_TO = 8
+
+
+def delay_sections(delay_s: float, omega_ref: float) -> int:
+    """Number m of [2/2] Padé sections so that ω_ref·T/m ≤ 1 (1 to MAX_SECTIONS; 0 for T = 0).
+
+    Parameters
+    ----------
+    delay_s : float
+        Delay (s).
+    omega_ref : float
+        Highest frequency (rad/s) where the phase must be right.
+
+    Returns
+    -------
+    int
+    """
+    if delay_s <= 0.0:
+        return 0
+    return int(min(max(math.ceil(omega_ref * delay_s), 1), MAX_SECTIONS))
+
+
+def loop_controller(
+    plant,
+    design,
+    *,
+    delay_s: float,
+    omega_ref: float,
+    roll_off: bool = True,
+    gain_scale: float = 1.0,
+    actuator_bandwidth_hz: float | None = None,
+    sensor_bandwidth_hz: float | None = None,
+) -> Matrices:
+    """The design's controller with delay (Padé cascade) and first-order roll-offs folded in.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        Supplies the stated roll-offs.
+    design : Design
+        The design.
+    delay_s : float
+        Loop delay (s) on every channel.
+    omega_ref : float
+        Frequency (rad/s) up to which the delay's phase is accurate (:func:`delay_sections`).
+    roll_off : bool, optional
+        Include the roll-offs stated in the plant file.
+    gain_scale : float, optional
+        Factor on the whole controller (u = −k K y).
+    actuator_bandwidth_hz, sensor_bandwidth_hz : float, optional
+        Corner (Hz) replacing the stated one on every actuator / sensor channel.
+
+    Returns
+    -------
+    tuple of ndarray
+        (A, B, C, D), ``u = −(C x_c + D y)``.
+    """
+    A, B, C, D = design.statespace_matrices()
+    base = (A, B, gain_scale * C, gain_scale * D)
+    act = [plant.actuator(a).bandwidth_hz for a in design.actuators] if roll_off else []
+    sen = [plant.sensor(s).bandwidth_hz for s in design.sensors] if roll_off else []
+    if actuator_bandwidth_hz is not None:
+        act = [actuator_bandwidth_hz] * len(design.actuators)
+    if sensor_bandwidth_hz is not None:
+        sen = [sensor_bandwidth_hz] * len(design.sensors)
+    ctrl = lag_elements(base, actuator_bandwidth_hz=act, sensor_bandwidth_hz=sen)
+    m = delay_sections(delay_s, omega_ref)
+    if m:
+        one = pade_matrices(delay_s / m, 2)
+        chain = one
+        for _ in range(m - 1):
+            chain = series_matrices(chain, one)
+        n_out = D.shape[0]
+        blocks = [_blockdiag([chain[k]] * n_out) for k in range(4)]
+        ctrl = series_matrices(ctrl, tuple(blocks))
+    return ctrl
+
+
+def _blockdiag(mats):
+    out = np.zeros((sum(m.shape[0] for m in mats), sum(m.shape[1] for m in mats)))
+    r = c = 0
+    for m in mats:
+        out[r : r + m.shape[0], c : c + m.shape[1]] = m
+        r, c = r + m.shape[0], c + m.shape[1]
+    return out
+
+
+def loop_poles(plant, design, controller: Matrices) -> np.ndarray:
+    """All closed-loop poles (rad/s) of the plant with an effective controller."""
+    mats = plant.statespace_matrices(design.actuators, design.sensors)
+    return np.linalg.eigvals(closed_loop_matrix(mats, controller))
+
+
+def _max_real(plant, design, controller: Matrices) -> float:
+    return float(np.max(loop_poles(plant, design, controller).real))
+
+
+# ---------------------------------------------------------------------- frequency drift
+def drifted_plant_matrices(plant, inputs, outputs, factors: np.ndarray) -> Matrices:
+    """Plant matrices with every natural frequency scaled, ω_i → f_i ω_i.
+
+    Mode shapes, damping ratios and the static residual term are kept; states stay
+    ``[ω_i q_i, q_i']`` with the new ω_i.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The nominal plant.
+    inputs, outputs : sequence of str
+        Input and output names, as for ``plant.statespace_matrices``.
+    factors : array_like, shape (n_modes,)
+        Frequency factor of each mode (> 0).
+
+    Returns
+    -------
+    tuple of ndarray
+        (A, B, C, D).
+    """
+    A0, B, C0, D = plant.statespace_matrices(inputs, outputs)
+    w = plant.omegas * np.asarray(factors, dtype=float)
+    z = plant.dampings
+    n = plant.n_modes
+    idx = np.arange(n)
+    A = np.zeros_like(A0)
+    A[2 * idx, 2 * idx + 1] = w
+    A[2 * idx + 1, 2 * idx] = -w
+    A[2 * idx + 1, 2 * idx + 1] = -2.0 * z * w
+    C = np.array(C0, copy=True)
+    for o, name in enumerate(outputs):
+        row, order = plant.output_row(name)
+        if order == 0:
+            C[o, 2 * idx] = row / w
+        elif order == 2:
+            C[o, 2 * idx] = -w * row
+            C[o, 2 * idx + 1] = -2.0 * z * w * row
+    return A, B, C, D
+
+
+def drift_cases(n_modes: int, drift: float, *, samples: int, seed: int) -> np.ndarray:
+    """Frequency factors 1 + δ_i of the drift cases: corners, then seeded random samples.
+
+    With n ≤ ALL_CORNERS_UP_TO modes every one of the 2^n corners δ_i = ±drift is used.
+    Beyond that a subset of corners: all up, all down, the two alternating patterns, and for
+    every k the two "step" corners (modes ≤ k up and the rest down, and the reverse), which
+    include every pair of neighbouring modes moving towards and away from each other. Then
+    ``samples`` points drawn uniformly in the box [−drift, drift]^n.
+
+    Parameters
+    ----------
+    n_modes : int
+        Number of modes.
+    drift : float
+        Largest relative shift (0.05 = ±5 %).
+    samples : int
+        Number of random samples.
+    seed : int
+        Seed of the random generator.
+
+    Returns
+    -------
+    ndarray, shape (n_cases, n_modes)
+    """
+    if n_modes <= ALL_CORNERS_UP_TO:
+        signs = ((np.arange(2**n_modes)[:, None] >> np.arange(n_modes)) & 1) * 2 - 1
+    else:
+        alt = np.where(np.arange(n_modes) % 2 == 0, 1, -1)
+        steps = [np.where(np.arange(n_modes) <= k, 1, -1) for k in range(n_modes - 1)]
+        base = np.array([np.ones(n_modes), alt, *steps])
+        signs = np.concatenate([base, -base])
+    rng = np.random.default_rng(seed)
+    random = rng.uniform(-1.0, 1.0, size=(max(int(samples), 0), n_modes))
+    return 1.0 + drift * np.concatenate([signs.astype(float), random])
+
+
+@dataclass(frozen=True)
+class DriftResult:
+    """Closed loop under independent frequency drift of every mode.
+
+    Attributes
+    ----------
+    drift : float
+        Largest relative shift.
+    n_cases, n_corners : int
+        Cases evaluated, of which corners.
+    all_corners : bool
+        True when every 2^n corner was evaluated.
+    unstable_cases : int
+        Cases with a closed-loop pole in the right half plane.
+    max_real : float
+        Largest real part (1/s) over every case.
+    worst_damping : dict of int to float
+        Smallest closed-loop damping of each target mode (1-based) over the cases.
+    worst_case : ndarray
+        Frequency factors of the case giving the smallest damping on a target mode.
+    """
+
+    drift: float
+    n_cases: int
+    n_corners: int
+    all_corners: bool
+    unstable_cases: int
+    max_real: float
+    worst_damping: dict
+    worst_case: np.ndarray
+
+
+def drift_robustness(
+    plant,
+    design,
+    controller: Matrices,
+    target_modes: Sequence[int],
+    *,
+    drift: float,
+    samples: int = 64,
+    seed: int = 0,
+) -> DriftResult:
+    """Worst damping of the target modes, and stability, over frequency-drift cases.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The nominal plant.
+    design : Design
+        The design (its controller is not changed: it was tuned on the nominal plant).
+    controller : tuple of ndarray
+        Effective controller (:func:`loop_controller`).
+    target_modes : sequence of int
+        Modes (1-based) whose damping is tracked.
+    drift : float
+        Largest relative shift of each natural frequency.
+    samples : int, optional
+        Random samples besides the corners.
+    seed : int, optional
+        Seed of the random samples.
+
+    Returns
+    -------
+    DriftResult
+    """
+    cases = drift_cases(plant.n_modes, drift, samples=samples, seed=seed)
+    n_corners = cases.shape[0] - max(int(samples), 0)
+    mats = [
+        closed_loop_matrix(
+            drifted_plant_matrices(plant, design.actuators, design.sensors, f), controller
+        )
+        for f in cases
+    ]
+    poles = np.linalg.eigvals(np.stack(mats))
+    targets = [m - 1 for m in target_modes]
+    worst = {m: np.inf for m in target_modes}
+    worst_case, worst_value = cases[0], np.inf
+    for f, p in zip(cases, poles, strict=True):
+        matched = match_modes(open_loop_poles(plant.omegas * f, plant.dampings), p)
+        for m, k in zip(target_modes, targets, strict=True):
+            value = float(matched.damping[k])
+            worst[m] = min(worst[m], value)
+            if value < worst_value:
+                worst_value, worst_case = value, f
+    max_real = np.max(poles.real, axis=1)
+    return DriftResult(
+        drift=float(drift),
+        n_cases=int(cases.shape[0]),
+        n_corners=int(n_corners),
+        all_corners=plant.n_modes <= ALL_CORNERS_UP_TO,
+        unstable_cases=int(np.sum(max_real >= 0.0)),
+        max_real=float(np.max(max_real)),
+        worst_damping=worst,
+        worst_case=np.array(worst_case),
+    )
+
+
+# ---------------------------------------------------------------------- extra delay
+@dataclass(frozen=True)
+class DelayLimit:
+    """Extra common delay (on every channel) that brings the loop to instability.
+
+    Attributes
+    ----------
+    delay_margin_s : float
+        Extra common delay (s) to instability from the frequency domain, exact
+        (:func:`dampctl.margins.common_delay_margin`; the loop delay margin for one loop).
+    extra_delay_s : float
+        The same boundary as found on the poles (Padé cascade): equal to ``delay_margin_s``
+        when confirmed, else found by bisection on the poles.
+    confirmed : bool
+        True when the poles are stable just below and unstable just above ``delay_margin_s``
+        (±2 %), i.e. the frequency-domain and pole answers agree.
+    pade_sections : int
+        [2/2] Padé sections used for the total delay at the boundary.
+    """
+
+    delay_margin_s: float
+    extra_delay_s: float
+    confirmed: bool
+    pade_sections: int
+
+
+def extra_delay_to_instability(
+    plant,
+    design,
+    *,
+    delay_s: float,
+    delay_margin_s: float,
+    omega_ref: float,
+    roll_off: bool = True,
+    tol: float = 0.02,
+) -> DelayLimit:
+    """Confirm the delay margin on the poles, or find the common-delay boundary by bisection.
+
+    Parameters
+    ----------
+    plant, design
+        The loop.
+    delay_s : float
+        Nominal loop delay (s).
+    delay_margin_s : float
+        Extra common delay (s) to instability from the frequency domain.
+    omega_ref : float
+        Highest crossover (rad/s), for the Padé accuracy.
+    roll_off : bool, optional
+        Include stated roll-offs.
+    tol : float, optional
+        Relative bracket (0.02 = ±2 %) of the confirmation.
+
+    Returns
+    -------
+    DelayLimit
+    """
+
+    def unstable(extra: float) -> bool:
+        ctrl = loop_controller(
+            plant, design, delay_s=delay_s + extra, omega_ref=omega_ref, roll_off=roll_off
+        )
+        return _max_real(plant, design, ctrl) >= 0.0
+
+    sections = delay_sections(delay_s + max(delay_margin_s, 0.0), omega_ref)
+    if not np.isfinite(delay_margin_s):
+        return DelayLimit(delay_margin_s, np.inf, not unstable(0.0), sections)
+    if unstable(0.0):
+        return DelayLimit(delay_margin_s, 0.0, delay_margin_s <= 0.0, sections)
+    lo_ok = not unstable(delay_margin_s * (1 - tol))
+    hi_bad = unstable(delay_margin_s * (1 + tol))
+    if lo_ok and hi_bad:
+        return DelayLimit(delay_margin_s, delay_margin_s, True, sections)
+    lo, hi = (0.0, delay_margin_s * (1 - tol)) if not lo_ok else (delay_margin_s, None)
+    if hi is None:  # stable beyond the margin: search upwards
+        hi = delay_margin_s * 2
+        while not unstable(hi) and hi < 100 * delay_margin_s:
+            lo, hi = hi, hi * 2
+        if not unstable(hi):
+            return DelayLimit(delay_margin_s, np.inf, False, sections)
+    for _ in range(30):
+        mid = 0.5 * (lo + hi)
+        lo, hi = (lo, mid) if unstable(mid) else (mid, hi)
+        if hi - lo < 1e-3 * hi:
+            break
+    return DelayLimit(delay_margin_s, 0.5 * (lo + hi), False, sections)
+
+
+# ---------------------------------------------------------------------- hardware bandwidth
+@dataclass(frozen=True)
+class BandwidthLimit:
+    """Lowest first-order roll-off corner (on every channel) that keeps the loop stable.
+
+    Attributes
+    ----------
+    which : str
+        "actuator" or "sensor".
+    min_stable_hz : float or None
+        Boundary corner (Hz): stable above it, unstable just below; None when the loop stayed
+        stable down to ``searched_down_to_hz``, inf when it is unstable even with ideal hardware.
+    searched_down_to_hz : float
+        Lowest corner tried (Hz).
+    stated_hz : tuple of float or None
+        The corners the plant file states.
+    """
+
+    which: str
+    min_stable_hz: float | None
+    searched_down_to_hz: float
+    stated_hz: tuple
+
+
+def roll_off_limit(
+    plant, design, which: str, *, delay_s: float, omega_ref: float, roll_off: bool = True
+) -> BandwidthLimit:
+    """Bisect the first-order corner of every actuator (or sensor) channel down to instability.
+
+    A log scan from 100× the highest mode down to 1/100 of the lowest finds the first
+    unstable corner; the boundary is then bisected (ratio 1e-3) between it and the last
+    stable one. The other channel kind keeps its stated roll-off.
+
+    Parameters
+    ----------
+    plant, design
+        The loop.
+    which : {"actuator", "sensor"}
+        Which roll-off to vary.
+    delay_s : float
+        Loop delay (s).
+    omega_ref : float
+        Padé accuracy frequency (rad/s).
+    roll_off : bool, optional
+        Whether the other kind keeps its stated roll-off.
+
+    Returns
+    -------
+    BandwidthLimit
+    """
+    if which not in ("actuator", "sensor"):
+        raise ValueError(f"which must be 'actuator' or 'sensor', got {which!r}")
+    items = (
+        [plant.actuator(a) for a in design.actuators]
+        if which == "actuator"
+        else [plant.sensor(s) for s in design.sensors]
+    )
+    stated = tuple(i.bandwidth_hz for i in items)
+
+    def unstable(corner: float | None) -> bool:
+        key = "actuator_bandwidth_hz" if which == "actuator" else "sensor_bandwidth_hz"
+        ctrl = loop_controller(
+            plant,
+            design,
+            delay_s=delay_s,
+            omega_ref=omega_ref,
+            roll_off=roll_off,
+            **{key: corner},
+        )
+        return _max_real(plant, design, ctrl) >= 0.0
+
+    f_hi, f_lo = 100.0 * max(plant.freqs_hz), min(plant.freqs_hz) / 100.0
+    if unstable(f_hi):
+        return BandwidthLimit(which, np.inf, f_lo, stated)
+    scan = np.geomspace(f_hi, f_lo, 25)
+    previous = scan[0]
+    for corner in scan[1:]:
+        if unstable(corner):
+            lo, hi = corner, previous
+            while hi / lo > 1.001:
+                mid = np.sqrt(lo * hi)
+                lo, hi = (mid, hi) if unstable(mid) else (lo, mid)
+            return BandwidthLimit(which, float(hi), f_lo, stated)
+        previous = corner
+    return BandwidthLimit(which, None, float(f_lo), stated)
+
+
+# ---------------------------------------------------------------------- spillover
+@dataclass(frozen=True)
+class SpilloverMode:
+    """A mode above the design band and what the loop does to it.
+
+    Attributes
+    ----------
+    mode : int
+        1-based mode number.
+    freq_hz : float
+        Open-loop natural frequency (Hz).
+    open_damping, closed_damping : float
+        Damping ratio without and with the loop.
+    lost_damping : bool
+        Closed-loop damping below the open-loop value (by more than 0.1 % of it).
+    unstable : bool
+        Closed-loop damping negative.
+    """
+
+    mode: int
+    freq_hz: float
+    open_damping: float
+    closed_damping: float
+    lost_damping: bool
+    unstable: bool
+
+
+def spillover(plant, matched, target_modes: Sequence[int]) -> tuple[SpilloverMode, ...]:
+    """Modes above the highest target mode (the design band) and their closed-loop damping.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant.
+    matched : MatchedModes
+        Closed-loop poles matched to the plant's modes.
+    target_modes : sequence of int
+        Target modes (1-based); empty means every mode is in band (no spillover modes).
+
+    Returns
+    -------
+    tuple of SpilloverMode
+    """
+    if not target_modes:
+        return ()
+    top = max(plant.freqs_hz[m - 1] for m in target_modes)
+    out = []
+    for k in range(plant.n_modes):
+        if plant.freqs_hz[k] <= top or (k + 1) in target_modes:
+            continue
+        zo, zc = float(plant.dampings[k]), float(matched.damping[k])
+        out.append(
+            SpilloverMode(
+                mode=k + 1,
+                freq_hz=float(plant.freqs_hz[k]),
+                open_damping=zo,
+                closed_damping=zc,
+                lost_damping=bool(zc < zo - 1e-3 * zo - 1e-12),
+                unstable=bool(zc < 0.0),
+            )
+        )
+    return tuple(out)
+
+
+# ---------------------------------------------------------------------- gain locus
+@dataclass(frozen=True)
+class GainLocus:
+    """Closed-loop poles along a scaling of the whole controller.
+
+    Attributes
+    ----------
+    gains : ndarray, shape (n_gains,)
+        Scale factors (1 is the design).
+    poles : ndarray of complex, shape (n_gains, n_poles)
+        All closed-loop poles (rad/s) at each factor.
+    """
+
+    gains: np.ndarray
+    poles: np.ndarray
+
+
+def gain_locus(
+    plant,
+    design,
+    *,
+    delay_s: float,
+    omega_ref: float,
+    roll_off: bool = True,
+    gains: np.ndarray | None = None,
+) -> GainLocus:
+    """Closed-loop poles for the whole controller scaled by k (root locus of a gain scaling).
+
+    Parameters
+    ----------
+    plant, design
+        The loop.
+    delay_s : float
+        Loop delay (s).
+    omega_ref : float
+        Padé accuracy frequency (rad/s).
+    roll_off : bool, optional
+        Include stated roll-offs.
+    gains : array_like, optional
+        Scale factors; default 0 to 3 in 61 steps (1 is the design).
+
+    Returns
+    -------
+    GainLocus
+    """
+    gains = np.linspace(0.0, 3.0, 61) if gains is None else np.asarray(gains, dtype=float)
+    mats = plant.statespace_matrices(design.actuators, design.sensors)
+    stack = [
+        closed_loop_matrix(
+            mats,
+            loop_controller(
+                plant,
+                design,
+                delay_s=delay_s,
+                omega_ref=omega_ref,
+                roll_off=roll_off,
+                gain_scale=float(k),
+            ),
+        )
+        for k in gains
+    ]
+    return GainLocus(gains=gains, poles=np.linalg.eigvals(np.stack(stack)))
