@@ -160,6 +160,8 @@ class Curves:
         Grid (Hz) of the FRFs and loops.
     frf_inputs, frf_outputs : tuple of str
         Inputs and outputs of the FRF overlay.
+    frf_units : tuple of str
+        SI unit of each FRF output (per N of input force, or per m of strut extension).
     frf_open, frf_closed : ndarray, shape (n_out, n_freq)
         Largest |H| over the inputs, open and closed loop.
     loops : ndarray of complex, shape (n_loops, n_freq)
@@ -171,6 +173,7 @@ class Curves:
     freq_hz: np.ndarray
     frf_inputs: tuple[str, ...]
     frf_outputs: tuple[str, ...]
+    frf_units: tuple[str, ...]
     frf_open: np.ndarray
     frf_closed: np.ndarray
     loops: np.ndarray
@@ -368,12 +371,19 @@ def assess(
             freq_hz=grid,
             frf_inputs=frf_in,
             frf_outputs=frf_out,
+            frf_units=tuple(_unit(plant, name) for name in frf_out),
             frf_open=mag_open,
             frf_closed=mag_closed,
             loops=loops_curve,
             locus=locus,
         ),
     )
+
+
+def _unit(plant, name: str) -> str:
+    if any(o.name == name for o in plant.outputs):
+        return plant.output(name).unit
+    return plant.sensor(name).unit
 
 
 def _mode_rows(plant, matched, grid, outputs, mag_open, mag_closed) -> tuple[ModeRow, ...]:

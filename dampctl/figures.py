@@ -24,6 +24,7 @@ __all__ = [
     "plot_frf",
     "plot_nyquist",
     "plot_root_locus",
+    "plot_third_octave",
     "write_assessment_pngs",
 ]
 
@@ -49,11 +50,12 @@ class Drawn:
     artists: tuple
 
 
-def _axes(ax):
+def _axes(ax, *, right: float = 0.96):
     if ax is None:
         from matplotlib.figure import Figure
 
-        figure = Figure(figsize=(7.0, 4.2), layout="constrained")
+        figure = Figure(figsize=(7.0, 4.2))
+        figure.subplots_adjust(left=0.12, right=right, bottom=0.15, top=0.91)
         ax = figure.add_subplot()
     return ax.figure, ax
 
@@ -92,7 +94,8 @@ def plot_frf(assessment, output: int = 0, *, ax=None) -> Drawn:
     a = ax.loglog(*_within(f, c.frf_open[output], band), label="open loop", **OPEN)
     b = ax.loglog(*_within(f, c.frf_closed[output], band), label="closed loop", **CLOSED)
     ax.set_xlabel("frequency (Hz)")
-    ax.set_ylabel("|response| (output unit per N)")
+    per = "N" if all(n in assessment.response.disturbances for n in c.frf_inputs) else "input"
+    ax.set_ylabel(f"|response| ({c.frf_units[output]} per {per})")
     ax.set_title(f"{c.frf_outputs[output]}: response to {', '.join(c.frf_inputs)}")
     ax.set_xlim(*_band(assessment))
     ax.grid(True, alpha=0.3)
@@ -252,6 +255,57 @@ def plot_cumulative_rms(assessment, output: int = 0, *, ax=None) -> Drawn:
     return Drawn(figure, ax, tuple(artists))
 
 
+def plot_third_octave(assessment, output: int = 0, *, ax=None) -> Drawn:
+    """One-third-octave rms velocity 1–80 Hz of a velocity output, with the VC curves.
+
+    Parameters
+    ----------
+    assessment : Assessment
+        The assessment.
+    output : int, optional
+        Index into ``assessment.response.outputs`` (a velocity output).
+    ax : matplotlib Axes, optional
+        Where to draw.
+
+    Returns
+    -------
+    Drawn
+    """
+    from dampctl.vc import NOMINAL_CENTRES_HZ, VC_CURVES
+
+    figure, ax = _axes(ax, right=0.8)
+    o = assessment.response.outputs[output]
+    if o.band_rms_closed is None:
+        raise ValueError(f"output {o.output!r} is not a velocity output")
+    x = np.arange(len(NOMINAL_CENTRES_HZ))
+    a = ax.bar(x - 0.2, o.band_rms_open * 1e6, width=0.4, color="0.7", label="open loop")
+    b = ax.bar(
+        x + 0.2, o.band_rms_closed * 1e6, width=0.4, color=CLOSED["color"], label="closed loop"
+    )
+    top = max(float(np.max(o.band_rms_open)), float(np.max(o.band_rms_closed))) * 1e6
+    low = min(float(np.min(o.band_rms_closed)), float(np.min(o.band_rms_open))) * 1e6
+    lines = []
+    for name, level in VC_CURVES:
+        if low / 3 <= level * 1e6 <= top * 3:
+            lines.append(ax.axhline(level * 1e6, color=MARK, linewidth=0.7, alpha=0.6))
+            ax.annotate(
+                name,
+                (x[-1] + 0.6, level * 1e6),
+                fontsize=7,
+                va="center",
+                color=MARK,
+                annotation_clip=False,
+            )
+    ax.set_yscale("log")
+    ax.set_xticks(x, [f"{c:g}" for c in NOMINAL_CENTRES_HZ], rotation=60, fontsize=8)
+    ax.set_xlabel("one-third-octave band centre (Hz)")
+    ax.set_ylabel("rms velocity (um/s)")
+    met = o.vc_closed.curve or "none"
+    ax.set_title(f"{o.output}: velocity spectrum, closed loop meets {met}")
+    ax.legend(frameon=False, loc="upper left")
+    return Drawn(figure, ax, (a, b, *lines))
+
+
 def assessment_limit(assessment, output: str) -> float | None:
     """The max_rms requirement on an output, if any."""
     for r in assessment.requirements:
@@ -282,7 +336,8 @@ def assessment_pngs(assessment) -> dict[str, bytes]:
     -------
     dict of str to bytes
         File name to PNG content: ``frf_<output>.png``, ``root_locus.png``, ``damping.png``,
-        ``nyquist_<loop>.png``, ``cumulative_rms_<output>.png``.
+        ``nyquist_<loop>.png``, ``cumulative_rms_<output>.png`` and, for velocity outputs,
+        ``third_octave_<output>.png``.
     """
     files = {}
     for k, name in enumerate(assessment.curves.frf_outputs):
@@ -293,6 +348,8 @@ def assessment_pngs(assessment) -> dict[str, bytes]:
         files[f"nyquist_{_safe(name)}.png"] = _png(plot_nyquist(assessment, k))
     for k, o in enumerate(assessment.response.outputs):
         files[f"cumulative_rms_{_safe(o.output)}.png"] = _png(plot_cumulative_rms(assessment, k))
+        if o.band_rms_closed is not None:
+            files[f"third_octave_{_safe(o.output)}.png"] = _png(plot_third_octave(assessment, k))
     return files
 
 
@@ -317,6 +374,23 @@ def write_assessment_pngs(
     list of Path
         The files written.
     """
-    from dampctl.fileio import write_files
+    from dampctl.errors import OutputError
+    from dampctl.fileio import check_not_input, write_files
 
+    for name in _names(assessment):  # refuse before spending time on rendering
+        target = Path(folder) / name
+        check_not_input(target, inputs)
+        if target.exists() and not replace:
+            raise OutputError("already exists (use --force to replace)", source=str(target))
     return write_files(folder, assessment_pngs(assessment), inputs=inputs, replace=replace)
+
+
+def _names(assessment) -> list[str]:
+    names = [f"frf_{_safe(n)}.png" for n in assessment.curves.frf_outputs]
+    names += ["root_locus.png", "damping.png"]
+    names += [f"nyquist_{_safe(n)}.png" for n in assessment.pairs]
+    for o in assessment.response.outputs:
+        names.append(f"cumulative_rms_{_safe(o.output)}.png")
+        if o.band_rms_closed is not None:
+            names.append(f"third_octave_{_safe(o.output)}.png")
+    return names
