@@ -301,8 +301,9 @@ def assess(
     targets = targets or tuple(range(1, plant.n_modes + 1))
 
     margins = loop_margins(plant, design, delay_s=delay, roll_off=roll_off)
+    common = common_delay_margin(plant, design, delay_s=delay, roll_off=roll_off)
     step()
-    crossings = [f for m in margins for f in m.crossovers_hz]
+    crossings = [f for m in margins for f in m.crossovers_hz] + list(common.crossovers_hz)
     top_target = max(plant.freqs_hz[m - 1] for m in targets)
     omega_ref = 2 * np.pi * max([1.5 * max(crossings, default=0.0), top_target])
     ctrl = loop_controller(plant, design, delay_s=delay, omega_ref=omega_ref, roll_off=roll_off)
@@ -318,9 +319,13 @@ def assess(
         plant, design, ctrl, targets, drift=drift, samples=samples, seed=seed
     )
     step()
-    dm = common_delay_margin(plant, design, delay_s=delay, roll_off=roll_off)
     delay_limit = extra_delay_to_instability(
-        plant, design, delay_s=delay, delay_margin_s=dm, omega_ref=omega_ref, roll_off=roll_off
+        plant,
+        design,
+        delay_s=delay,
+        delay_margin_s=common.delay_s,
+        omega_ref=omega_ref,
+        roll_off=roll_off,
     )
     step()
     bandwidth = [

@@ -48,6 +48,7 @@ from scipy.optimize import brentq
 from dampctl.closedloop import plant_loop_delay_s
 
 __all__ = [
+    "CommonDelayMargin",
     "DiskMargins",
     "LoopMargins",
     "common_delay_margin",
@@ -404,6 +405,25 @@ def disk_margins(
     )
 
 
+@dataclass(frozen=True)
+class CommonDelayMargin:
+    """Extra delay, the same on every channel, that destabilizes the loop.
+
+    Attributes
+    ----------
+    delay_s : float
+        The smallest such delay (s); inf when no eigenvalue of M reaches unit magnitude.
+    freq_hz : float or None
+        Frequency (Hz) where the loop then goes unstable.
+    crossovers_hz : tuple of float
+        Every frequency (Hz) where an eigenvalue of M(jω) has unit magnitude.
+    """
+
+    delay_s: float
+    freq_hz: float | None
+    crossovers_hz: tuple[float, ...]
+
+
 def common_delay_margin(
     plant,
     design,
@@ -436,8 +456,7 @@ def common_delay_margin(
 
     Returns
     -------
-    float
-        The extra delay (s); inf when no eigenvalue of M reaches unit magnitude.
+    CommonDelayMargin
     """
     grid = default_grid(plant, design) if freq_hz is None else np.asarray(freq_hz, float)
 
@@ -447,7 +466,7 @@ def common_delay_margin(
 
     lam = eigs(grid)
     mags = np.log(np.sort(np.abs(lam), axis=1))
-    best = np.inf
+    best, where, found = np.inf, None, []
     for k in range(mags.shape[1]):
         values = mags[:, k]
         for j in np.flatnonzero(np.sign(values[:-1]) * np.sign(values[1:]) < 0):
@@ -457,8 +476,10 @@ def common_delay_margin(
             at = eigs(f)[0]
             pick = at[np.argmin(np.abs(np.log(np.abs(at))))]
             lag = np.mod(np.angle(pick) + np.pi, 2 * np.pi)
-            best = min(best, float(lag / (2 * np.pi * f)))
-    return best
+            found.append(float(f))
+            if lag / (2 * np.pi * f) < best:
+                best, where = float(lag / (2 * np.pi * f)), float(f)
+    return CommonDelayMargin(delay_s=best, freq_hz=where, crossovers_hz=tuple(sorted(found)))
 
 
 def _refine(fn: Callable[[float], float], grid: np.ndarray, values: np.ndarray, k: int) -> float:

@@ -95,7 +95,7 @@ def test_roll_off_boundary_is_where_nyquist_touches_minus_one():
     slow_design = replace(design, plant_fingerprint=slow.fingerprint)
     f = np.geomspace(1, 1e4, 200001)
     L = input_loops(slow, slow_design, f, delay_s=delay)[0]
-    assert np.min(np.abs(1 + L)) < 2e-3
+    assert np.min(np.abs(1 + L)) < 2e-2  # boundary bisected to 1 % in corner frequency
     # and without delay a first-order lag alone never destabilizes (Routh–Hurwitz on
     # (m s² + c s + k)(s + ω_a) + g ω_a s: every coefficient product stays positive)
     ideal = roll_off_limit(plant, design, "actuator", delay_s=0.0, omega_ref=1.0)

@@ -144,7 +144,7 @@ def _print_human(a, out: TextIO, *, plant_name: str) -> None:
     out.write(table(headers, rows) + "\n")
     out.write(f"(peak reduction: worst over outputs {', '.join(a.curves.frf_outputs)})\n")
     if len(a.controller_poles):
-        out.write("\ncontroller and hardware poles:\n")
+        out.write("\ncontroller, roll-off and delay (Pade) poles:\n")
         rows = [(p["freq_hz"], p["damping"]) for p in d["controller_poles"]]
         out.write(table(["freq (Hz)", "damping"], rows) + "\n")
     out.write("\nmargins (each loop broken at the plant input, the others closed):\n")
@@ -239,6 +239,12 @@ def _print_human(a, out: TextIO, *, plant_name: str) -> None:
     for q in a.requirements:
         out.write(f"  [{'met' if q.met else 'NOT MET'}] {q.text}\n")
     out.write("\n" + "\n".join(SAFETY_LINES) + "\n")
+
+
+def _vc_text(item: dict) -> str:
+    if "vc_closed" not in item:
+        return ""
+    return item["vc_closed"]["curve"] or "above Workshop"
 
 
 def _ms(seconds: float) -> str:
