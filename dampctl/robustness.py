@@ -135,7 +135,22 @@ def _blockdiag(mats):
 
 
 def loop_poles(plant, design, controller: Matrices) -> np.ndarray:
-    """All closed-loop poles (rad/s) of the plant with an effective controller."""
+    """All closed-loop poles (rad/s) of the plant with an effective controller.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant (every mode in the loop).
+    design : Design
+        Supplies the actuator and sensor names.
+    controller : tuple of ndarray
+        Effective controller (A_c, B_c, C_c, D_c), ``u = −(C_c x_c + D_c y)``.
+
+    Returns
+    -------
+    ndarray of complex
+        Eigenvalues of the closed-loop state matrix (1/s).
+    """
     mats = plant.statespace_matrices(design.actuators, design.sensors)
     return np.linalg.eigvals(closed_loop_matrix(mats, controller))
 
@@ -370,8 +385,10 @@ def extra_delay_to_instability(
 
     Parameters
     ----------
-    plant, design
-        The loop.
+    plant : ModalPlant
+        The plant.
+    design : Design
+        The design.
     delay_s : float
         Nominal loop delay (s).
     delay_margin_s : float
@@ -453,8 +470,10 @@ def roll_off_limit(
 
     Parameters
     ----------
-    plant, design
-        The loop.
+    plant : ModalPlant
+        The plant.
+    design : Design
+        The design.
     which : {"actuator", "sensor"}
         Which roll-off to vary.
     delay_s : float
@@ -599,8 +618,10 @@ def gain_locus(
 
     Parameters
     ----------
-    plant, design
-        The loop.
+    plant : ModalPlant
+        The plant.
+    design : Design
+        The design.
     delay_s : float
         Loop delay (s).
     omega_ref : float
