@@ -113,9 +113,11 @@ def default_grid(plant, design=None, *, points: int = 4000) -> np.ndarray:
     Returns
     -------
     ndarray
-        Sorted, unique frequencies (Hz), > 0.
+        Sorted, unique frequencies (Hz), > 0. Around an undamped pole (ζ = 0) the grid leaves
+        out the pole's own frequency, where the response is infinite.
     """
     freqs = list(plant.freqs_hz)
+    undamped = list(plant.dampings == 0.0)
     zetas = list(np.maximum(plant.dampings, 1e-4))
     if design is not None:
         A = design.statespace_matrices()[0]
@@ -125,13 +127,18 @@ def default_grid(plant, design=None, *, points: int = 4000) -> np.ndarray:
                 if abs(p) > 0:
                     freqs.append(abs(p) / (2 * np.pi))
                     zetas.append(max(min(-p.real / abs(p), 1.0), 1e-4))
+                    undamped.append(abs(p.real) <= 1e-12 * abs(p))
     f_lo, f_hi = min(freqs) / 100.0, max(freqs) * 100.0
     parts = [np.geomspace(f_lo, f_hi, points)]
     offsets = np.linspace(-8.0, 8.0, 81)
-    for f, z in zip(freqs, zetas, strict=True):
-        parts.append(f * np.exp(z * offsets))
+    for f, z, bare in zip(freqs, zetas, undamped, strict=True):
+        parts.append(f * np.exp(z * (offsets[offsets != 0.0] if bare else offsets)))
     grid = np.unique(np.concatenate(parts))
-    return grid[grid > 0]
+    grid = grid[grid > 0]
+    for f, bare in zip(freqs, undamped, strict=True):
+        if bare:
+            grid = grid[np.abs(grid / f - 1.0) > 1e-9]
+    return grid
 
 
 def input_return_ratio(

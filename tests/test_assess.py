@@ -9,7 +9,7 @@ import pytest
 from dampctl.assess import assess
 from dampctl.commands._common import jsonable
 from dampctl.components import Actuator, Disturbance, Mode, Output, Pair, Requirements, Sensor
-from dampctl.design import Branch, Design, Loop
+from dampctl.design import Branch, Design, Loop, Section
 from dampctl.errors import DesignError, UsageError
 from dampctl.plant import ModalPlant
 from dampctl.testing import chain_plant, sdof_plant
@@ -154,3 +154,60 @@ def test_bad_input_is_refused():
         assess(plant, design, drift=1.5)
     with pytest.raises(UsageError, match="delay"):
         assess(plant, design, delay_s=-1.0)
+
+
+def test_iff_strut_closed_loop_poles_preumont_example():
+    # Active strut (k_a = 0.2) between ground and m₁ in series with a force sensor, IFF
+    # δ = g F/(k_a s), i.e. u = −K y with K = −g/(k_a s). 2-DOF example m₁ = m₂ = 1, k_p = 1,
+    # k₂ = 1 at g = 0.7: poles −0.016407 ± 1.656364j, −0.020987 ± 0.638446j, −0.625211
+    # (Preumont, Dufour & Malekian, J. Guidance 15(2), 1992; values computed in REFERENCES §3).
+    # The force sensor's feedthrough (−k_a from δ) is in the loop.
+    ka, g = 0.2, 0.7
+    Mm = np.eye(2)
+    Km = np.array([[1.0 + ka + 1.0, -1.0], [-1.0, 1.0]])
+    base = ModalPlant.from_lumped(Mm, Km, ["m1", "m2"])
+    plant = replace(
+        base,
+        sites={**base.sites, "ground": [0.0, 0.0]},
+        actuators=(
+            Actuator(
+                "strut", "strut", between=("ground", "m1"), stiffness_n_per_m=ka, max_stroke_m=1.0
+            ),
+        ),
+        sensors=(Sensor("F", "force", actuator="strut"),),
+        pairs=(Pair("iff", "strut", "F"),),
+        disturbances=(Disturbance("w", "m2", 1e-4),),
+        outputs=(Output("x2", "displacement", "m2"),),
+    )
+    design = Design(
+        law="iff",
+        plant_fingerprint=plant.fingerprint,
+        actuators=("strut",),
+        sensors=("F",),
+        target_modes=(1, 2),
+        loops=(
+            Loop(
+                "iff",
+                "strut",
+                "F",
+                g,
+                (Branch(gain=-g / ka, sections=(Section((1.0,), (1.0, 0.0)),)),),
+            ),
+        ),
+        pairs=("iff",),
+    )
+    a = assess(plant, design, delay_s=0.0, samples=0)
+    poles = np.concatenate([[m.closed_freq_hz for m in a.modes]])
+    expected = np.array([-0.020987 + 0.638446j, -0.016407 + 1.656364j])
+    np.testing.assert_allclose(poles, np.abs(expected) / (2 * np.pi), rtol=2e-6)
+    np.testing.assert_allclose(
+        [m.closed_damping for m in a.modes], -expected.real / np.abs(expected), atol=1e-6
+    )  # reference values are given to 6 decimals
+    assert a.controller_poles.size == 1
+    assert a.controller_poles[0] == pytest.approx(-0.625211, abs=2e-6)
+    effort = a.response.effort[0]
+    assert effort.quantity == "extension" and effort.within_limit is True
+    assert effort.strut_force_rms_n == pytest.approx(ka * effort.rms)
+    rms = a.response.outputs[0]
+    assert rms.closed_rms < rms.open_rms
+    assert rms.closed_rms_integral == pytest.approx(rms.closed_rms, rel=5e-3)
