@@ -211,3 +211,34 @@ def test_iff_strut_closed_loop_poles_preumont_example():
     rms = a.response.outputs[0]
     assert rms.closed_rms < rms.open_rms
     assert rms.closed_rms_integral == pytest.approx(rms.closed_rms, rel=5e-3)
+
+
+def test_balas_spillover_reported_by_assess_for_a_mimo_form_controller():
+    # Observer-based controller on mode 1 destabilizes the residual mode 2 (Balas, "Feedback
+    # control of flexible systems", IEEE TAC 1978; poles computed in REFERENCES §8): the
+    # assessment must call the loop unstable and flag mode 2 as spillover.
+    plant = ModalPlant(
+        modes=[Mode(1 / (2 * np.pi), 0.005), Mode(3 / (2 * np.pi), 0.005)],
+        sites={"a": [1.0, 1.0], "s": [1.0, -1.0]},
+        actuators=[Actuator("u", "force", site="a")],
+        sensors=[Sensor("y", "displacement", site="s")],
+        pairs=[Pair("uy", "u", "y")],
+    )
+    A1 = np.array([[0.0, 1.0], [-1.0, -0.01]])
+    B1, C1 = np.array([[0.0], [1.0]]), np.array([[1.0, 0.0]])
+    Kf, Lo = np.array([[1.00, 1.99]]), np.array([[3.99], [6.9601]])
+    design = Design(
+        law="lqg",
+        plant_fingerprint=plant.fingerprint,
+        actuators=("u",),
+        sensors=("y",),
+        target_modes=(1,),
+        controller=(A1 - B1 @ Kf - Lo @ C1, Lo, Kf, np.zeros((1, 1))),
+    )
+    a = assess(plant, design, delay_s=0.0, samples=0)
+    assert not a.stable and a.max_real == pytest.approx(0.35873, abs=2e-5)
+    (spill,) = a.robustness.spillover
+    assert spill.mode == 2 and spill.unstable and spill.lost_damping
+    p1 = -0.70583 + 0.86409j  # the pole that mode 1 becomes (REFERENCES §8)
+    assert a.modes[0].closed_damping == pytest.approx(-p1.real / abs(p1), abs=2e-5)
+    assert not a.all_met
