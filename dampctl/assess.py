@@ -28,6 +28,7 @@ import numpy as np
 
 from dampctl.closedloop import match_modes, modal_damping, open_loop_poles, plant_loop_delay_s
 from dampctl.errors import UsageError
+from dampctl.loopmodel import GainLocus, delay_sections, gain_locus, loop_controller, loop_poles
 from dampctl.margins import (
     DiskMargins,
     LoopMargins,
@@ -41,14 +42,9 @@ from dampctl.robustness import (
     BandwidthLimit,
     DelayLimit,
     DriftResult,
-    GainLocus,
     SpilloverMode,
-    delay_sections,
     drift_robustness,
     extra_delay_to_instability,
-    gain_locus,
-    loop_controller,
-    loop_poles,
     roll_off_limit,
     spillover,
 )

@@ -17,13 +17,9 @@ import numpy as np
 
 from dampctl.components import Actuator, Mode, Pair, Sensor
 from dampctl.design import Branch, Design, Loop
+from dampctl.loopmodel import loop_controller
 from dampctl.plant import ModalPlant
-from dampctl.robustness import (
-    drift_cases,
-    drift_robustness,
-    drifted_plant_matrices,
-    loop_controller,
-)
+from dampctl.robustness import drift_cases, drift_robustness, drifted_plant_matrices
 
 
 def main(n_modes: int = 40, n_pairs: int = 4, samples: int = 40) -> None:

@@ -8,6 +8,7 @@ import pytest
 
 from dampctl.components import Requirements
 from dampctl.design import Branch, Design, Loop, Section
+from dampctl.loopmodel import loop_controller, loop_poles
 from dampctl.margins import (
     common_delay_margin,
     default_grid,
@@ -17,7 +18,6 @@ from dampctl.margins import (
     loop_margins,
     siso_margins,
 )
-from dampctl.robustness import loop_controller, loop_poles
 from dampctl.testing import chain_plant, sdof_plant
 
 GRID = np.geomspace(1.0, 1e4, 4000)

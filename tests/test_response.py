@@ -8,6 +8,7 @@ import pytest
 from dampctl.closedloop import closed_loop_matrix
 from dampctl.components import Disturbance, Output
 from dampctl.design import Branch, Design, Loop, Section
+from dampctl.loopmodel import loop_controller
 from dampctl.response import (
     closed_loop_frf,
     closed_loop_statespace,
@@ -15,7 +16,6 @@ from dampctl.response import (
     integration_grid,
     random_response,
 )
-from dampctl.robustness import loop_controller
 from dampctl.testing import chain_plant, sdof_plant
 
 M, K, C = 2.0, 8e4, 8.0

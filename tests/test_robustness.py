@@ -7,6 +7,7 @@ import pytest
 
 from dampctl.components import Actuator, Mode, Pair, Sensor
 from dampctl.design import Branch, Design, Loop
+from dampctl.loopmodel import delay_sections, gain_locus, loop_controller, loop_poles
 from dampctl.margins import input_loops
 from dampctl.plant import ModalPlant
 from dampctl.robustness import (
@@ -14,9 +15,6 @@ from dampctl.robustness import (
     drift_cases,
     drift_robustness,
     drifted_plant_matrices,
-    gain_locus,
-    loop_controller,
-    loop_poles,
     roll_off_limit,
 )
 from dampctl.testing import chain_plant, sdof_plant
@@ -144,3 +142,12 @@ def test_gain_locus_starts_at_open_loop_and_passes_the_design():
     np.testing.assert_allclose(
         np.sort_complex(locus.poles[1]), np.sort_complex(loop_poles(plant, design, ctrl))
     )
+
+
+def test_delay_sections_keep_each_pade_section_within_one_radian():
+    # [2/2] Padé phase error at ωT = 1 is 1.3e-3 rad: −2 atan((x/2)/(1 − x²/12)) vs −x.
+    x = 1.0
+    assert abs(-2 * np.arctan((x / 2) / (1 - x**2 / 12)) + x) < 1.4e-3
+    assert delay_sections(0.0, 1e4) == 0
+    assert delay_sections(1e-4, 2.5e4) == 3
+    assert delay_sections(1.0, 1e6) == 12  # capped
