@@ -137,7 +137,21 @@ def loop_poles(plant, design, controller: Matrices) -> np.ndarray:
 
 
 def max_real_part(plant, design, controller: Matrices) -> float:
-    """Largest real part (1/s) of the closed-loop poles; see :func:`loop_poles`."""
+    """Largest real part (1/s) of the closed-loop poles.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant.
+    design : Design
+        Supplies the actuator and sensor names.
+    controller : tuple of ndarray
+        Effective controller, as for :func:`loop_poles`.
+
+    Returns
+    -------
+    float
+    """
     return float(np.max(loop_poles(plant, design, controller).real))
 
 
