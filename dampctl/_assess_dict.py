@@ -125,6 +125,7 @@ def assessment_dict(a) -> dict[str, Any]:
             "within_limit": e.within_limit,
             "strut_force_rms_n": _num(e.strut_force_rms_n),
             "force_limit_n": _num(e.force_limit_n),
+            "force_within_limit": e.force_within_limit,
         }
         for e in a.response.effort
     ]

@@ -354,6 +354,8 @@ class LoopEffort:
         structure, compared with ``max_force_n``.
     force_limit_n : float or None
         ``max_force_n`` of a strut.
+    force_within_limit : bool or None
+        For a strut with ``max_force_n``: PEAK_FACTOR × strut_force_rms_n ≤ max_force_n.
     """
 
     actuator: str
@@ -366,6 +368,7 @@ class LoopEffort:
     within_limit: bool | None
     strut_force_rms_n: float | None = None
     force_limit_n: float | None = None
+    force_within_limit: bool | None = None
 
 
 @dataclass(frozen=True)
@@ -515,6 +518,11 @@ def random_response(
                 within_limit=None if limit is None else bool(peak <= limit),
                 strut_force_rms_n=act.stiffness_n_per_m * rms if strut else None,
                 force_limit_n=act.max_force_n if strut else None,
+                force_within_limit=(
+                    bool(PEAK_FACTOR * act.stiffness_n_per_m * rms <= act.max_force_n)
+                    if strut and act.max_force_n is not None
+                    else None
+                ),
             )
         )
     return ResponseResult(

@@ -235,6 +235,14 @@ def _print_human(a, out: TextIO, *, plant_name: str) -> None:
             for e in d["effort"]
         ]
         out.write(table(["actuator", "quantity", "RMS", "3 x RMS", "limit", "within"], rows) + "\n")
+        for e in a.response.effort:
+            over = [e.quantity] if e.within_limit is False else []
+            over += ["force"] if e.force_within_limit is False else []
+            if over:
+                out.write(
+                    f"  WARNING: {e.actuator}: 3 x RMS exceeds its {' and '.join(over)} limit "
+                    "under the stated disturbances\n"
+                )
     out.write("\nrequirements:\n")
     for q in a.requirements:
         out.write(f"  [{'met' if q.met else 'NOT MET'}] {q.text}\n")

@@ -14,9 +14,11 @@ from dampctl.plantfile import dump_plant
 from dampctl.testing import sdof_plant
 
 
-def _files(tmp_path, *, max_rms=1e-4, gain=72.0, other_plant=False):
+def _files(tmp_path, *, max_rms=1e-4, gain=72.0, other_plant=False, max_force_n=None):
+    base = sdof_plant(2.0, 8e4, 8.0)
     plant = replace(
-        sdof_plant(2.0, 8e4, 8.0),
+        base,
+        actuators=(replace(base.actuators[0], max_force_n=max_force_n),),
         disturbances=(Disturbance("w", "x", 1e-2),),
         outputs=(Output("xo", "displacement", "x"), Output("vo", "velocity", "x")),
         requirements=Requirements(
@@ -105,3 +107,11 @@ def test_help_states_units_and_defaults(option, capsys):
     sub = parser._subparsers._group_actions[0].choices["assess"]
     action = next(a for a in sub._actions if option in a.option_strings)
     assert "default" in action.help
+
+
+def test_effort_over_the_force_limit_is_warned(tmp_path):
+    # σ_u = g σ_v = 72 · √(W₀/(4m(c+g))) = 0.285 N (Crandall & Mark 1963): 3σ > 0.5 N
+    plant_path, design_path = _files(tmp_path, max_force_n=0.5)
+    code, out, err = _run(plant_path, design_path, "--samples", "0")
+    assert code == 0, err
+    assert "WARNING: f: 3 x RMS exceeds its force limit" in out
