@@ -242,3 +242,13 @@ def test_balas_spillover_reported_by_assess_for_a_mimo_form_controller():
     p1 = -0.70583 + 0.86409j  # the pole that mode 1 becomes (REFERENCES §8)
     assert a.modes[0].closed_damping == pytest.approx(-p1.real / abs(p1), abs=2e-5)
     assert not a.all_met
+
+
+def test_disk_margin_of_an_unstable_mimo_loop_is_zero():
+    # python-control's disk_margins does not check stability (LIBRARY-NOTES); dampctl does.
+    plant = chain_plant([1.0, 0.5], [5e5, 2e5], damping=0.01)
+    stable = assess(plant, _dvf(plant, [100.0, 100.0], ["p1", "p2"]), delay_s=0.0, samples=0)
+    assert stable.stable and 0 < stable.disk.alpha <= min(stable.disk.loop_alpha) + 1e-9
+    bad = assess(plant, _dvf(plant, [-100.0, -100.0], ["p1", "p2"]), delay_s=0.0, samples=0)
+    assert not bad.stable and bad.disk.alpha == 0.0
+    assert bad.to_dict()["disk_margin"]["valid"] is False
