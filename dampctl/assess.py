@@ -363,7 +363,11 @@ def assess(
         modes=rows,
         controller_poles=matched.other_poles,
         loops=margins,
-        pairs=tuple(design.pairs) or tuple(design.actuators),
+        pairs=(
+            tuple(design.pairs)
+            if len(design.pairs) == len(design.actuators)
+            else tuple(design.actuators)
+        ),
         disk=disk,
         robustness=robust,
         response=response,
