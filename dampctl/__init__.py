@@ -12,10 +12,15 @@ Design
     Design, Loop, Branch, Section, load_design
         a damping design (``u = −K(s) y``) and its file form
 
+Assessment
+    assess, Assessment
+        closed-loop modes, margins, robustness, RMS response, effort, requirements
+
 Errors
     DampctlError and its subclasses (see :mod:`dampctl.errors`)
 """
 
+from dampctl.assess import Assessment, assess
 from dampctl.design import Branch, Design, Loop, Section, load_design
 from dampctl.errors import (
     DampctlError,
@@ -44,6 +49,7 @@ __version__ = "0.1.0"
 
 __all__ = [
     "Actuator",
+    "Assessment",
     "Branch",
     "DampctlError",
     "Design",
@@ -63,6 +69,7 @@ __all__ = [
     "Section",
     "Sensor",
     "UsageError",
+    "assess",
     "dump_plant",
     "load_design",
     "load_plant",

@@ -22,6 +22,16 @@ Definitions (negative feedback, instability where L = −1):
 * **delay margin** (s): min over gain crossovers of lag_k / ω_k (Åström & Murray, *Feedback
   Systems*, 2008, frequency-domain robustness; a single-crossover loop gives PM/ω_c).
 
+Disk margins (symmetric, skew 0; P. Seiler, A. Packard, P. Gahinet, "An introduction to disk
+margins", IEEE Control Systems Magazine 40(5), 2020): a loop tolerates every simultaneous gain
+and phase change f = (1 + δ/2)/(1 − δ/2), |δ| < α, with α = 1/max_ω |(S − T)/2|, i.e.
+α = min_ω 2|1 + L|/|1 − L| for a SISO loop; α gives the gain range
+[(2 − α)/(2 + α), (2 + α)/(2 − α)] and a phase range ±2 atan(α/2). For several loops changing
+at once we report the bound α ≥ 1/max_ω σ̄(S − I/2) at the plant input (σ̄ ≥ μ, so this is a
+conservative lower bound of the true multi-loop disk margin). Neither checks closed-loop
+stability: a disk margin means something only for a stable nominal loop, which the caller
+must check on the poles.
+
 Crossovers are bracketed on a dense grid that contains every natural frequency and then
 refined by root finding on the exact response, so the reported delay margin puts the loop at
 −180° to root-finder precision.
@@ -37,7 +47,19 @@ from scipy.optimize import brentq
 
 from dampctl.closedloop import plant_loop_delay_s
 
-__all__ = ["LoopMargins", "default_grid", "input_loops", "loop_margins", "siso_margins"]
+__all__ = [
+    "CommonDelayMargin",
+    "DiskMargins",
+    "LoopMargins",
+    "common_delay_margin",
+    "default_grid",
+    "disk_margin_from_alpha",
+    "disk_margins",
+    "input_loops",
+    "input_return_ratio",
+    "loop_margins",
+    "siso_margins",
+]
 
 
 @dataclass(frozen=True)
@@ -91,9 +113,11 @@ def default_grid(plant, design=None, *, points: int = 4000) -> np.ndarray:
     Returns
     -------
     ndarray
-        Sorted, unique frequencies (Hz), > 0.
+        Sorted, unique frequencies (Hz), > 0. Around an undamped pole (ζ = 0) the grid leaves
+        out the pole's own frequency, where the response is infinite.
     """
     freqs = list(plant.freqs_hz)
+    undamped = list(plant.dampings == 0.0)
     zetas = list(np.maximum(plant.dampings, 1e-4))
     if design is not None:
         A = design.statespace_matrices()[0]
@@ -103,13 +127,59 @@ def default_grid(plant, design=None, *, points: int = 4000) -> np.ndarray:
                 if abs(p) > 0:
                     freqs.append(abs(p) / (2 * np.pi))
                     zetas.append(max(min(-p.real / abs(p), 1.0), 1e-4))
+                    undamped.append(abs(p.real) <= 1e-12 * abs(p))
     f_lo, f_hi = min(freqs) / 100.0, max(freqs) * 100.0
     parts = [np.geomspace(f_lo, f_hi, points)]
     offsets = np.linspace(-8.0, 8.0, 81)
-    for f, z in zip(freqs, zetas, strict=True):
-        parts.append(f * np.exp(z * offsets))
+    for f, z, bare in zip(freqs, zetas, undamped, strict=True):
+        parts.append(f * np.exp(z * (offsets[offsets != 0.0] if bare else offsets)))
     grid = np.unique(np.concatenate(parts))
-    return grid[grid > 0]
+    grid = grid[grid > 0]
+    for f, bare in zip(freqs, undamped, strict=True):
+        if bare:
+            grid = grid[np.abs(grid / f - 1.0) > 1e-9]
+    return grid
+
+
+def input_return_ratio(
+    plant, design, freq_hz: np.ndarray, *, delay_s: float | None = None, roll_off: bool = True
+) -> np.ndarray:
+    """Input return ratio M(jω) = e^{−jωT} K(jω) R G(jω) (actuators × actuators).
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant.
+    design : Design
+        The controller (u = −K y).
+    freq_hz : array_like
+        Frequencies (Hz).
+    delay_s : float, optional
+        Loop delay (s), exact; default the plant's stated delay.
+    roll_off : bool, optional
+        Include the actuator and sensor roll-offs stated in the plant file.
+
+    Returns
+    -------
+    ndarray of complex, shape (n_freq, n_act, n_act)
+    """
+    freq = np.asarray(freq_hz, dtype=float).ravel()
+    delay = plant_loop_delay_s(plant) if delay_s is None else float(delay_s)
+    G = plant.frf(freq, design.actuators, design.sensors)  # (n_s, n_a, f)
+    K = design.response(freq)  # (n_a, n_s, f)
+    s = 2j * np.pi * freq
+    if roll_off:
+        for a, name in enumerate(design.actuators):
+            bw = plant.actuator(name).bandwidth_hz
+            if bw:
+                G[:, a, :] /= 1.0 + s / (2 * np.pi * bw)
+        for k, name in enumerate(design.sensors):
+            sensor = next((x for x in plant.sensors if x.name == name), None)
+            if sensor is not None and sensor.bandwidth_hz:
+                G[k, :, :] /= 1.0 + s / (2 * np.pi * sensor.bandwidth_hz)
+    if delay > 0:
+        K = K * np.exp(-s * delay)[None, None, :]
+    return np.einsum("asf,sbf->fab", K, G)
 
 
 def input_loops(
@@ -136,23 +206,7 @@ def input_loops(
     ndarray of complex, shape (n_loops, n_freq)
         L_k for each actuator of the design.
     """
-    freq = np.asarray(freq_hz, dtype=float).ravel()
-    delay = plant_loop_delay_s(plant) if delay_s is None else float(delay_s)
-    G = plant.frf(freq, design.actuators, design.sensors)  # (n_s, n_a, f)
-    K = design.response(freq)  # (n_a, n_s, f)
-    s = 2j * np.pi * freq
-    if roll_off:
-        for a, name in enumerate(design.actuators):
-            bw = plant.actuator(name).bandwidth_hz
-            if bw:
-                G[:, a, :] /= 1.0 + s / (2 * np.pi * bw)
-        for k, name in enumerate(design.sensors):
-            sensor = next((x for x in plant.sensors if x.name == name), None)
-            if sensor is not None and sensor.bandwidth_hz:
-                G[k, :, :] /= 1.0 + s / (2 * np.pi * sensor.bandwidth_hz)
-    if delay > 0:
-        K = K * np.exp(-s * delay)[None, None, :]
-    M = np.einsum("asf,sbf->fab", K, G)
+    M = input_return_ratio(plant, design, freq_hz, delay_s=delay_s, roll_off=roll_off)
     n = M.shape[1]
     if n == 1:
         return M[:, 0, 0][None, :]
@@ -258,6 +312,181 @@ def loop_margins(
 
         out.append(siso_margins(loop, grid, name=name))
     return tuple(out)
+
+
+@dataclass(frozen=True)
+class DiskMargins:
+    """Symmetric (skew 0) disk margins, from exact frequency responses.
+
+    Attributes
+    ----------
+    loop_alpha : tuple of float
+        Disk margin α of each loop broken at the plant input with the others closed.
+    loop_gain_margin_db, loop_phase_margin_deg : tuple of float
+        The gain (dB, upper end of the symmetric range) and phase (deg) ranges each α gives.
+    alpha : float
+        Lower bound of the multi-loop disk margin, 1/max σ̄(S − I/2) (all loops at once).
+    gain_margin_db, phase_margin_deg : float
+        Gain (dB) and phase (deg) ranges of that bound.
+    frequency_hz : float
+        Where the bound is set (Hz).
+    bound : str
+        Which bound was used (text for reports).
+    """
+
+    loop_alpha: tuple[float, ...]
+    loop_gain_margin_db: tuple[float, ...]
+    loop_phase_margin_deg: tuple[float, ...]
+    alpha: float
+    gain_margin_db: float
+    phase_margin_deg: float
+    frequency_hz: float
+    bound: str = "sigma_max(S - I/2) at the plant input (lower bound of the mu-based margin)"
+
+
+def disk_margin_from_alpha(alpha: float) -> tuple[float, float]:
+    """Gain (dB) and phase (deg) margins of a symmetric disk margin α.
+
+    Parameters
+    ----------
+    alpha : float
+        Disk size (≥ 0).
+
+    Returns
+    -------
+    tuple of float
+        (gain margin dB = 20 log10((2 + α)/(2 − α)), inf for α ≥ 2; phase margin deg =
+        2 atan(α/2)).
+    """
+    gm = np.inf if alpha >= 2 else 20 * np.log10((2 + alpha) / (2 - alpha))
+    return float(gm), float(np.degrees(2 * np.arctan(alpha / 2)))
+
+
+def disk_margins(
+    plant,
+    design,
+    *,
+    delay_s: float | None = None,
+    roll_off: bool = True,
+    freq_hz: np.ndarray | None = None,
+) -> DiskMargins:
+    """Loop-at-a-time and simultaneous symmetric disk margins at the plant input.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant.
+    design : Design
+        The design.
+    delay_s : float, optional
+        Loop delay (s), exact; default the plant's stated delay.
+    roll_off : bool, optional
+        Include the stated roll-offs.
+    freq_hz : array_like, optional
+        Grid (Hz); default :func:`default_grid`.
+
+    Returns
+    -------
+    DiskMargins
+        Stability of the nominal loop is *not* checked here.
+    """
+    grid = default_grid(plant, design) if freq_hz is None else np.asarray(freq_hz, float)
+    M = input_return_ratio(plant, design, grid, delay_s=delay_s, roll_off=roll_off)
+    n = M.shape[1]
+    S = np.linalg.inv(np.eye(n)[None] + M)
+    L = input_loops(plant, design, grid, delay_s=delay_s, roll_off=roll_off)
+    loop_alpha = tuple(float(np.min(2 * np.abs(1 + x) / np.abs(1 - x))) for x in L)
+    sig = np.linalg.svd(S - 0.5 * np.eye(n)[None], compute_uv=False)[:, 0]
+    k = int(np.argmax(sig))
+    alpha = float(1.0 / sig[k])
+    loop_pairs = [disk_margin_from_alpha(a) for a in loop_alpha]
+    gm, pm = disk_margin_from_alpha(alpha)
+    return DiskMargins(
+        loop_alpha=loop_alpha,
+        loop_gain_margin_db=tuple(p[0] for p in loop_pairs),
+        loop_phase_margin_deg=tuple(p[1] for p in loop_pairs),
+        alpha=alpha,
+        gain_margin_db=gm,
+        phase_margin_deg=pm,
+        frequency_hz=float(grid[k]),
+    )
+
+
+@dataclass(frozen=True)
+class CommonDelayMargin:
+    """Extra delay, the same on every channel, that destabilizes the loop.
+
+    Attributes
+    ----------
+    delay_s : float
+        The smallest such delay (s); inf when no eigenvalue of M reaches unit magnitude.
+    freq_hz : float or None
+        Frequency (Hz) where the loop then goes unstable.
+    crossovers_hz : tuple of float
+        Every frequency (Hz) where an eigenvalue of M(jω) has unit magnitude.
+    """
+
+    delay_s: float
+    freq_hz: float | None
+    crossovers_hz: tuple[float, ...]
+
+
+def common_delay_margin(
+    plant,
+    design,
+    *,
+    delay_s: float | None = None,
+    roll_off: bool = True,
+    freq_hz: np.ndarray | None = None,
+) -> float:
+    """Smallest extra delay (s), the same on every channel, that destabilizes the loop.
+
+    With the input return ratio M(jω), an extra common delay τ puts a closed-loop pole at jω
+    when det(I + e^{−jωτ} M(jω)) = 0, i.e. when an eigenvalue λ of M has |λ| = 1 and
+    τ = ((arg λ + π) mod 2π)/ω (characteristic loci). The crossings of |λ| = 1 are bracketed on
+    the grid with the magnitudes sorted (continuous even where eigenvalues cross) and refined by
+    root finding. For one loop this is the delay margin of :func:`siso_margins`. The nominal
+    loop is assumed stable (check it on the poles).
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant.
+    design : Design
+        The design.
+    delay_s : float, optional
+        Nominal loop delay (s), exact; default the plant's stated delay.
+    roll_off : bool, optional
+        Include the stated roll-offs.
+    freq_hz : array_like, optional
+        Grid (Hz); default :func:`default_grid`.
+
+    Returns
+    -------
+    CommonDelayMargin
+    """
+    grid = default_grid(plant, design) if freq_hz is None else np.asarray(freq_hz, float)
+
+    def eigs(f):
+        M = input_return_ratio(plant, design, np.atleast_1d(f), delay_s=delay_s, roll_off=roll_off)
+        return np.linalg.eigvals(M)
+
+    lam = eigs(grid)
+    mags = np.log(np.sort(np.abs(lam), axis=1))
+    best, where, found = np.inf, None, []
+    for k in range(mags.shape[1]):
+        values = mags[:, k]
+        for j in np.flatnonzero(np.sign(values[:-1]) * np.sign(values[1:]) < 0):
+            f = _refine(
+                lambda x, k=k: float(np.log(np.sort(np.abs(eigs(x)[0]))[k])), grid, values, j
+            )
+            at = eigs(f)[0]
+            pick = at[np.argmin(np.abs(np.log(np.abs(at))))]
+            lag = np.mod(np.angle(pick) + np.pi, 2 * np.pi)
+            found.append(float(f))
+            if lag / (2 * np.pi * f) < best:
+                best, where = float(lag / (2 * np.pi * f)), float(f)
+    return CommonDelayMargin(delay_s=best, freq_hz=where, crossovers_hz=tuple(sorted(found)))
 
 
 def _refine(fn: Callable[[float], float], grid: np.ndarray, values: np.ndarray, k: int) -> float:

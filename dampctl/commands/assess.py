@@ -1,0 +1,259 @@
+"""``dampctl assess PLANT DESIGN``: closed-loop damping, margins, robustness, RMS and effort."""
+
+from __future__ import annotations
+
+import argparse
+import math
+from typing import TextIO
+
+from dampctl.assess import PHASE_MARGIN_CONVENTION, assess
+from dampctl.commands._common import SAFETY_LINES, print_json, table
+from dampctl.design import load_design
+from dampctl.errors import UsageError
+from dampctl.plantfile import load_plant
+from dampctl.progress import Progress
+
+NAME = "assess"
+HELP = "assess a design on its plant: damping, margins, robustness, RMS response and effort"
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    """Options of ``dampctl assess``."""
+    parser.add_argument("plant", help="plant file (TOML)")
+    parser.add_argument("design", help="design file (JSON) written by dampctl tune")
+    parser.add_argument(
+        "--delay-s",
+        type=float,
+        default=None,
+        metavar="T",
+        help="loop delay in s (default: the plant's loop_delay_s plus a ZOH and one sample at "
+        "its sample_rate_hz)",
+    )
+    parser.add_argument(
+        "--drift",
+        type=float,
+        default=0.05,
+        metavar="FRACTION",
+        help="largest relative shift of each natural frequency in the drift check "
+        "(default 0.05 = ±5 %%)",
+    )
+    parser.add_argument(
+        "--samples",
+        type=int,
+        default=64,
+        metavar="N",
+        help="random drift cases besides the corners (count, default 64)",
+    )
+    parser.add_argument(
+        "--seed", type=int, default=0, help="seed of the random drift cases (default 0)"
+    )
+    parser.add_argument(
+        "--ideal-hardware",
+        action="store_true",
+        help="leave out the actuator and sensor roll-offs of the plant file (default: included)",
+    )
+    parser.add_argument(
+        "--plots", metavar="DIR", default=None, help="write PNG figures into DIR (default: none)"
+    )
+    parser.add_argument(
+        "--force", action="store_true", help="replace existing figures in DIR (default: refuse)"
+    )
+    parser.add_argument("--json", action="store_true", help="print JSON on stdout")
+
+
+def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    """Run ``dampctl assess``; exit 0 all requirements met, 1 one is not."""
+    if not math.isfinite(args.drift) or not 0.0 <= args.drift < 1.0:
+        raise UsageError(f"--drift: expected a fraction in [0, 1), got {args.drift}")
+    if args.delay_s is not None and (not math.isfinite(args.delay_s) or args.delay_s < 0):
+        raise UsageError(f"--delay-s: expected a delay >= 0 s, got {args.delay_s}")
+    if args.samples < 0:
+        raise UsageError(f"--samples: expected a count >= 0, got {args.samples}")
+    plant = load_plant(args.plant)
+    design = load_design(args.design)
+    design.check_plant(plant, source=args.design)
+    with Progress(8, "assessing", stream=err) as progress:
+        result = assess(
+            plant,
+            design,
+            delay_s=args.delay_s,
+            drift=args.drift,
+            samples=args.samples,
+            seed=args.seed,
+            roll_off=not args.ideal_hardware,
+            progress=progress,
+        )
+    written = []
+    if args.plots:
+        from dampctl.figures import write_assessment_pngs
+
+        written = write_assessment_pngs(
+            result, args.plots, inputs=(args.plant, args.design), replace=args.force
+        )
+    if args.json:
+        payload = result.to_dict()
+        payload["plots"] = [str(p) for p in written]
+        payload["safety"] = list(SAFETY_LINES)
+        print_json(payload, out)
+    else:
+        _print_human(result, out, plant_name=plant.title or args.plant)
+        for path in written:
+            out.write(f"wrote {path}\n")
+    if not result.all_met:
+        err.write(
+            "dampctl assess: requirements not met: "
+            + "; ".join(r.text for r in result.unmet)
+            + "\n"
+        )
+        return 1
+    return 0
+
+
+def _print_human(a, out: TextIO, *, plant_name: str) -> None:
+    d = a.to_dict()
+    out.write(
+        f"{plant_name}: {a.law} design, {len(a.loops)} loop(s); "
+        f"{'STABLE' if a.stable else 'UNSTABLE'} (largest real part {a.max_real:.4g} 1/s)\n"
+    )
+    out.write(
+        f"loop delay {a.delay_s * 1e6:.4g} us: exact in frequency responses, "
+        f"{a.pade_sections} Pade [2/2] section(s) for poles; roll-offs "
+        f"{'included' if a.roll_off else 'left out'}\n\n"
+    )
+    rows = [
+        (
+            m.mode,
+            m.open_freq_hz,
+            m.open_damping,
+            m.closed_freq_hz,
+            m.closed_damping,
+            m.peak_reduction_db,
+            "*" if m.mode in a.target_modes else "",
+        )
+        for m in a.modes
+    ]
+    headers = [
+        "mode",
+        "open (Hz)",
+        "open damping",
+        "closed (Hz)",
+        "closed damping",
+        "peak reduction (dB)",
+        "target",
+    ]
+    out.write(table(headers, rows) + "\n")
+    out.write(f"(peak reduction: worst over outputs {', '.join(a.curves.frf_outputs)})\n")
+    if len(a.controller_poles):
+        out.write("\ncontroller, roll-off and delay (Pade) poles:\n")
+        rows = [(p["freq_hz"], p["damping"]) for p in d["controller_poles"]]
+        out.write(table(["freq (Hz)", "damping"], rows) + "\n")
+    out.write("\nmargins (each loop broken at the plant input, the others closed):\n")
+    rows = [
+        (
+            lp["pair"],
+            lp["gain_margin_db"],
+            lp["phase_margin_deg"],
+            None if lp["delay_margin_s"] is None else lp["delay_margin_s"] * 1e3,
+            lp["crossover_hz"],
+        )
+        for lp in d["loops"]
+    ]
+    out.write(table(["loop", "GM (dB)", "PM (deg)", "DM (ms)", "crossover (Hz)"], rows) + "\n")
+    out.write(f"({PHASE_MARGIN_CONVENTION})\n")
+    if a.disk is not None:
+        out.write(
+            f"disk margin, all loops at once: alpha {a.disk.alpha:.3g} -> "
+            f"+-{a.disk.gain_margin_db:.3g} dB, +-{a.disk.phase_margin_deg:.3g} deg "
+            f"({a.disk.bound})\n"
+        )
+    r = a.robustness
+    out.write("\nrobustness:\n")
+    worst = ", ".join(f"mode {m} {v:.3g}" for m, v in r.drift.worst_damping.items())
+    out.write(
+        f"  drift +-{r.drift.drift:.3g}: {r.drift.n_cases} cases ({r.drift.n_corners} corners), "
+        f"{r.drift.unstable_cases} unstable; worst damping {worst}\n"
+    )
+    out.write(
+        f"  extra delay to instability: {_ms(r.delay.extra_delay_s)} "
+        f"({'confirmed by the poles' if r.delay.confirmed else 'from the poles'})\n"
+    )
+    for b in (r.actuator_bandwidth, r.sensor_bandwidth):
+        if b.min_stable_hz is None:
+            text = f"stable for any corner down to {b.searched_down_to_hz:.3g} Hz"
+        elif math.isinf(b.min_stable_hz):
+            text = "unstable even with ideal hardware"
+        else:
+            text = f"stable for corners above {b.min_stable_hz:.4g} Hz"
+        out.write(f"  {b.which} first-order roll-off: {text}\n")
+    if r.spillover:
+        bad = [s for s in r.spillover if s.lost_damping or s.unstable]
+        out.write(
+            f"  spillover: {len(r.spillover)} mode(s) above the design band, "
+            f"{len(bad)} losing damping"
+            + (
+                "".join(
+                    f"; mode {s.mode} {s.open_damping:.3g} -> {s.closed_damping:.3g}" for s in bad
+                )
+            )
+            + "\n"
+        )
+    if d["rms"]:
+        out.write("\nRMS under the plant's disturbances and sensor noise:\n")
+        rows = [
+            (
+                o["output"],
+                o["unit"],
+                o["open_rms"],
+                o["closed_rms"],
+                o["noise_rms"],
+                o["reduction_db"],
+                (o.get("vc_closed") or {}).get("curve", ""),
+            )
+            for o in d["rms"]
+        ]
+        headers = [
+            "output",
+            "unit",
+            "open RMS",
+            "closed RMS",
+            "noise part",
+            "reduction (dB)",
+            "VC met",
+        ]
+        out.write(table(headers, rows) + "\n")
+    if d["effort"]:
+        out.write("\nactuator effort:\n")
+        rows = [
+            (
+                e["actuator"],
+                f"{e['quantity']} ({e['unit']})",
+                e["rms"],
+                e["peak_estimate"],
+                e["limit"],
+                e["within_limit"],
+            )
+            for e in d["effort"]
+        ]
+        out.write(table(["actuator", "quantity", "RMS", "3 x RMS", "limit", "within"], rows) + "\n")
+        for e in a.response.effort:
+            over = [e.quantity] if e.within_limit is False else []
+            over += ["force"] if e.force_within_limit is False else []
+            if over:
+                out.write(
+                    f"  WARNING: {e.actuator}: 3 x RMS exceeds its {' and '.join(over)} limit "
+                    "under the stated disturbances\n"
+                )
+    out.write("\nrequirements:\n")
+    for q in a.requirements:
+        out.write(f"  [{'met' if q.met else 'NOT MET'}] {q.text}\n")
+    out.write("\n" + "\n".join(SAFETY_LINES) + "\n")
+
+
+def _vc_text(item: dict) -> str:
+    if "vc_closed" not in item:
+        return ""
+    return item["vc_closed"]["curve"] or "above Workshop"
+
+
+def _ms(seconds: float) -> str:
+    return "none found" if math.isinf(seconds) else f"{seconds * 1e3:.4g} ms"
