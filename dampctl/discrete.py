@@ -39,7 +39,19 @@ import scipy.signal
 
 from dampctl.closedloop import series_matrices
 from dampctl.design import Branch, Design, Section
+from dampctl.discrete_mimo import PREWARP_LIMIT, DiscretePath, _discrete_mimo, paths_matrices
 from dampctl.errors import UsageError
+from dampctl.sections import (
+    Cascade,
+    ParallelForm,
+    _bilinear,
+    _block_diagonal,
+    _empty,
+    _parallel_matrices,
+    _readonly,
+    _zoh,
+    sos_response,
+)
 
 __all__ = [
     "Cascade",
@@ -54,134 +66,6 @@ __all__ = [
 
 Matrices = tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]
 METHODS = ("tustin", "zoh")
-#: sections whose centre frequency is at or above this fraction of f_s are not prewarped
-PREWARP_LIMIT = 0.45
-#: largest eigenvector condition number accepted for a modal realisation of a MIMO controller
-MODAL_COND_LIMIT = 1e8
-
-
-def _readonly(array) -> np.ndarray:
-    out = np.array(array, dtype=float, copy=True)
-    out.setflags(write=False)
-    return out
-
-
-def _empty(d) -> Matrices:
-    d = np.atleast_2d(np.asarray(d, dtype=float))
-    return np.zeros((0, 0)), np.zeros((0, d.shape[1])), np.zeros((d.shape[0], 0)), d
-
-
-def sos_response(sos: np.ndarray, freq_hz: np.ndarray, rate_hz: float) -> np.ndarray:
-    """Frequency response of a cascade of second-order sections.
-
-    Parameters
-    ----------
-    sos : ndarray, shape (n_sections, 6)
-        Rows (b0, b1, b2, 1, a1, a2).
-    freq_hz : array_like
-        Frequencies (Hz).
-    rate_hz : float
-        Sample rate (Hz).
-
-    Returns
-    -------
-    ndarray of complex
-        H(e^{j 2π f / f_s}) at each frequency.
-    """
-    z1 = np.exp(-2j * np.pi * np.asarray(freq_hz, dtype=float) / rate_hz)
-    out = np.ones(z1.shape, dtype=complex)
-    for b0, b1, b2, _a0, a1, a2 in np.asarray(sos, dtype=float):
-        out *= (b0 + b1 * z1 + b2 * z1**2) / (1.0 + a1 * z1 + a2 * z1**2)
-    return out
-
-
-def _sos_matrices(sos: np.ndarray, gain: float) -> Matrices:
-    """Discrete state space of ``gain · Π sections``, each in direct form II transposed."""
-    system = _empty([[gain]])
-    for b0, b1, b2, _a0, a1, a2 in np.asarray(sos, dtype=float):
-        A = np.array([[-a1, 1.0], [-a2, 0.0]])
-        B = np.array([[b1 - a1 * b0], [b2 - a2 * b0]])
-        C = np.array([[1.0, 0.0]])
-        system = series_matrices(system, (A, B, C, np.array([[b0]])))
-    return system
-
-
-def _parallel_matrices(parts: list[Matrices], feedthrough: float) -> Matrices:
-    A = scipy.linalg.block_diag(*[p[0] for p in parts]) if parts else np.zeros((0, 0))
-    A = np.asarray(A, dtype=float).reshape(sum(p[0].shape[0] for p in parts), -1)
-    B = np.vstack([p[1] for p in parts]) if parts else np.zeros((0, 1))
-    C = np.hstack([p[2] for p in parts]) if parts else np.zeros((1, 0))
-    D = np.array([[feedthrough]]) + sum((p[3] for p in parts), np.zeros((1, 1)))
-    return A, B, C, D
-
-
-@dataclass(frozen=True)
-class Cascade:
-    """``gain · Π_k (b0 + b1 z⁻¹ + b2 z⁻²)/(1 + a1 z⁻¹ + a2 z⁻²)``.
-
-    Parameters
-    ----------
-    sos : array_like, shape (n_sections, 6)
-        Rows (b0, b1, b2, a0 = 1, a1, a2); each numerator scaled so its largest |b| is 1
-        (the scale is in ``gain``).
-    gain : float
-        Overall gain (controller units: actuator unit per sensor unit).
-    label : str, optional
-        What the cascade is (a branch label, a path).
-    """
-
-    sos: np.ndarray
-    gain: float
-    label: str = ""
-
-    def __post_init__(self) -> None:
-        sos = np.array(self.sos, dtype=float).reshape(-1, 6)
-        if not np.all(np.isfinite(sos)) or not math.isfinite(float(self.gain)):
-            raise UsageError("second-order sections must be finite")
-        if sos.size and not np.allclose(sos[:, 3], 1.0):
-            raise UsageError("second-order sections must have a0 = 1")
-        object.__setattr__(self, "sos", _readonly(sos))
-        object.__setattr__(self, "gain", float(self.gain))
-
-    def response(self, freq_hz: np.ndarray, rate_hz: float) -> np.ndarray:
-        """H(e^{jωT}) at ``freq_hz`` (Hz) for sample rate ``rate_hz`` (Hz)."""
-        return self.gain * sos_response(self.sos, freq_hz, rate_hz)
-
-    def matrices(self) -> Matrices:
-        """Discrete state space (A, B, C, D), sections in direct form II transposed."""
-        return _sos_matrices(self.sos, self.gain)
-
-
-@dataclass(frozen=True)
-class ParallelForm:
-    """``feedthrough + Σ_b cascade_b``: one cascade per branch (or per modal block).
-
-    Parameters
-    ----------
-    feedthrough : float
-        Constant term.
-    branches : sequence of Cascade
-        The parallel terms.
-    """
-
-    feedthrough: float
-    branches: tuple[Cascade, ...]
-
-    def __post_init__(self) -> None:
-        object.__setattr__(self, "feedthrough", float(self.feedthrough))
-        object.__setattr__(self, "branches", tuple(self.branches))
-
-    def response(self, freq_hz: np.ndarray, rate_hz: float) -> np.ndarray:
-        """H(e^{jωT}) at ``freq_hz`` (Hz) for sample rate ``rate_hz`` (Hz)."""
-        freq_hz = np.asarray(freq_hz, dtype=float)
-        out = np.full(freq_hz.shape, self.feedthrough, dtype=complex)
-        for branch in self.branches:
-            out += branch.response(freq_hz, rate_hz)
-        return out
-
-    def matrices(self) -> Matrices:
-        """Discrete state space (A, B, C, D) of the sum."""
-        return _parallel_matrices([b.matrices() for b in self.branches], self.feedthrough)
 
 
 @dataclass(frozen=True)
@@ -231,23 +115,6 @@ class DiscreteLoop:
     def matrices(self) -> Matrices:
         """Discrete state space of the recommended form."""
         return self.cascade.matrices() if self.form == "cascade" else self.parallel.matrices()
-
-
-@dataclass(frozen=True)
-class DiscretePath:
-    """One actuator/sensor path of a MIMO controller as parallel biquads (modal realisation).
-
-    Attributes
-    ----------
-    actuator, sensor : str
-        Output and input of the path.
-    parallel : ParallelForm
-        ``D[a, s] + Σ_blocks biquad``.
-    """
-
-    actuator: str
-    sensor: str
-    parallel: ParallelForm
 
 
 @dataclass(frozen=True)
@@ -307,73 +174,7 @@ class DiscreteController:
         return tuple(np.array(m) for m in self.state_space)
 
 
-def paths_matrices(paths, actuators, sensors) -> Matrices:
-    """State space of a MIMO controller given as parallel forms per path.
-
-    Parameters
-    ----------
-    paths : sequence of DiscretePath
-        One per (actuator, sensor) path.
-    actuators, sensors : sequence of str
-        Output and input order.
-
-    Returns
-    -------
-    tuple of ndarray
-        (A, B, C, D), inputs = sensors, outputs = actuators.
-    """
-    n_out, n_in = len(actuators), len(sensors)
-    parts = []
-    D = np.zeros((n_out, n_in))
-    for path in paths:
-        o, j = list(actuators).index(path.actuator), list(sensors).index(path.sensor)
-        A, B, C, Dp = path.parallel.matrices()
-        Bf = np.zeros((A.shape[0], n_in))
-        Bf[:, j] = B[:, 0]
-        Cf = np.zeros((n_out, A.shape[0]))
-        Cf[o, :] = C[0, :]
-        D[o, j] += Dp[0, 0]
-        parts.append((A, Bf, Cf))
-    A = np.asarray(scipy.linalg.block_diag(*[p[0] for p in parts]), dtype=float)
-    A = A.reshape(sum(p[0].shape[0] for p in parts), -1)
-    B = np.vstack([p[1] for p in parts])
-    C = np.hstack([p[2] for p in parts])
-    return A, B, C, D
-
-
-def _block_diagonal(systems) -> Matrices:
-    out = []
-    for k in range(4):
-        mats = [np.atleast_2d(s[k]) for s in systems]
-        rows, cols = sum(m.shape[0] for m in mats), sum(m.shape[1] for m in mats)
-        full = np.zeros((rows, cols))
-        r = c = 0
-        for m in mats:
-            full[r : r + m.shape[0], c : c + m.shape[1]] = m
-            r, c = r + m.shape[0], c + m.shape[1]
-        out.append(full)
-    return tuple(out)
-
-
 # ---------------------------------------------------------------------- methods
-def _bilinear(mats: Matrices, sample_time_s: float, prewarp_rad_s: float | None) -> Matrices:
-    """Tustin equivalent, s ← c (z−1)/(z+1), c = ω_p / tan(ω_p T/2) (2/T without prewarp)."""
-    A, B, C, D = (np.asarray(m, dtype=float) for m in mats)
-    if A.shape[0] == 0:
-        return A, B, C, D
-    dt = sample_time_s
-    if prewarp_rad_s:
-        dt = 2.0 * math.tan(prewarp_rad_s * sample_time_s / 2.0) / prewarp_rad_s
-    Ad, Bd, Cd, Dd, _ = scipy.signal.cont2discrete((A, B, C, D), dt, method="bilinear")
-    return Ad, Bd, Cd, Dd
-
-
-def _zoh(mats: Matrices, sample_time_s: float) -> Matrices:
-    A, B, C, D = (np.asarray(m, dtype=float) for m in mats)
-    if A.shape[0] == 0:
-        return A, B, C, D
-    Ad, Bd, Cd, Dd, _ = scipy.signal.cont2discrete((A, B, C, D), sample_time_s, method="zoh")
-    return Ad, Bd, Cd, Dd
 
 
 def _section_matrices(section: Section) -> Matrices:
@@ -515,33 +316,6 @@ def _cascade_from_ss(mats: Matrices, T: float, label: str = "") -> Cascade:
     return Cascade(sos, gain, label)
 
 
-def _normalized(sos: np.ndarray, gain: float, label: str) -> Cascade:
-    sos = np.array(sos, dtype=float).reshape(-1, 6)
-    for row in sos:
-        row[:3] /= row[3]
-        row[4:] /= row[3]
-        row[3] = 1.0
-        scale = float(np.max(np.abs(row[:3])))
-        if scale > 0:
-            row[:3] /= scale
-            gain *= scale
-    return Cascade(sos, gain, label)
-
-
-def _biquad_of_block(Ad: np.ndarray, bd: np.ndarray, cd: np.ndarray, label: str) -> Cascade:
-    """Biquad of a 1- or 2-state SISO block with no feedthrough (strictly proper)."""
-    n = Ad.shape[0]
-    if n == 1:
-        row = [0.0, cd[0] * bd[0], 0.0, 1.0, -Ad[0, 0], 0.0]
-    else:
-        a1, a2 = -np.trace(Ad), np.linalg.det(Ad)
-        # c (zI − A)⁻¹ b = (c b z + c adj(−A) b)/(z² + a1 z + a2), adj(zI − A) = zI − A + tr(A) I
-        b1 = float(cd @ bd)
-        b2 = float(cd @ ((np.trace(Ad) * np.eye(2) - Ad) @ bd)) * -1.0
-        row = [0.0, b1, b2, 1.0, a1, a2]
-    return _normalized(np.array([row]), 1.0, label)
-
-
 def _grid_error(form_response, ss: Matrices, T: float) -> float:
     freq = np.linspace(0.001, 0.499, 400) / T
     ref = _ss_response(ss, np.exp(2j * np.pi * freq * T))
@@ -616,7 +390,9 @@ def discretize(
 def _check_prewarp(prewarp, method: str, rate_hz: float):
     if isinstance(prewarp, str):
         if prewarp not in ("auto", "none"):
-            raise UsageError(f"prewarp must be 'auto', 'none' or a frequency in Hz, got {prewarp!r}")
+            raise UsageError(
+                f"prewarp must be 'auto', 'none' or a frequency in Hz, got {prewarp!r}"
+            )
         return "none" if method == "zoh" else prewarp
     value = float(prewarp)
     if method == "zoh":
@@ -656,81 +432,3 @@ def _discrete_loop(loop, method: str, T: float, prewarp, notes: list[str]) -> Di
         parallel_error=parallel_error,
         form=form,
     )
-
-
-def _modal_blocks(A: np.ndarray):
-    """Real block-diagonalizing basis T (A T = T Λ) and the state slices of its blocks."""
-    lam, V = np.linalg.eig(A)
-    order = np.argsort(np.abs(lam))
-    lam, V = lam[order], V[:, order]
-    columns, blocks, used = [], [], np.zeros(lam.size, bool)
-    scale = max(1.0, float(np.max(np.abs(lam)))) if lam.size else 1.0
-    for k in range(lam.size):
-        if used[k]:
-            continue
-        used[k] = True
-        start = len(columns)
-        if abs(lam[k].imag) <= 1e-12 * scale:
-            columns.append(V[:, k].real / np.linalg.norm(V[:, k].real))
-            blocks.append(slice(start, start + 1))
-            continue
-        partner = next(
-            (j for j in range(lam.size) if not used[j] and abs(lam[j] - lam[k].conj()) < 1e-8 * scale),
-            None,
-        )
-        if partner is None:
-            return None
-        used[partner] = True
-        v = V[:, k] if lam[k].imag > 0 else V[:, partner]
-        columns += [v.real, v.imag]
-        blocks.append(slice(start, start + 2))
-    Tm = np.column_stack(columns) if columns else np.zeros((0, 0))
-    if Tm.size and (not np.isfinite(np.linalg.cond(Tm)) or np.linalg.cond(Tm) > MODAL_COND_LIMIT):
-        return None
-    return Tm, blocks
-
-
-def _discrete_mimo(design: Design, method: str, T: float, prewarp, notes: list[str]):
-    A, B, C, D = design.statespace_matrices()
-    modal = _modal_blocks(A) if A.shape[0] else (np.zeros((0, 0)), [])
-    if modal is None:
-        if method == "tustin" and prewarp == "auto":
-            notes.append("MIMO controller has no well-conditioned modal form: plain Tustin used")
-            prewarp = "none"
-        w = None if prewarp in ("auto", "none") else 2.0 * math.pi * float(prewarp)
-        ss = _bilinear((A, B, C, D), T, w) if method == "tustin" else _zoh((A, B, C, D), T)
-        notes.append("no modal realisation: export the discrete state space only")
-        return ss, ()
-    Tm, blocks = modal
-    Tinv = np.linalg.inv(Tm) if Tm.size else Tm
-    Am, Bm, Cm = Tinv @ A @ Tm, Tinv @ B, C @ Tm
-    parts = []
-    for sl in blocks:
-        sub = (Am[sl, sl], Bm[sl, :], Cm[:, sl], np.zeros(D.shape))
-        if method == "zoh":
-            parts.append(_zoh(sub, T))
-            continue
-        w = None
-        if prewarp == "auto":
-            w = float(np.max(np.abs(np.linalg.eigvals(sub[0])))) or None
-        elif prewarp != "none":
-            w = 2.0 * math.pi * float(prewarp)
-        if w is not None and w * T / (2.0 * math.pi) >= PREWARP_LIMIT:
-            notes.append(f"modal block at {w / (2 * math.pi):.6g} Hz not prewarped (near Nyquist)")
-            w = None
-        parts.append(_bilinear(sub, T, w))
-    Ad = _block_diagonal([(p[0], p[1], p[2], p[3]) for p in parts])[0]
-    Bd = np.vstack([p[1] for p in parts]) if parts else np.zeros((0, D.shape[1]))
-    Cd = np.hstack([p[2] for p in parts]) if parts else np.zeros((D.shape[0], 0))
-    Dd = D + sum((p[3] for p in parts), np.zeros(D.shape))
-    paths = []
-    for o, act in enumerate(design.actuators):
-        for j, sen in enumerate(design.sensors):
-            terms = []
-            for b, sl in enumerate(blocks):
-                # strictly proper part of the block; its feedthrough is in Dd
-                p = parts[b]
-                terms.append(_biquad_of_block(p[0], p[1][:, j], p[2][o, :], f"block {b + 1}"))
-            paths.append(DiscretePath(act, sen, ParallelForm(float(Dd[o, j]), tuple(terms))))
-    notes.append("MIMO state space is in the controller's modal coordinates (real 2×2 blocks)")
-    return (Ad, Bd, Cd, Dd), tuple(paths)

@@ -124,7 +124,7 @@ def sampled_plant(plant: ModalPlant, design: Design, rate_hz: float) -> Matrices
     """
     n_act, n_sen = len(design.actuators), len(design.sensors)
     act_bw = [plant.actuator(a).bandwidth_hz for a in design.actuators]
-    sen_bw = [next((s.bandwidth_hz for s in plant.sensors if s.name == n), None) for n in design.sensors]
+    sen_bw = [plant.sensor(n).bandwidth_hz for n in design.sensors]
     delay = float(plant.requirements.loop_delay_s or 0.0)
     unit = lambda n: (np.zeros((0, 0)), np.zeros((0, n)), np.zeros((n, 0)), np.eye(n))  # noqa: E731
     actuator_side = lag_elements(unit(n_act), delay_s=delay, actuator_bandwidth_hz=act_bw)

@@ -1,0 +1,195 @@
+"""Second-order sections: the cascade and parallel forms a discrete controller is exported in.
+
+A section is the row (b0, b1, b2, a0 = 1, a1, a2) of
+``(b0 + b1 z⁻¹ + b2 z⁻²)/(1 + a1 z⁻¹ + a2 z⁻²)``. A :class:`Cascade` is a gain times a product
+of sections; a :class:`ParallelForm` a constant plus a sum of cascades. Also the two
+continuous-to-discrete maps on state spaces used by :mod:`dampctl.discrete` (Tustin with an
+optional prewarp frequency, and ZOH), both through :func:`scipy.signal.cont2discrete`.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.linalg
+import scipy.signal
+
+from dampctl.closedloop import series_matrices
+from dampctl.errors import UsageError
+
+__all__ = ["Cascade", "ParallelForm", "sos_response"]
+
+Matrices = tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]
+
+
+def _readonly(array) -> np.ndarray:
+    out = np.array(array, dtype=float, copy=True)
+    out.setflags(write=False)
+    return out
+
+
+def _empty(d) -> Matrices:
+    d = np.atleast_2d(np.asarray(d, dtype=float))
+    return np.zeros((0, 0)), np.zeros((0, d.shape[1])), np.zeros((d.shape[0], 0)), d
+
+
+def sos_response(sos: np.ndarray, freq_hz: np.ndarray, rate_hz: float) -> np.ndarray:
+    """Frequency response of a cascade of second-order sections.
+
+    Parameters
+    ----------
+    sos : ndarray, shape (n_sections, 6)
+        Rows (b0, b1, b2, 1, a1, a2).
+    freq_hz : array_like
+        Frequencies (Hz).
+    rate_hz : float
+        Sample rate (Hz).
+
+    Returns
+    -------
+    ndarray of complex
+        H(e^{j 2π f / f_s}) at each frequency.
+    """
+    z1 = np.exp(-2j * np.pi * np.asarray(freq_hz, dtype=float) / rate_hz)
+    out = np.ones(z1.shape, dtype=complex)
+    for b0, b1, b2, _a0, a1, a2 in np.asarray(sos, dtype=float):
+        out *= (b0 + b1 * z1 + b2 * z1**2) / (1.0 + a1 * z1 + a2 * z1**2)
+    return out
+
+
+def _sos_matrices(sos: np.ndarray, gain: float) -> Matrices:
+    """Discrete state space of ``gain · Π sections``, each in direct form II transposed."""
+    system = _empty([[gain]])
+    for b0, b1, b2, _a0, a1, a2 in np.asarray(sos, dtype=float):
+        A = np.array([[-a1, 1.0], [-a2, 0.0]])
+        B = np.array([[b1 - a1 * b0], [b2 - a2 * b0]])
+        C = np.array([[1.0, 0.0]])
+        system = series_matrices(system, (A, B, C, np.array([[b0]])))
+    return system
+
+
+def _parallel_matrices(parts: list[Matrices], feedthrough: float) -> Matrices:
+    A = scipy.linalg.block_diag(*[p[0] for p in parts]) if parts else np.zeros((0, 0))
+    A = np.asarray(A, dtype=float).reshape(sum(p[0].shape[0] for p in parts), -1)
+    B = np.vstack([p[1] for p in parts]) if parts else np.zeros((0, 1))
+    C = np.hstack([p[2] for p in parts]) if parts else np.zeros((1, 0))
+    D = np.array([[feedthrough]]) + sum((p[3] for p in parts), np.zeros((1, 1)))
+    return A, B, C, D
+
+
+@dataclass(frozen=True)
+class Cascade:
+    """``gain · Π_k (b0 + b1 z⁻¹ + b2 z⁻²)/(1 + a1 z⁻¹ + a2 z⁻²)``.
+
+    Parameters
+    ----------
+    sos : array_like, shape (n_sections, 6)
+        Rows (b0, b1, b2, a0 = 1, a1, a2); each numerator scaled so its largest |b| is 1
+        (the scale is in ``gain``).
+    gain : float
+        Overall gain (controller units: actuator unit per sensor unit).
+    label : str, optional
+        What the cascade is (a branch label, a path).
+    """
+
+    sos: np.ndarray
+    gain: float
+    label: str = ""
+
+    def __post_init__(self) -> None:
+        sos = np.array(self.sos, dtype=float).reshape(-1, 6)
+        if not np.all(np.isfinite(sos)) or not math.isfinite(float(self.gain)):
+            raise UsageError("second-order sections must be finite")
+        if sos.size and not np.allclose(sos[:, 3], 1.0):
+            raise UsageError("second-order sections must have a0 = 1")
+        object.__setattr__(self, "sos", _readonly(sos))
+        object.__setattr__(self, "gain", float(self.gain))
+
+    def response(self, freq_hz: np.ndarray, rate_hz: float) -> np.ndarray:
+        """H(e^{jωT}) at ``freq_hz`` (Hz) for sample rate ``rate_hz`` (Hz)."""
+        return self.gain * sos_response(self.sos, freq_hz, rate_hz)
+
+    def matrices(self) -> Matrices:
+        """Discrete state space (A, B, C, D), sections in direct form II transposed."""
+        return _sos_matrices(self.sos, self.gain)
+
+
+@dataclass(frozen=True)
+class ParallelForm:
+    """``feedthrough + Σ_b cascade_b``: one cascade per branch (or per modal block).
+
+    Parameters
+    ----------
+    feedthrough : float
+        Constant term.
+    branches : sequence of Cascade
+        The parallel terms.
+    """
+
+    feedthrough: float
+    branches: tuple[Cascade, ...]
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "feedthrough", float(self.feedthrough))
+        object.__setattr__(self, "branches", tuple(self.branches))
+
+    def response(self, freq_hz: np.ndarray, rate_hz: float) -> np.ndarray:
+        """H(e^{jωT}) at ``freq_hz`` (Hz) for sample rate ``rate_hz`` (Hz)."""
+        freq_hz = np.asarray(freq_hz, dtype=float)
+        out = np.full(freq_hz.shape, self.feedthrough, dtype=complex)
+        for branch in self.branches:
+            out += branch.response(freq_hz, rate_hz)
+        return out
+
+    def matrices(self) -> Matrices:
+        """Discrete state space (A, B, C, D) of the sum."""
+        return _parallel_matrices([b.matrices() for b in self.branches], self.feedthrough)
+
+
+def _block_diagonal(systems) -> Matrices:
+    out = []
+    for k in range(4):
+        mats = [np.atleast_2d(s[k]) for s in systems]
+        rows, cols = sum(m.shape[0] for m in mats), sum(m.shape[1] for m in mats)
+        full = np.zeros((rows, cols))
+        r = c = 0
+        for m in mats:
+            full[r : r + m.shape[0], c : c + m.shape[1]] = m
+            r, c = r + m.shape[0], c + m.shape[1]
+        out.append(full)
+    return tuple(out)
+
+
+def _bilinear(mats: Matrices, sample_time_s: float, prewarp_rad_s: float | None) -> Matrices:
+    """Tustin equivalent, s ← c (z−1)/(z+1), c = ω_p / tan(ω_p T/2) (2/T without prewarp)."""
+    A, B, C, D = (np.asarray(m, dtype=float) for m in mats)
+    if A.shape[0] == 0:
+        return A, B, C, D
+    dt = sample_time_s
+    if prewarp_rad_s:
+        dt = 2.0 * math.tan(prewarp_rad_s * sample_time_s / 2.0) / prewarp_rad_s
+    Ad, Bd, Cd, Dd, _ = scipy.signal.cont2discrete((A, B, C, D), dt, method="bilinear")
+    return Ad, Bd, Cd, Dd
+
+
+def _zoh(mats: Matrices, sample_time_s: float) -> Matrices:
+    A, B, C, D = (np.asarray(m, dtype=float) for m in mats)
+    if A.shape[0] == 0:
+        return A, B, C, D
+    Ad, Bd, Cd, Dd, _ = scipy.signal.cont2discrete((A, B, C, D), sample_time_s, method="zoh")
+    return Ad, Bd, Cd, Dd
+
+
+def _normalized(sos: np.ndarray, gain: float, label: str) -> Cascade:
+    sos = np.array(sos, dtype=float).reshape(-1, 6)
+    for row in sos:
+        row[:3] /= row[3]
+        row[4:] /= row[3]
+        row[3] = 1.0
+        scale = float(np.max(np.abs(row[:3])))
+        if scale > 0:
+            row[:3] /= scale
+            gain *= scale
+    return Cascade(sos, gain, label)
