@@ -17,13 +17,13 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.linalg
 
 from dampctl.design import Design
 from dampctl.sections import (
     Cascade,
     ParallelForm,
     _bilinear,
+    _blkdiag,
     _block_diagonal,
     _normalized,
     _zoh,
@@ -82,8 +82,7 @@ def paths_matrices(paths, actuators, sensors) -> Matrices:
         Cf[o, :] = C[0, :]
         D[o, j] += Dp[0, 0]
         parts.append((A, Bf, Cf))
-    A = np.asarray(scipy.linalg.block_diag(*[p[0] for p in parts]), dtype=float)
-    A = A.reshape(sum(p[0].shape[0] for p in parts), -1)
+    A = _blkdiag([p[0] for p in parts])
     B = np.vstack([p[1] for p in parts])
     C = np.hstack([p[2] for p in parts])
     return A, B, C, D

@@ -71,8 +71,7 @@ def _sos_matrices(sos: np.ndarray, gain: float) -> Matrices:
 
 
 def _parallel_matrices(parts: list[Matrices], feedthrough: float) -> Matrices:
-    A = scipy.linalg.block_diag(*[p[0] for p in parts]) if parts else np.zeros((0, 0))
-    A = np.asarray(A, dtype=float).reshape(sum(p[0].shape[0] for p in parts), -1)
+    A = _blkdiag([p[0] for p in parts])
     B = np.vstack([p[1] for p in parts]) if parts else np.zeros((0, 1))
     C = np.hstack([p[2] for p in parts]) if parts else np.zeros((1, 0))
     D = np.array([[feedthrough]]) + sum((p[3] for p in parts), np.zeros((1, 1)))
@@ -146,6 +145,18 @@ class ParallelForm:
     def matrices(self) -> Matrices:
         """Discrete state space (A, B, C, D) of the sum."""
         return _parallel_matrices([b.matrices() for b in self.branches], self.feedthrough)
+
+
+def _blkdiag(mats) -> np.ndarray:
+    """Block-diagonal matrix of 2-D blocks (empty blocks allowed)."""
+    mats = [np.atleast_2d(np.asarray(m, dtype=float)) for m in mats]
+    rows, cols = sum(m.shape[0] for m in mats), sum(m.shape[1] for m in mats)
+    out = np.zeros((rows, cols))
+    r = c = 0
+    for m in mats:
+        out[r : r + m.shape[0], c : c + m.shape[1]] = m
+        r, c = r + m.shape[0], c + m.shape[1]
+    return out
 
 
 def _block_diagonal(systems) -> Matrices:

@@ -75,14 +75,15 @@ def test_auto_prewarp_is_exact_at_each_branch_centre_frequency():
     design = ppf_bank(freqs)
     loop = discretize(design, RATE).loops[0]
     assert loop.prewarp_hz == pytest.approx(freqs, rel=1e-12)
-    for f, branch_d, branch_c in zip(freqs, loop.parallel.branches, design.loops[0].branches,
-                                     strict=True):
+    for f, branch_d, branch_c in zip(
+        freqs, loop.parallel.branches, design.loops[0].branches, strict=True
+    ):
         h_d = branch_d.response(np.array([f]), RATE)[0]
         h_c = branch_c.response(np.array([2j * np.pi * f]))[0]
         assert h_d == pytest.approx(h_c, rel=1e-9)
 
 
-def test_zoh_poles_are_exp_pT():
+def test_zoh_poles_are_exp_of_pole_times_t():
     # REFERENCES §10: z = 0.80396808 ± 0.58407841j, |z| = 0.99373651, same as exp(pT) to 1e-12
     loop = discretize(resonance_design(), RATE, method="zoh").loops[0]
     p = -0.01 * W0 + 1j * W0 * np.sqrt(1 - 0.01**2)
@@ -133,7 +134,9 @@ def test_impulse_response_of_sections_matches_state_space():
     A, B, C, D = loop.state_space
     _, y_ss, _ = scipy.signal.dlsim((A, B, C, D, T), impulse)
     y_cascade = loop.gain * scipy.signal.sosfilt(np.array(loop.sos), impulse)
-    y_parallel = sum(b.gain * scipy.signal.sosfilt(np.array(b.sos), impulse) for b in loop.parallel.branches)
+    y_parallel = sum(
+        b.gain * scipy.signal.sosfilt(np.array(b.sos), impulse) for b in loop.parallel.branches
+    )
     scale = np.max(np.abs(y_ss))
     assert np.max(np.abs(y_cascade - y_ss[:, 0])) < 1e-8 * scale
     assert np.max(np.abs(y_parallel - y_ss[:, 0])) < 1e-10 * scale
@@ -161,8 +164,12 @@ def test_mimo_state_space_and_modal_sections_agree_with_sample_system():
     A = Tm @ A @ np.linalg.inv(Tm)
     B, C, D = rng.normal(size=(6, 2)), rng.normal(size=(2, 6)), 0.1 * rng.normal(size=(2, 2))
     design = Design(
-        law="lqg", plant_fingerprint="none", actuators=("f1", "f2"), sensors=("x1", "x2"),
-        target_modes=(1,), controller=(A, B, C, D),
+        law="lqg",
+        plant_fingerprint="none",
+        actuators=("f1", "f2"),
+        sensors=("x1", "x2"),
+        target_modes=(1,),
+        controller=(A, B, C, D),
     )
     f = np.array([10.0, 80.0, 250.0, 900.0, 3000.0])
     zs = np.exp(2j * np.pi * f * T)
@@ -198,11 +205,20 @@ def test_section_near_nyquist_is_not_prewarped_and_noted():
 def test_pure_gain_and_leaky_integrator():
     wc = 2 * np.pi * 2.0
     loop = Loop(
-        "fx", "f", "x", 3.0,
+        "fx",
+        "f",
+        "x",
+        3.0,
         branches=(Branch(gain=3.0), Branch(gain=5.0, sections=(Section((1.0,), (1.0, wc)),))),
     )
-    design = Design(law="iff", plant_fingerprint="none", actuators=("f",), sensors=("x",),
-                    target_modes=(1,), loops=(loop,))
+    design = Design(
+        law="iff",
+        plant_fingerprint="none",
+        actuators=("f",),
+        sensors=("x",),
+        target_modes=(1,),
+        loops=(loop,),
+    )
     dc = discretize(design, RATE)
     assert dc.loops[0].prewarp_hz == (pytest.approx(2.0),)
     f = np.array([0.5, 2.0, 50.0])

@@ -61,8 +61,9 @@ def test_fourth_order_direct_form_goes_unstable_while_biquads_stay_stable():
     # REFERENCES §11: poles at 100 and 110 Hz, ζ = 0.01, f_s = 10 kHz
     d1, d2 = _denominator(100.0, 0.01), _denominator(110.0, 0.01)
     den = np.polymul([1.0, *d1], [1.0, *d2])
-    np.testing.assert_allclose(den, [1, -3.98864705, 5.97468891, -3.98338758, 0.99736454],
-                               atol=1e-8)
+    np.testing.assert_allclose(
+        den, [1, -3.98864705, 5.97468891, -3.98338758, 0.99736454], atol=1e-8
+    )
     direct = np.round(den * 2**12) / 2**12  # Q3.12 to hold |a| < 8
     radii = np.sort(np.abs(np.roots(direct)))[::-1]
     np.testing.assert_allclose(radii, [1.0119, 1.0119, 1.0000, 0.9741], atol=1e-4)
