@@ -65,6 +65,8 @@ __all__ = [
 ]
 
 Matrices = tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]
+#: relative error of the sections against the state space above which a note is raised
+REALISATION_TOLERANCE = 1e-6
 METHODS = ("tustin", "zoh")
 
 
@@ -420,6 +422,12 @@ def _discrete_loop(loop, method: str, T: float, prewarp, notes: list[str]) -> Di
     cascade_error = _grid_error(lambda f: cascade.response(f, rate), ss, T)
     parallel_error = _grid_error(lambda f: parallel.response(f, rate), ss, T)
     form = "parallel" if len(branches) > 1 and parallel_error < cascade_error else "cascade"
+    error = min(cascade_error, parallel_error)
+    if error > REALISATION_TOLERANCE:
+        notes.append(
+            f"loop {loop.pair}: the sections reproduce the discrete state space only to "
+            f"{error:.1e} relative; check the frequency response before use"
+        )
     return DiscreteLoop(
         pair=loop.pair,
         actuator=loop.actuator,

@@ -35,7 +35,14 @@ from dampctl.closedloop import (
 from dampctl.design import Design
 from dampctl.plant import ModalPlant
 
-__all__ = ["RATE_RATIO_ADVISED", "DiscreteVerification", "phase_lost_deg", "verify_discrete"]
+__all__ = [
+    "RATE_RATIO_ADVISED",
+    "DiscreteVerification",
+    "phase_lost_deg",
+    "sampled_closed_loop",
+    "sampled_plant",
+    "verify_discrete",
+]
 
 Matrices = tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]
 #: sample rate advised, as a multiple of the highest controlled mode (common practice: 10–20×)

@@ -30,7 +30,16 @@ import numpy as np
 
 from dampctl.export import ExportResult, Realisation
 
-__all__ = ["FILE_NAMES", "FORMATS", "c_header", "export_files", "json_text", "sections_csv"]
+__all__ = [
+    "FILE_NAMES",
+    "FORMATS",
+    "c_header",
+    "export_files",
+    "json_text",
+    "payload",
+    "sections_csv",
+    "verification_dict",
+]
 
 FORMATS = ("json", "csv", "c")
 FILE_NAMES = {"json": "controller.json", "csv": "sections.csv", "c": "controller.h"}
@@ -142,7 +151,7 @@ def payload(result: ExportResult) -> dict:
         "rate_hz": c.rate_hz,
         "sample_time_s": c.sample_time_s,
         "method": c.method,
-        "prewarp": c.prewarp,
+        "prewarp": c.prewarp if c.prewarp in ("auto", "none") else float(c.prewarp),
         "fixed": result.fixed,
         "law": c.law,
         "plant_fingerprint": c.plant_fingerprint,

@@ -9,6 +9,8 @@ scipy ``cont2discrete`` / ``sosfilt`` / ``dlsim`` compute the same things anothe
 
 from __future__ import annotations
 
+import warnings
+
 import control
 import numpy as np
 import pytest
@@ -226,3 +228,25 @@ def test_pure_gain_and_leaky_integrator():
     # exact at the corner (prewarp), and the DC gain 3 + 5/wc is kept by Tustin (z = 1 ↔ s = 0)
     assert h[1] == pytest.approx(loop.response(f[1:2])[0], rel=1e-10)
     assert dc.loops[0].cascade.response(np.array([0.0]), RATE)[0] == pytest.approx(3 + 5 / wc)
+
+
+def test_32nd_order_ppf_bank_keeps_its_response():
+    # LIBRARY-NOTES: the transfer-function route (ss2tf -> tf2sos) loses the response of a
+    # 32nd-order discrete PPF bank; poles + transmission zeros + zpk2sos, and the parallel form,
+    # keep it. Reference: the bank's discrete state space evaluated directly.
+    design = ppf_bank(np.geomspace(40.0, 3000.0, 16), damping=0.02)
+    for method in ("tustin", "zoh"):
+        loop = discretize(design, RATE, method=method).loops[0]
+        assert loop.sos.shape == (16, 6)
+        assert loop.cascade_error < 1e-5
+        assert loop.parallel_error < 1e-9
+        assert loop.form == "parallel"
+    A, B, C, D = loop.state_space
+    with np.errstate(all="ignore"), warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        b, a = scipy.signal.ss2tf(A, B, C, D)
+        tf_sos = scipy.signal.tf2sos(b[0], a)
+    f = np.linspace(10.0, 4900.0, 400)
+    ref = loop.parallel.response(f, RATE)
+    tf_route = scipy.signal.sosfreqz(tf_sos, worN=2 * np.pi * f / RATE)[1]
+    assert np.max(np.abs(tf_route - ref) / np.abs(ref)) > 0.1  # the route we do not take

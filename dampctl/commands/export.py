@@ -112,6 +112,12 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     )
     failures = list(result.failures)
     unmet = _unmet(plant, result)
+    stated = plant.requirements.sample_rate_hz
+    extra_notes = []
+    if stated is not None and abs(stated - rate) > 1e-9 * stated:
+        extra_notes.append(
+            f"the plant file states sample_rate_hz = {stated:.6g}; exported at {rate:.6g} Hz"
+        )
     written = []
     if not failures:
         files = export_files(result, formats)
@@ -135,12 +141,12 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
             "verification": verification_dict(result),
             "failures": failures,
             "unmet": unmet,
-            "notes": data["notes"],
+            "notes": data["notes"] + extra_notes,
             "files": [str(p) for p in written],
         }
         print_json(brief, out)
     else:
-        _human(result, failures, unmet, written, out)
+        _human(result, failures, unmet, written, extra_notes, out)
     for line in failures:
         err.write(f"dampctl export: {line}\n")
     return code
@@ -159,7 +165,7 @@ def _unmet(plant, result) -> list[str]:
     ]
 
 
-def _human(result, failures, unmet, written, out: TextIO) -> None:
+def _human(result, failures, unmet, written, extra_notes, out: TextIO) -> None:
     c = result.controller
     out.write(
         f"{c.law} controller at {c.rate_hz:.6g} Hz, {c.method}"
@@ -221,7 +227,7 @@ def _human(result, failures, unmet, written, out: TextIO) -> None:
         "\nsampled closed loop (ZOH plant, one sample of computation delay) beside the "
         "continuous design\n"
     )
-    headers = ["mode", "target", "freq (Hz)", "continuous", "discrete"]
+    headers = ["mode", "target", "sampled f (Hz)", "continuous damping", "sampled damping"]
     if fv is not None:
         headers.append(result.fixed)
     rows = []
@@ -245,7 +251,7 @@ def _human(result, failures, unmet, written, out: TextIO) -> None:
         f"sample rate {v.rate_ratio:.3g}x the highest controlled mode; crossover {cross}; "
         f"phase lost to hold and computation delay {v.phase_lost_deg:.3g} deg\n"
     )
-    for note in (*c.notes, *v.warnings):
+    for note in (*c.notes, *extra_notes, *v.warnings):
         out.write(f"note: {note}\n")
     for line in (*failures, *unmet):
         out.write(f"NOT MET: {line}\n")
