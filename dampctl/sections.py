@@ -107,7 +107,19 @@ class Cascade:
         object.__setattr__(self, "gain", float(self.gain))
 
     def response(self, freq_hz: np.ndarray, rate_hz: float) -> np.ndarray:
-        """H(e^{jωT}) at ``freq_hz`` (Hz) for sample rate ``rate_hz`` (Hz)."""
+        """Frequency response H(e^{jωT}).
+
+        Parameters
+        ----------
+        freq_hz : array_like
+            Frequencies (Hz).
+        rate_hz : float
+            Sample rate (Hz).
+
+        Returns
+        -------
+        ndarray of complex
+        """
         return self.gain * sos_response(self.sos, freq_hz, rate_hz)
 
     def matrices(self) -> Matrices:
@@ -135,7 +147,19 @@ class ParallelForm:
         object.__setattr__(self, "branches", tuple(self.branches))
 
     def response(self, freq_hz: np.ndarray, rate_hz: float) -> np.ndarray:
-        """H(e^{jωT}) at ``freq_hz`` (Hz) for sample rate ``rate_hz`` (Hz)."""
+        """Frequency response H(e^{jωT}).
+
+        Parameters
+        ----------
+        freq_hz : array_like
+            Frequencies (Hz).
+        rate_hz : float
+            Sample rate (Hz).
+
+        Returns
+        -------
+        ndarray of complex
+        """
         freq_hz = np.asarray(freq_hz, dtype=float)
         out = np.full(freq_hz.shape, self.feedthrough, dtype=complex)
         for branch in self.branches:

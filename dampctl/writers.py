@@ -70,7 +70,13 @@ def _poles(p) -> dict:
 
 
 def verification_dict(result: ExportResult) -> dict:
-    """The verification part of the JSON (also printed by ``--json``)."""
+    """The verification part of the JSON (also printed by ``--json``).
+
+    Parameters
+    ----------
+    result : ExportResult
+        The export (from :func:`dampctl.export.export_design`).
+    """
     v, fv = result.verification, result.fixed_verification
     modes = []
     for k, mode in enumerate(v.modes):
@@ -143,7 +149,13 @@ def _fixed_dict(result: ExportResult) -> dict | None:
 
 
 def payload(result: ExportResult) -> dict:
-    """Everything about the export as a JSON-ready dictionary (the ``controller.json``)."""
+    """Everything about the export as a JSON-ready dictionary (the ``controller.json``).
+
+    Parameters
+    ----------
+    result : ExportResult
+        The export (from :func:`dampctl.export.export_design`).
+    """
     c = result.controller
     return {
         "format": FORMAT_NAME,
@@ -186,7 +198,13 @@ def payload(result: ExportResult) -> dict:
 
 
 def json_text(result: ExportResult) -> str:
-    """Text of ``controller.json``."""
+    """Text of ``controller.json``.
+
+    Parameters
+    ----------
+    result : ExportResult
+        The export (from :func:`dampctl.export.export_design`).
+    """
     return json.dumps(payload(result), indent=2, allow_nan=False) + "\n"
 
 
@@ -196,6 +214,11 @@ def sections_csv(result: ExportResult) -> str:
     Columns: loop, branch, section (1-based), b0, b1, b2, a1, a2 (a0 = 1), gain (of the
     whole branch cascade, repeated on each of its rows, not a per-section gain), feedthrough
     (of the loop); with fixed point also the stored integers, frac_bits and shift.
+
+    Parameters
+    ----------
+    result : ExportResult
+        The export (from :func:`dampctl.export.export_design`).
     """
     out = io.StringIO()
     header = ["loop", "branch", "section", "b0", "b1", "b2", "a1", "a2", "gain", "feedthrough"]
@@ -280,7 +303,13 @@ static inline dampctl_q dampctl_cascade_q(const dampctl_biquad_q *s, int n_secti
 
 
 def c_header(result: ExportResult) -> str:
-    """Text of ``controller.h``: coefficients and the reference routines (see module doc)."""
+    """Text of ``controller.h``: coefficients and the reference routines (see module doc).
+
+    Parameters
+    ----------
+    result : ExportResult
+        The export (from :func:`dampctl.export.export_design`).
+    """
     c = result.controller
     lines = [
         "/* Discrete controller written by dampctl export.",
