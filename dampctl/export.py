@@ -19,7 +19,7 @@ from dampctl.discrete import DiscreteController, DiscretePath, discretize, paths
 from dampctl.errors import UsageError
 from dampctl.fixedpoint import DAMPING_TOLERANCE, QuantizedSection, quantize_cascade
 from dampctl.plant import ModalPlant
-from dampctl.sampledloop import DiscreteVerification, verify_discrete
+from dampctl.sampledloop import DiscreteVerification, sampled_reference, verify_discrete
 from dampctl.sections import ParallelForm, _block_diagonal
 
 __all__ = ["ExportResult", "Realisation", "export_design", "realisations"]
@@ -199,7 +199,10 @@ def export_design(
         raise UsageError(f"fixed must be one of {', '.join(FIXED)}, got {fixed!r}")
     controller = discretize(design, rate_hz, method=method, prewarp=prewarp)
     reals = realisations(controller)
-    verification = verify_discrete(plant, design, controller.rate_hz, _float_matrices(controller))
+    reference = sampled_reference(plant, design, controller.rate_hz)
+    verification = verify_discrete(
+        plant, design, controller.rate_hz, _float_matrices(controller), reference=reference
+    )
     fixed_reals: tuple[Realisation, ...] = ()
     fixed_verification = None
     refused: list[str] = []
@@ -212,7 +215,11 @@ def export_design(
         fixed_reals = tuple(_quantized(r, controller.rate_hz, fixed, tolerance) for r in reals)
         refused = [s.reason for r in fixed_reals for b in r.sections for s in b if s.reason]
         fixed_verification = verify_discrete(
-            plant, design, controller.rate_hz, _matrices(controller, fixed_reals)
+            plant,
+            design,
+            controller.rate_hz,
+            _matrices(controller, fixed_reals),
+            reference=reference,
         )
     return ExportResult(
         controller=controller,

@@ -25,6 +25,7 @@ import numpy as np
 import scipy.signal
 
 from dampctl.closedloop import (
+    MatchedModes,
     closed_loop_modes,
     lag_elements,
     match_modes,
@@ -38,9 +39,11 @@ from dampctl.plant import ModalPlant
 __all__ = [
     "RATE_RATIO_ADVISED",
     "DiscreteVerification",
+    "SampledReference",
     "phase_lost_deg",
     "sampled_closed_loop",
     "sampled_plant",
+    "sampled_reference",
     "verify_discrete",
 ]
 
@@ -186,8 +189,61 @@ def _match_sampled(plant: ModalPlant, z: np.ndarray, T: float):
     return matched + 2j * np.pi * turns / T
 
 
+@dataclass(frozen=True)
+class SampledReference:
+    """What every check of one design at one rate shares (computed once).
+
+    Attributes
+    ----------
+    rate_hz : float
+        Sample rate (Hz).
+    plant_d : tuple of ndarray
+        :func:`sampled_plant` of the plant.
+    continuous : MatchedModes
+        Continuous closed loop (roll-offs and ``loop_delay_s``, no sampling).
+    crossover_hz : float or None
+        Highest loop-gain crossover below Nyquist.
+    """
+
+    rate_hz: float
+    plant_d: Matrices
+    continuous: MatchedModes
+    crossover_hz: float | None
+
+
+def sampled_reference(plant: ModalPlant, design: Design, rate_hz: float) -> SampledReference:
+    """Sampled plant, continuous closed loop and crossover of a design at a rate.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant.
+    design : Design
+        The continuous design.
+    rate_hz : float
+        Sample rate (Hz).
+
+    Returns
+    -------
+    SampledReference
+    """
+    return SampledReference(
+        rate_hz=float(rate_hz),
+        plant_d=sampled_plant(plant, design, rate_hz),
+        continuous=closed_loop_modes(
+            plant, design, delay_s=float(plant.requirements.loop_delay_s or 0.0)
+        ),
+        crossover_hz=_crossover_hz(plant, design, rate_hz),
+    )
+
+
 def verify_discrete(
-    plant: ModalPlant, design: Design, rate_hz: float, controller_d: Matrices
+    plant: ModalPlant,
+    design: Design,
+    rate_hz: float,
+    controller_d: Matrices,
+    *,
+    reference: SampledReference | None = None,
 ) -> DiscreteVerification:
     """Closed-loop damping of every mode in the sampled loop, beside the continuous design's.
 
@@ -202,20 +258,25 @@ def verify_discrete(
     controller_d : tuple of ndarray
         Discrete controller (A, B, C, D), sensors in, actuators out, ``u = −(C x + D y)``
         (:meth:`DiscreteController.realisation_matrices`, or a quantized one).
+    reference : SampledReference, optional
+        Precomputed :func:`sampled_reference` for the same plant, design and rate (saves the
+        plant discretization when several controllers are checked).
 
     Returns
     -------
     DiscreteVerification
     """
     T = 1.0 / rate_hz
-    cont = closed_loop_modes(plant, design, delay_s=float(plant.requirements.loop_delay_s or 0.0))
-    z = np.linalg.eigvals(sampled_closed_loop(sampled_plant(plant, design, rate_hz), controller_d))
+    if reference is None or reference.rate_hz != float(rate_hz):
+        reference = sampled_reference(plant, design, rate_hz)
+    cont = reference.continuous
+    z = np.linalg.eigvals(sampled_closed_loop(reference.plant_d, controller_d))
     poles = _match_sampled(plant, z, T)
     omega, damping = modal_damping(poles)
     targets = [m for m in design.target_modes if 1 <= m <= plant.n_modes]
     freqs = plant.freqs_hz[[m - 1 for m in targets]] if targets else plant.freqs_hz
     highest = float(np.max(freqs))
-    crossover = _crossover_hz(plant, design, rate_hz)
+    crossover = reference.crossover_hz
     ratio = rate_hz / highest
     warnings = []
     if ratio < RATE_RATIO_ADVISED:
