@@ -34,8 +34,6 @@ from dataclasses import dataclass, field
 from typing import Literal
 
 import numpy as np
-import scipy.linalg
-import scipy.signal
 
 from dampctl.closedloop import series_matrices
 from dampctl.design import Branch, Design, Section
@@ -49,8 +47,11 @@ from dampctl.sections import (
     _empty,
     _parallel_matrices,
     _readonly,
+    _ss_response,
     _zoh,
+    cascade_from_state_space,
     sos_response,
+    transmission_zeros,
 )
 
 __all__ = [
@@ -245,79 +246,6 @@ def _branch_discrete(branch: Branch, method: str, T: float, prewarp, notes: list
     return system, used
 
 
-def transmission_zeros(mats: Matrices) -> np.ndarray:
-    """Finite transmission zeros of a square system from its Rosenbrock pencil.
-
-    Parameters
-    ----------
-    mats : tuple of ndarray
-        (A, B, C, D), as many inputs as outputs.
-
-    Returns
-    -------
-    ndarray of complex
-        The finite generalized eigenvalues of ([[A, B], [C, D]], [[I, 0], [0, 0]]).
-    """
-    A, B, C, D = (np.asarray(m, dtype=float) for m in mats)
-    n = A.shape[0]
-    if n == 0:
-        return np.zeros(0, dtype=complex)
-    M = np.block([[A, B], [C, D]])
-    N = np.zeros_like(M)
-    N[:n, :n] = np.eye(n)
-    alpha, beta = scipy.linalg.eig(M, N, right=False, homogeneous_eigvals=True)
-    scale = max(1.0, float(np.linalg.norm(M, 1)))
-    finite = np.abs(alpha) < 1e8 * scale * np.abs(beta)
-    return alpha[finite] / beta[finite]
-
-
-def _ss_response(mats: Matrices, z: np.ndarray) -> np.ndarray:
-    A, B, C, D = mats
-    n = A.shape[0]
-    if n == 0:
-        return np.full(z.shape, D[0, 0], dtype=complex)
-    lam, V = np.linalg.eig(A)
-    cond = np.linalg.cond(V)
-    if np.isfinite(cond) and cond < 1e8:
-        cv = (C @ V)[0]
-        vb = np.linalg.solve(V, B)[:, 0]
-        return D[0, 0] + np.sum(cv * vb / (z[:, None] - lam[None, :]), axis=1)
-    eye = np.eye(n)
-    return np.array([D[0, 0] + (C @ np.linalg.solve(zk * eye - A, B))[0, 0] for zk in z])
-
-
-def _cascade_from_ss(mats: Matrices, T: float, label: str = "") -> Cascade:
-    """Poles = eig(A), zeros = transmission zeros, gain matched away from poles and zeros."""
-    A = mats[0]
-    if A.shape[0] == 0:
-        return Cascade(np.array([[1.0, 0, 0, 1.0, 0, 0]]), float(mats[3][0, 0]), label)
-    poles = np.linalg.eigvals(A)
-    zeros = transmission_zeros(mats)
-    grid = np.exp(1j * np.pi * np.linspace(0.002, 0.98, 97))
-    dist = np.min(np.abs(grid[:, None] - np.concatenate([poles, zeros, [np.inf]])[None, :]), 1)
-    z0 = grid[np.argmax(dist)]
-    h_ss = _ss_response(mats, np.array([z0]))[0]
-    if h_ss == 0:
-        return Cascade(np.array([[0.0, 0, 0, 1.0, 0, 0]]), 0.0, label)
-    h_zp = np.prod(z0 - zeros) / np.prod(z0 - poles)
-    # a strictly proper H has r = n_p − n_z delays: pad r zeros at the origin for zpk2sos,
-    # then turn each padded factor z into z⁻¹·z² by shifting a numerator one tap right
-    r = poles.size - zeros.size
-    sos = np.array(
-        scipy.signal.zpk2sos(np.concatenate([zeros, np.zeros(r)]), poles, 1.0), dtype=float
-    )
-    for _ in range(r):
-        row = next(row for row in sos if row[2] == 0.0)
-        row[:3] = [0.0, row[0], row[1]]
-    gain = float((h_ss / h_zp).real)
-    for row in sos:
-        scale = float(np.max(np.abs(row[:3])))
-        if scale > 0:
-            row[:3] /= scale
-            gain *= scale
-    return Cascade(sos, gain, label)
-
-
 def _grid_error(form_response, ss: Matrices, T: float) -> float:
     freq = np.linspace(0.001, 0.499, 400) / T
     ref = _ss_response(ss, np.exp(2j * np.pi * freq * T))
@@ -414,9 +342,9 @@ def _discrete_loop(loop, method: str, T: float, prewarp, notes: list[str]) -> Di
         parts.append(mats)
         used.extend(warp)
         label = branch.label or f"branch {b + 1}"
-        branches.append(_cascade_from_ss(mats, T, label))
+        branches.append(cascade_from_state_space(mats, label))
     ss = _parallel_matrices(parts, 0.0)
-    cascade = _cascade_from_ss(ss, T, loop.pair)
+    cascade = cascade_from_state_space(ss, loop.pair)
     parallel = ParallelForm(0.0, tuple(branches))
     rate = 1.0 / T
     cascade_error = _grid_error(lambda f: cascade.response(f, rate), ss, T)

@@ -7,8 +7,10 @@ block [[σ, ω], [−ω, σ]]; a real eigenvalue a 1×1 block. Each block is dis
 so every actuator/sensor path becomes the feedthrough D[a, s] plus one biquad per block, in
 parallel. When the eigenvector basis is ill-conditioned (condition number above
 :data:`MODAL_COND_LIMIT`, e.g. a defective or nearly repeated eigenvalue) there is no modal
-realisation: only the discrete state space is exported (plain or fixed-prewarp Tustin, or ZOH,
-on the whole state space) and a note says so.
+realisation: the whole state space is discretized (plain or fixed-prewarp Tustin, or ZOH) and
+each path becomes one cascade over all the controller's poles (poles, transmission zeros,
+zpk2sos; not minimal: n_paths × n states); if such a cascade does not reproduce its path to
+1e-6, only the state space is exported. A note says which.
 """
 
 from __future__ import annotations
@@ -26,7 +28,9 @@ from dampctl.sections import (
     _blkdiag,
     _block_diagonal,
     _normalized,
+    _ss_response,
     _zoh,
+    cascade_from_state_space,
 )
 
 __all__ = ["MODAL_COND_LIMIT", "DiscretePath", "paths_matrices"]
@@ -132,6 +136,30 @@ def _modal_blocks(A: np.ndarray):
     return Tm, blocks
 
 
+def _path_cascades(design: Design, ss: Matrices, T: float, notes: list[str]):
+    """Fallback without a modal form: one cascade per path from its SISO state space."""
+    Ad, Bd, Cd, Dd = ss
+    paths = []
+    for o, act in enumerate(design.actuators):
+        for j, sen in enumerate(design.sensors):
+            sub = (Ad, Bd[:, j : j + 1], Cd[o : o + 1, :], Dd[o : o + 1, j : j + 1])
+            cascade = cascade_from_state_space(sub, f"{act}<-{sen}")
+            freq = np.linspace(0.001, 0.499, 200) / T
+            ref = _ss_response(sub, np.exp(2j * np.pi * freq * T))
+            err = np.max(
+                np.abs(cascade.response(freq, 1.0 / T) - ref)
+                / np.maximum(np.abs(ref), 1e-12 * np.max(np.abs(ref)) + 1e-300)
+            )
+            if not np.isfinite(err) or err > 1e-6:
+                notes.append("no modal form and no accurate path cascades: state space only")
+                return ()
+            paths.append(DiscretePath(act, sen, ParallelForm(0.0, (cascade,))))
+    notes.append(
+        "no modal realisation: each path is a cascade over all controller poles (not minimal)"
+    )
+    return tuple(paths)
+
+
 def _discrete_mimo(design: Design, method: str, T: float, prewarp, notes: list[str]):
     A, B, C, D = design.statespace_matrices()
     modal = _modal_blocks(A) if A.shape[0] else (np.zeros((0, 0)), [])
@@ -141,8 +169,7 @@ def _discrete_mimo(design: Design, method: str, T: float, prewarp, notes: list[s
             prewarp = "none"
         w = None if prewarp in ("auto", "none") else 2.0 * math.pi * float(prewarp)
         ss = _bilinear((A, B, C, D), T, w) if method == "tustin" else _zoh((A, B, C, D), T)
-        notes.append("no modal realisation: export the discrete state space only")
-        return ss, ()
+        return ss, _path_cascades(design, ss, T, notes)
     Tm, blocks = modal
     Tinv = np.linalg.inv(Tm) if Tm.size else Tm
     Am, Bm, Cm = Tinv @ A @ Tm, Tinv @ B, C @ Tm

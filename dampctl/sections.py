@@ -19,7 +19,13 @@ import scipy.signal
 from dampctl.closedloop import series_matrices
 from dampctl.errors import UsageError
 
-__all__ = ["Cascade", "ParallelForm", "sos_response"]
+__all__ = [
+    "Cascade",
+    "ParallelForm",
+    "cascade_from_state_space",
+    "sos_response",
+    "transmission_zeros",
+]
 
 Matrices = tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]
 
@@ -223,6 +229,95 @@ def _normalized(sos: np.ndarray, gain: float, label: str) -> Cascade:
         row[:3] /= row[3]
         row[4:] /= row[3]
         row[3] = 1.0
+        scale = float(np.max(np.abs(row[:3])))
+        if scale > 0:
+            row[:3] /= scale
+            gain *= scale
+    return Cascade(sos, gain, label)
+
+
+def transmission_zeros(mats: Matrices) -> np.ndarray:
+    """Finite transmission zeros of a square system from its Rosenbrock pencil.
+
+    Parameters
+    ----------
+    mats : tuple of ndarray
+        (A, B, C, D), as many inputs as outputs.
+
+    Returns
+    -------
+    ndarray of complex
+        The finite generalized eigenvalues of ([[A, B], [C, D]], [[I, 0], [0, 0]]).
+    """
+    A, B, C, D = (np.asarray(m, dtype=float) for m in mats)
+    n = A.shape[0]
+    if n == 0:
+        return np.zeros(0, dtype=complex)
+    M = np.block([[A, B], [C, D]])
+    N = np.zeros_like(M)
+    N[:n, :n] = np.eye(n)
+    alpha, beta = scipy.linalg.eig(M, N, right=False, homogeneous_eigvals=True)
+    scale = max(1.0, float(np.linalg.norm(M, 1)))
+    finite = np.abs(alpha) < 1e8 * scale * np.abs(beta)
+    return alpha[finite] / beta[finite]
+
+
+def _ss_response(mats: Matrices, z: np.ndarray) -> np.ndarray:
+    A, B, C, D = mats
+    n = A.shape[0]
+    if n == 0:
+        return np.full(z.shape, D[0, 0], dtype=complex)
+    lam, V = np.linalg.eig(A)
+    cond = np.linalg.cond(V)
+    if np.isfinite(cond) and cond < 1e8:
+        cv = (C @ V)[0]
+        vb = np.linalg.solve(V, B)[:, 0]
+        return D[0, 0] + np.sum(cv * vb / (z[:, None] - lam[None, :]), axis=1)
+    eye = np.eye(n)
+    return np.array([D[0, 0] + (C @ np.linalg.solve(zk * eye - A, B))[0, 0] for zk in z])
+
+
+def cascade_from_state_space(mats: Matrices, label: str = "") -> Cascade:
+    """Cascade of second-order sections of a discrete SISO state space.
+
+    Poles are the eigenvalues of A, zeros the transmission zeros, the gain is matched at the
+    point of the unit circle farthest from every pole and zero, and :func:`scipy.signal.zpk2sos`
+    pairs and orders the sections. No transfer-function polynomial is formed.
+
+    Parameters
+    ----------
+    mats : tuple of ndarray
+        Discrete (A, B, C, D), one input and one output.
+    label : str, optional
+        Label of the cascade.
+
+    Returns
+    -------
+    Cascade
+    """
+    A = mats[0]
+    if A.shape[0] == 0:
+        return Cascade(np.array([[1.0, 0, 0, 1.0, 0, 0]]), float(mats[3][0, 0]), label)
+    poles = np.linalg.eigvals(A)
+    zeros = transmission_zeros(mats)
+    grid = np.exp(1j * np.pi * np.linspace(0.002, 0.98, 97))
+    dist = np.min(np.abs(grid[:, None] - np.concatenate([poles, zeros, [np.inf]])[None, :]), 1)
+    z0 = grid[np.argmax(dist)]
+    h_ss = _ss_response(mats, np.array([z0]))[0]
+    if h_ss == 0:
+        return Cascade(np.array([[0.0, 0, 0, 1.0, 0, 0]]), 0.0, label)
+    h_zp = np.prod(z0 - zeros) / np.prod(z0 - poles)
+    # a strictly proper H has r = n_p − n_z delays: pad r zeros at the origin for zpk2sos,
+    # then turn each padded factor z into z⁻¹·z² by shifting a numerator one tap right
+    r = poles.size - zeros.size
+    sos = np.array(
+        scipy.signal.zpk2sos(np.concatenate([zeros, np.zeros(r)]), poles, 1.0), dtype=float
+    )
+    for _ in range(r):
+        row = next(row for row in sos if row[2] == 0.0)
+        row[:3] = [0.0, row[0], row[1]]
+    gain = float((h_ss / h_zp).real)
+    for row in sos:
         scale = float(np.max(np.abs(row[:3])))
         if scale > 0:
             row[:3] /= scale

@@ -250,3 +250,26 @@ def test_32nd_order_ppf_bank_keeps_its_response():
     ref = loop.parallel.response(f, RATE)
     tf_route = scipy.signal.sosfreqz(tf_sos, worN=2 * np.pi * f / RATE)[1]
     assert np.max(np.abs(tf_route - ref) / np.abs(ref)) > 0.1  # the route we do not take
+
+
+def test_mimo_without_modal_form_falls_back_to_path_cascades():
+    # a defective (Jordan) state matrix has no eigenvector basis
+    A = np.array([[-100.0, 1.0, 0.0], [0.0, -100.0, 0.0], [0.0, 0.0, -20.0]])
+    B = np.array([[0.0, 1.0], [1.0, 0.0], [1.0, 1.0]])
+    C = np.array([[1e4, 0.0, 3.0], [0.0, 50.0, -2.0]])
+    design = Design(
+        law="lqg",
+        plant_fingerprint="none",
+        actuators=("f1", "f2"),
+        sensors=("x1", "x2"),
+        target_modes=(1,),
+        controller=(A, B, C, np.zeros((2, 2))),
+    )
+    dc = discretize(design, RATE)
+    assert any("no modal realisation" in note for note in dc.notes)
+    assert len(dc.paths) == 4
+    ref = control.sample_system(design.statespace(), T, method="tustin")
+    sys_d = control.ss(*dc.realisation_matrices(), T)
+    for f in (5.0, 60.0, 700.0):
+        z = np.exp(2j * np.pi * f * T)
+        np.testing.assert_allclose(sys_d(z), ref(z), rtol=1e-9, atol=1e-12)
