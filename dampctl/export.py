@@ -17,7 +17,12 @@ import numpy as np
 from dampctl.design import Design
 from dampctl.discrete import DiscreteController, DiscretePath, discretize, paths_matrices
 from dampctl.errors import UsageError
-from dampctl.fixedpoint import DAMPING_TOLERANCE, QuantizedSection, quantize_cascade
+from dampctl.fixedpoint import (
+    DAMPING_TOLERANCE,
+    QuantizedSection,
+    cascade_peak_gains,
+    quantize_cascade,
+)
 from dampctl.plant import ModalPlant
 from dampctl.sampledloop import DiscreteVerification, sampled_reference, verify_discrete
 from dampctl.sections import ParallelForm, _block_diagonal
@@ -41,6 +46,10 @@ class Realisation:
         ``feedthrough + Σ gain_b · Π sections`` (float or rounded coefficients).
     sections : tuple of tuple of QuantizedSection
         Fixed-point sections per branch; empty when not quantized.
+    peak_gains : tuple of tuple of float
+        Per branch, the peak gain from the branch input to each section's output
+        (:func:`dampctl.fixedpoint.cascade_peak_gains`, rounded coefficients, without the
+        branch gain); empty when not quantized.
     """
 
     name: str
@@ -48,6 +57,7 @@ class Realisation:
     sensor: str
     form: ParallelForm
     sections: tuple[tuple[QuantizedSection, ...], ...] = ()
+    peak_gains: tuple[tuple[float, ...], ...] = ()
 
 
 def realisations(controller: DiscreteController) -> tuple[Realisation, ...]:
@@ -75,7 +85,7 @@ def realisations(controller: DiscreteController) -> tuple[Realisation, ...]:
 
 
 def _quantized(real: Realisation, rate_hz: float, fmt: str, tolerance: float) -> Realisation:
-    branches, sections = [], []
+    branches, sections, peaks = [], [], []
     for b, branch in enumerate(real.form.branches):
         label = f"{real.name}, {branch.label or f'branch {b + 1}'}"
         if len(real.form.branches) == 1:
@@ -85,8 +95,9 @@ def _quantized(real: Realisation, rate_hz: float, fmt: str, tolerance: float) ->
         )
         branches.append(rounded)
         sections.append(secs)
+        peaks.append(tuple(float(g) for g in cascade_peak_gains(rounded.sos, rate_hz)))
     form = ParallelForm(real.form.feedthrough, tuple(branches))
-    return Realisation(real.name, real.actuator, real.sensor, form, tuple(sections))
+    return Realisation(real.name, real.actuator, real.sensor, form, tuple(sections), tuple(peaks))
 
 
 def _matrices(controller: DiscreteController, reals: tuple[Realisation, ...]):

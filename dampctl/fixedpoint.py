@@ -37,6 +37,7 @@ __all__ = [
     "DAMPING_TOLERANCE",
     "FORMATS",
     "QuantizedSection",
+    "cascade_peak_gains",
     "quantize_cascade",
     "quantize_section",
     "run_fixed",
@@ -310,6 +311,39 @@ def quantize_parallel(
         branches.append(rounded)
         sections.extend(secs)
     return ParallelForm(form.feedthrough, tuple(branches)), tuple(sections)
+
+
+def cascade_peak_gains(sos, rate_hz: float) -> np.ndarray:
+    """Signal headroom of a cascade: peak gain from its input to each section's output.
+
+    Parameters
+    ----------
+    sos : array_like, shape (n_sections, 6)
+        The sections (b0, b1, b2, 1, a1, a2), without the cascade's gain.
+    rate_hz : float
+        Sample rate (Hz).
+
+    Returns
+    -------
+    ndarray, shape (n_sections,)
+        max over frequency of |Π_{j ≤ k} H_j(e^{jωT})| for k = 1..n, on a grid of 4096 points
+        from 0 to Nyquist plus every section's pole angle (where a lightly damped peak sits).
+        A fixed-point input must stay below full scale divided by the largest of these
+        (inf when a pole lies on the unit circle).
+    """
+    sos = np.asarray(sos, dtype=float).reshape(-1, 6)
+    angles = [np.abs(np.angle(np.roots([1.0, r[4], r[5]]))) for r in sos if r[5] or r[4]]
+    grid = np.concatenate([np.linspace(0.0, np.pi, 4096), *angles]) if angles else None
+    if grid is None:
+        grid = np.linspace(0.0, np.pi, 4096)
+    z1 = np.exp(-1j * grid)
+    out, h = [], np.ones(grid.shape, dtype=complex)
+    for b0, b1, b2, _a0, a1, a2 in sos:
+        den = 1.0 + a1 * z1 + a2 * z1**2
+        with np.errstate(divide="ignore", invalid="ignore"):
+            h = np.where(den == 0, np.inf, h * (b0 + b1 * z1 + b2 * z1**2) / den)
+        out.append(float(np.max(np.abs(h))))  # inf for a pole on the unit circle
+    return np.array(out)
 
 
 def run_fixed(sections, samples) -> np.ndarray:

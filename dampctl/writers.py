@@ -135,11 +135,14 @@ def _fixed_dict(result: ExportResult) -> dict | None:
                                 "pole_after": _poles(s.after),
                                 "damping_change": _num(s.damping_change),
                                 "accepted": s.accepted,
+                                "peak_gain": _num(peak),
                             }
-                            for s in secs
+                            for s, peak in zip(secs, peaks, strict=True)
                         ],
                     }
-                    for branch, secs in zip(r.form.branches, r.sections, strict=True)
+                    for branch, secs, peaks in zip(
+                        r.form.branches, r.sections, r.peak_gains, strict=True
+                    )
                 ],
             }
             for r in result.fixed_realisations

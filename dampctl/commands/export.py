@@ -194,8 +194,8 @@ def _human(result, failures, unmet, written, extra_notes, out: TextIO) -> None:
     if result.fixed != "none":
         rows = []
         for real in result.fixed_realisations:
-            for secs in real.sections:
-                for s in secs:
+            for secs, peaks in zip(real.sections, real.peak_gains, strict=True):
+                for s, peak in zip(secs, peaks, strict=True):
                     rows.append(
                         (
                             s.label,
@@ -206,6 +206,7 @@ def _human(result, failures, unmet, written, extra_notes, out: TextIO) -> None:
                             s.before.damping,
                             s.after.damping,
                             f"{100 * s.damping_change:+.2f} %",
+                            peak,
                             s.accepted,
                         )
                     )
@@ -219,9 +220,14 @@ def _human(result, failures, unmet, written, extra_notes, out: TextIO) -> None:
             "damping",
             "rounded",
             "change",
+            "peak gain",
             "ok",
         ]
         out.write(table(headers, rows) + "\n")
+        out.write(
+            "peak gain: largest gain from the branch input to the section output; keep the "
+            "fixed-point input below full scale / peak gain\n"
+        )
     v, fv = result.verification, result.fixed_verification
     out.write(
         "\nsampled closed loop (ZOH plant, one sample of computation delay) beside the "
