@@ -150,16 +150,18 @@ class ExportResult:
     def failures(self) -> tuple[str, ...]:
         """Why the export must not be used: refused sections, unstable sampled loops."""
         out = list(self.refused)
-        if not self.verification.stable:
+        v = self.verification
+        if not v.stable:
+            cont = "stable" if v.continuous_stable else "also unstable"
             out.append(
-                "the sampled closed loop is unstable (largest |z| = "
-                f"{self.verification.max_pole_radius:.6f})"
+                f"the sampled closed loop is unstable (largest |z| = {v.max_pole_radius:.6f} at "
+                f"{v.max_pole_freq_hz:.4g} Hz; the continuous loop is {cont})"
             )
         fv = self.fixed_verification
         if fv is not None and not fv.stable:
             out.append(
                 f"the sampled closed loop with {self.fixed} coefficients is unstable "
-                f"(largest |z| = {fv.max_pole_radius:.6f})"
+                f"(largest |z| = {fv.max_pole_radius:.6f} at {fv.max_pole_freq_hz:.4g} Hz)"
             )
         return tuple(out)
 

@@ -86,6 +86,8 @@ class DiscreteVerification:
         Every sampled closed-loop pole inside the unit circle.
     max_pole_radius : float
         Largest |z| of the sampled closed loop.
+    max_pole_freq_hz : float
+        Frequency |arg z| f_s / 2π (Hz) of that pole (aliased into 0..f_s/2).
     continuous_stable : bool
         The continuous closed loop is stable.
     highest_mode_hz : float
@@ -107,6 +109,7 @@ class DiscreteVerification:
     discrete_damping: np.ndarray
     stable: bool
     max_pole_radius: float
+    max_pole_freq_hz: float
     continuous_stable: bool
     highest_mode_hz: float
     rate_ratio: float
@@ -299,6 +302,7 @@ def verify_discrete(
         discrete_damping=damping,
         stable=bool(np.max(np.abs(z)) < 1.0),
         max_pole_radius=float(np.max(np.abs(z))),
+        max_pole_freq_hz=float(abs(np.angle(z[np.argmax(np.abs(z))])) * rate_hz / (2 * np.pi)),
         continuous_stable=cont.stable,
         highest_mode_hz=highest,
         rate_ratio=ratio,

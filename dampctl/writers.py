@@ -97,6 +97,8 @@ def verification_dict(result: ExportResult) -> dict:
         "modes": modes,
         "stable": v.stable,
         "max_pole_radius": v.max_pole_radius,
+        "max_pole_freq_hz": v.max_pole_freq_hz,
+        "continuous_stable": v.continuous_stable,
         "fixed_stable": None if fv is None else fv.stable,
         "fixed_max_pole_radius": None if fv is None else fv.max_pole_radius,
         "highest_mode_hz": v.highest_mode_hz,
