@@ -8,7 +8,10 @@ A design's controller ``u = −K(s) y`` becomes, at a sample rate f_s = 1/T, one
   poles (eigenvalues of A), the transmission zeros of the discrete SISO state space and the
   gain matched at a frequency, then paired and ordered by :func:`scipy.signal.zpk2sos`; the
   transfer-function polynomial route is never taken (it loses all accuracy for lightly damped
-  banks of filters),
+  banks of filters). Under Tustin a branch needs no root finding at all: each continuous
+  section maps exactly to one biquad (three coefficients), so a single-branch loop and every
+  branch of the parallel form are built that way, sections ordered with the poles closest to
+  the unit circle last,
 * a **parallel** form, one cascade per branch of the loop (for a bank of positive-position
   filters one biquad per filter), summed; it is recommended when the loop has several branches
   and it reproduces the state space better than the cascade does.
@@ -45,6 +48,7 @@ from dampctl.sections import (
     _bilinear,
     _block_diagonal,
     _empty,
+    _normalized,
     _parallel_matrices,
     _readonly,
     _ss_response,
@@ -80,7 +84,8 @@ class DiscreteLoop:
     pair, actuator, sensor : str
         The loop's pair and signals.
     cascade : Cascade
-        Cascade of second-order sections and gain (zpk2sos pairing and ordering).
+        Cascade of second-order sections and gain (zpk2sos pairing and ordering; for a
+        single-branch Tustin loop, the exact biquad of each continuous section).
     parallel : ParallelForm
         One cascade per branch of the continuous loop, summed.
     state_space : tuple of ndarray
@@ -219,14 +224,39 @@ def centre_frequency(section: Section) -> float | None:
     return None
 
 
+def _bilinear_row(section: Section, c: float) -> np.ndarray:
+    """Exact Tustin image of a section of degree ≤ 2: s ← c (1 − z⁻¹)/(1 + z⁻¹).
+
+    Both polynomials are padded to the denominator's degree n and multiplied by (1 + z⁻¹)^n,
+    which for n ≤ 2 is exact arithmetic on three coefficients (no root finding).
+    """
+    n = len(section.den) - 1
+    den = np.array(section.den, dtype=float)
+    num = np.zeros(n + 1)
+    num[n + 1 - len(section.num) :] = section.num
+
+    def image(p):
+        if n == 2:
+            p0, p1, p2 = p[0] * c * c, p[1] * c, p[2]
+            return np.array([p0 + p1 + p2, 2.0 * (p2 - p0), p0 - p1 + p2])
+        if n == 1:
+            return np.array([p[0] * c + p[1], p[1] - p[0] * c, 0.0])
+        return np.array([p[0], 0.0, 0.0])
+
+    b, a = image(num), image(den)
+    return np.concatenate([b / a[0], [1.0], a[1:] / a[0]])
+
+
 def _branch_discrete(branch: Branch, method: str, T: float, prewarp, notes: list[str]):
-    """Discrete state space of one branch and the prewarp frequency of each section (Hz)."""
+    """Discrete state space of one branch, the prewarp frequency of each section (Hz), and
+    for Tustin the exact biquad of each section (None for ZOH)."""
     system = _empty([[branch.gain]])
     used: list[float | None] = []
     if method == "zoh":
         for section in branch.sections:
             system = series_matrices(system, _section_matrices(section))
-        return _zoh(system, T), used
+        return _zoh(system, T), used, None
+    rows = []
     for section in branch.sections:
         mats = _section_matrices(section)
         if prewarp == "none" or mats[0].shape[0] == 0:
@@ -243,14 +273,28 @@ def _branch_discrete(branch: Branch, method: str, T: float, prewarp, notes: list
             w = None
         used.append(None if w is None else w / (2.0 * math.pi))
         system = series_matrices(system, _bilinear(mats, T, w))
-    return system, used
+        if mats[0].shape[0]:
+            rows.append(_bilinear_row(section, w / math.tan(w * T / 2) if w else 2.0 / T))
+        else:
+            rows.append(np.array([section.num[0] / section.den[0], 0, 0, 1.0, 0, 0]))
+    return system, used, rows
+
+
+def _exact_cascade(rows, gain: float, label: str) -> Cascade:
+    """Branch cascade from exact per-section biquads, poles closest to |z| = 1 last."""
+    rows = [np.asarray(r, dtype=float) for r in rows] or [np.array([1.0, 0, 0, 1.0, 0, 0])]
+    radius = [float(np.max(np.abs(np.roots([1.0, r[4], r[5]])), initial=0.0)) for r in rows]
+    order = np.argsort(radius, kind="stable")
+    return _normalized(np.array([rows[k] for k in order]), gain, label)
 
 
 def _grid_error(form_response, ss: Matrices, T: float) -> float:
+    """Largest error on 400 frequencies up to Nyquist, relative to the response there (floored
+    at 1e-6 of the peak, so deep nulls such as a Tustin zero at z = −1 do not dominate)."""
     freq = np.linspace(0.001, 0.499, 400) / T
     ref = _ss_response(ss, np.exp(2j * np.pi * freq * T))
     got = form_response(freq)
-    scale = np.maximum(np.abs(ref), 1e-12 * np.max(np.abs(ref)) + 1e-300)
+    scale = np.maximum(np.abs(ref), 1e-6 * np.max(np.abs(ref)) + 1e-300)
     return float(np.max(np.abs(got - ref) / scale))
 
 
@@ -338,13 +382,19 @@ def _discrete_loop(loop, method: str, T: float, prewarp, notes: list[str]) -> Di
     parts, used = [], []
     branches = []
     for b, branch in enumerate(loop.branches):
-        mats, warp = _branch_discrete(branch, method, T, prewarp, notes)
+        mats, warp, rows = _branch_discrete(branch, method, T, prewarp, notes)
         parts.append(mats)
         used.extend(warp)
         label = branch.label or f"branch {b + 1}"
-        branches.append(cascade_from_state_space(mats, label))
+        if rows is None:
+            branches.append(cascade_from_state_space(mats, label))
+        else:
+            branches.append(_exact_cascade(rows, branch.gain, label))
     ss = _parallel_matrices(parts, 0.0)
-    cascade = cascade_from_state_space(ss, loop.pair)
+    if len(branches) == 1 and method == "tustin":
+        cascade = Cascade(branches[0].sos, branches[0].gain, loop.pair)
+    else:
+        cascade = cascade_from_state_space(ss, loop.pair)
     parallel = ParallelForm(0.0, tuple(branches))
     rate = 1.0 / T
     cascade_error = _grid_error(lambda f: cascade.response(f, rate), ss, T)

@@ -16,6 +16,8 @@ import numpy as np
 import pytest
 import scipy.signal
 from export_helpers import ppf_bank, resonance_design
+from hypothesis import given
+from hypothesis import strategies as st
 
 from dampctl.design import Branch, Design, Loop, Section
 from dampctl.discrete import discretize, transmission_zeros
@@ -273,3 +275,21 @@ def test_mimo_without_modal_form_falls_back_to_path_cascades():
     for f in (5.0, 60.0, 700.0):
         z = np.exp(2j * np.pi * f * T)
         np.testing.assert_allclose(sys_d(z), ref(z), rtol=1e-9, atol=1e-12)
+
+
+@given(
+    freq_hz=st.floats(1.0, 4000.0),
+    damping=st.floats(0.001, 0.9),
+    rate_hz=st.floats(2000.0, 100000.0),
+    method=st.sampled_from(["tustin", "zoh"]),
+)
+def test_stable_sections_stay_stable_and_sections_reproduce_the_state_space(
+    freq_hz, damping, rate_hz, method
+):
+    # Tustin maps the open left half plane into the unit disc and ZOH maps p to e^{pT}, so a
+    # stable continuous section must give poles with |z| < 1 (Franklin, Powell & Workman 1998)
+    design = ppf_bank([freq_hz], damping=damping)
+    loop = discretize(design, rate_hz, method=method).loops[0]
+    assert np.all(np.abs(np.linalg.eigvals(loop.state_space[0])) < 1.0)
+    assert np.all(np.abs(np.roots(loop.sos[0, 3:])) < 1.0)
+    assert loop.cascade_error < 1e-7
