@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import math
+from pathlib import Path
 from typing import TextIO
 
 from dampctl.commands._common import SAFETY_LINES, print_json, table
@@ -95,6 +96,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     """Run ``dampctl export``; exit 0 done, 1 refused or unstable or requirement unmet."""
     formats = _formats(args.format)
     prewarp = _prewarp(args.prewarp)
+    if Path(args.output).exists() and not Path(args.output).is_dir():
+        raise UsageError(f"-o: {args.output} exists and is not a folder")
     plant = load_plant(args.plant)
     design = load_design(args.design)
     design.check_plant(plant, source=args.design)

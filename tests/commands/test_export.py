@@ -170,3 +170,14 @@ def test_mimo_design_exports_modal_paths(tmp_path, plant):
     assert len(data["paths"]) == 4
     header = (tmp_path / "o" / "controller.h").read_text()
     assert "dampctl_f1__v1_command" in header
+
+
+def test_output_must_be_a_folder_and_existing_files_need_force(tmp_path, plant):
+    p, d = _files(tmp_path, plant, _dvf(plant))
+    code, _, err = _run([p, d, "--rate", "10000", "-o", d])
+    assert code == 2 and "is not a folder" in err
+    out_dir = str(tmp_path / "out")
+    assert _run([p, d, "--rate", "10000", "-o", out_dir])[0] == 0
+    code, _, err = _run([p, d, "--rate", "10000", "-o", out_dir])
+    assert code == 2 and "already exists (use --force to replace)" in err
+    assert _run([p, d, "--rate", "10000", "-o", out_dir, "--force"])[0] == 0
