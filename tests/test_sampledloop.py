@@ -83,3 +83,17 @@ def test_low_rate_and_aliasing_are_warned():
     assert any("modes 3 lie above the Nyquist" in w for w in v.warnings)
     # the aliased mode is still reported near its own frequency, not at its alias
     assert v.discrete_freq_hz[2] > rate / 2
+
+
+def test_modal_zoh_equals_scipy_cont2discrete():
+    # block-by-block exponential against scipy's exponential of the whole augmented matrix
+    import scipy.signal
+
+    from dampctl.sampledloop import _modal_zoh
+
+    plant = chain_plant([1.0, 2.0, 0.5, 1.5], [4e5, 3e5, 2e5, 5e5], damping=0.01)
+    mats = plant.statespace_matrices(["f1", "f4"], ["v1", "x4", "a2"])
+    ours = _modal_zoh(mats, 1 / 3e3)
+    ref = scipy.signal.cont2discrete(mats, 1 / 3e3, method="zoh")[:4]
+    for a, b in zip(ours, ref, strict=True):
+        np.testing.assert_allclose(a, b, rtol=1e-12, atol=1e-14)
