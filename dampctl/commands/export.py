@@ -1,0 +1,271 @@
+"""``dampctl export PLANT DESIGN --rate HZ -o DIR``: coefficients for the real-time target."""
+
+from __future__ import annotations
+
+import argparse
+import math
+from pathlib import Path
+from typing import TextIO
+
+from dampctl.commands._common import SAFETY_LINES, print_json, table
+from dampctl.design import load_design
+from dampctl.errors import UsageError
+from dampctl.export import export_design
+from dampctl.fileio import write_files
+from dampctl.plantfile import load_plant
+from dampctl.writers import FORMATS, export_files, payload, verification_dict
+
+NAME = "export"
+HELP = "discretize a design into second-order sections, verify the sampled loop, write files"
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    """Options of ``dampctl export``."""
+    parser.add_argument("plant", help="plant file (TOML)")
+    parser.add_argument("design", help="design file (JSON, from tuning)")
+    parser.add_argument(
+        "--rate",
+        type=float,
+        metavar="HZ",
+        help="sample rate of the target (Hz); default the plant file's requirements.sample_rate_hz",
+    )
+    parser.add_argument(
+        "--method",
+        choices=("tustin", "zoh"),
+        default="tustin",
+        help="discretization: Tustin (bilinear) or zero-order hold (default tustin)",
+    )
+    parser.add_argument(
+        "--prewarp",
+        default="auto",
+        metavar="auto|none|HZ",
+        help="Tustin prewarping: auto = each section at its own centre frequency, none, or "
+        "one frequency in Hz for all (default auto; ignored for zoh)",
+    )
+    parser.add_argument(
+        "--fixed",
+        choices=("none", "q15", "q31"),
+        default="none",
+        help="also round the coefficients to Q15 (16-bit) or Q31 (32-bit) words with a "
+        "per-section shift (default none)",
+    )
+    parser.add_argument(
+        "--tolerance",
+        type=float,
+        default=0.05,
+        metavar="FRACTION",
+        help="largest relative change of a section's pole damping that rounding may cause "
+        "(default 0.05)",
+    )
+    parser.add_argument(
+        "--format",
+        default=",".join(FORMATS),
+        metavar="LIST",
+        help="files to write, comma-separated from json, csv, c (default json,csv,c)",
+    )
+    parser.add_argument("-o", "--output", required=True, metavar="DIR", help="output folder")
+    parser.add_argument(
+        "--force", action="store_true", help="replace files of the same names in DIR"
+    )
+    parser.add_argument("--json", action="store_true", help="print JSON on stdout")
+
+
+def _prewarp(text: str):
+    if text in ("auto", "none"):
+        return text
+    try:
+        value = float(text)
+    except ValueError:
+        raise UsageError(
+            f"--prewarp: expected auto, none or a frequency in Hz, got {text!r}"
+        ) from None
+    if not math.isfinite(value) or value <= 0:
+        raise UsageError(f"--prewarp: frequency must be positive, got {text!r}") from None
+    return value
+
+
+def _formats(text: str) -> list[str]:
+    names = [p.strip() for p in text.split(",") if p.strip()]
+    bad = [n for n in names if n not in FORMATS]
+    if bad or not names:
+        raise UsageError(f"--format: expected some of {', '.join(FORMATS)}, got {text!r}") from None
+    return list(dict.fromkeys(names))
+
+
+def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    """Run ``dampctl export``; exit 0 done, 1 refused or unstable or requirement unmet."""
+    formats = _formats(args.format)
+    prewarp = _prewarp(args.prewarp)
+    if Path(args.output).exists() and not Path(args.output).is_dir():
+        raise UsageError(f"-o: {args.output} exists and is not a folder")
+    plant = load_plant(args.plant)
+    design = load_design(args.design)
+    design.check_plant(plant, source=args.design)
+    rate = args.rate if args.rate is not None else plant.requirements.sample_rate_hz
+    if rate is None:
+        raise UsageError("--rate is required (the plant file states no sample_rate_hz)")
+    result = export_design(
+        plant,
+        design,
+        rate,
+        method=args.method,
+        prewarp=prewarp,
+        fixed=args.fixed,
+        tolerance=args.tolerance,
+    )
+    failures = list(result.failures)
+    unmet = _unmet(plant, result)
+    stated = plant.requirements.sample_rate_hz
+    extra_notes = []
+    if stated is not None and abs(stated - rate) > 1e-9 * stated:
+        extra_notes.append(
+            f"the plant file states sample_rate_hz = {stated:.6g}; exported at {rate:.6g} Hz"
+        )
+    written = []
+    if not failures:
+        files = export_files(result, formats)
+        written = write_files(
+            args.output, files, inputs=[args.plant, args.design], replace=args.force
+        )
+    code = 1 if failures or unmet else 0
+    if args.json:
+        data = payload(result)
+        brief = {
+            "rate_hz": data["rate_hz"],
+            "method": data["method"],
+            "prewarp": data["prewarp"],
+            "fixed": data["fixed"],
+            "loops": [
+                {"pair": lp["pair"], "form": lp["form"], "gain": lp["gain"], "sos": lp["sos"]}
+                for lp in data["loops"]
+            ],
+            "paths": data["paths"],
+            "fixed_point": data["fixed_point"],
+            "verification": verification_dict(result),
+            "failures": failures,
+            "unmet": unmet,
+            "notes": data["notes"] + extra_notes,
+            "files": [str(p) for p in written],
+        }
+        print_json(brief, out)
+    else:
+        _human(result, failures, unmet, written, extra_notes, out)
+    for line in failures:
+        err.write(f"dampctl export: {line}\n")
+    return code
+
+
+def _unmet(plant, result) -> list[str]:
+    need = plant.requirements.min_damping
+    if need is None:
+        return []
+    v = result.fixed_verification or result.verification
+    modes = result.controller.target_modes or plant.requirements.modes
+    return [
+        f"mode {m}: sampled-loop damping {v.discrete_damping[m - 1]:.4g} < required {need:.4g}"
+        for m in modes
+        if 1 <= m <= plant.n_modes and v.discrete_damping[m - 1] < need
+    ]
+
+
+def _human(result, failures, unmet, written, extra_notes, out: TextIO) -> None:
+    c = result.controller
+    out.write(
+        f"{c.law} controller at {c.rate_hz:.6g} Hz, {c.method}"
+        + (f", prewarp {c.prewarp}" if c.method == "tustin" else "")
+        + (f", fixed point {result.fixed}" if result.fixed != "none" else "")
+        + "\n\n"
+    )
+    if c.loops:
+        rows = [
+            (
+                lp.pair,
+                lp.form,
+                len(lp.sos),
+                lp.gain,
+                f"{lp.cascade_error:.1e}",
+                f"{lp.parallel_error:.1e}",
+            )
+            for lp in c.loops
+        ]
+        headers = ["loop", "form", "sections", "gain", "cascade err", "parallel err"]
+        out.write(table(headers, rows) + "\n")
+    elif c.paths:
+        out.write(f"MIMO controller: {len(c.paths)} paths of parallel modal biquads\n")
+    else:
+        out.write("MIMO controller: discrete state space only (no modal realisation)\n")
+    if result.fixed != "none":
+        rows = []
+        for real in result.fixed_realisations:
+            for secs, peaks in zip(real.sections, real.peak_gains, strict=True):
+                for s, peak in zip(secs, peaks, strict=True):
+                    rows.append(
+                        (
+                            s.label,
+                            f"Q{s.shift}.{s.frac_bits}",
+                            s.after.radius,
+                            s.before.freq_hz,
+                            s.after.freq_hz,
+                            s.before.damping,
+                            s.after.damping,
+                            f"{100 * s.damping_change:+.2f} %",
+                            peak,
+                            s.accepted,
+                        )
+                    )
+        out.write("\nfixed-point sections (coefficient format Q<shift>.<fraction bits>)\n")
+        headers = [
+            "section",
+            "format",
+            "|z|",
+            "f (Hz)",
+            "f rounded",
+            "damping",
+            "rounded",
+            "change",
+            "peak gain",
+            "ok",
+        ]
+        out.write(table(headers, rows) + "\n")
+        out.write(
+            "peak gain: largest gain from the branch input to the section output; keep the "
+            "fixed-point input below full scale / peak gain\n"
+        )
+    v, fv = result.verification, result.fixed_verification
+    out.write(
+        "\nsampled closed loop (ZOH plant, one sample of computation delay) beside the "
+        "continuous design\n"
+    )
+    headers = ["mode", "target", "sampled f (Hz)", "continuous damping", "sampled damping"]
+    if fv is not None:
+        headers.append(result.fixed)
+    rows = []
+    for k, mode in enumerate(v.modes):
+        row = [
+            mode,
+            mode in c.target_modes,
+            v.discrete_freq_hz[k],
+            v.continuous_damping[k],
+            v.discrete_damping[k],
+        ]
+        if fv is not None:
+            row.append(fv.discrete_damping[k])
+        rows.append(row)
+    out.write(table(headers, rows) + "\n")
+    out.write(
+        f"\nstable: {'yes' if result.stable else 'NO'} (largest |z| {v.max_pole_radius:.6f})\n"
+    )
+    cross = f"{v.crossover_hz:.4g} Hz" if v.crossover_hz else "none"
+    out.write(
+        f"sample rate {v.rate_ratio:.3g}x the highest controlled mode; crossover {cross}; "
+        f"phase lost to hold and computation delay {v.phase_lost_deg:.3g} deg\n"
+    )
+    for note in (*c.notes, *extra_notes, *v.warnings):
+        out.write(f"note: {note}\n")
+    for line in (*failures, *unmet):
+        out.write(f"NOT MET: {line}\n")
+    if written:
+        out.write("\nwritten: " + ", ".join(str(p) for p in written) + "\n")
+    elif failures:
+        out.write("\nno files written\n")
+    out.write("\n" + "\n".join(SAFETY_LINES) + "\n")

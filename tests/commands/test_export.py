@@ -1,0 +1,183 @@
+"""``dampctl export``, run in-process."""
+
+from __future__ import annotations
+
+import io
+import json
+
+import numpy as np
+import pytest
+
+from dampctl.cli import main
+from dampctl.design import Branch, Design, Loop, Section
+from dampctl.plantfile import dump_plant
+from dampctl.testing import chain_plant
+
+
+@pytest.fixture(scope="module")
+def plant():
+    return chain_plant([1.0, 1.0, 1.0], [4e5, 4e5, 4e5], damping=0.005)
+
+
+def _dvf(plant):
+    g = 200.0
+    rolloff = Section((1.0,), (1 / (2 * np.pi * 2000.0), 1.0))
+    return Design(
+        law="dvf",
+        plant_fingerprint=plant.fingerprint,
+        actuators=("f3",),
+        sensors=("v3",),
+        target_modes=(1, 2, 3),
+        loops=(Loop("p3", "f3", "v3", g, branches=(Branch(gain=g, sections=(rolloff,)),)),),
+    )
+
+
+def _slow_ppf(plant):
+    # a PPF filter at 45 Hz with ζ = 0.01 on a 50 kHz target: θ = ωT ≈ 0.0057 rad, far too
+    # sensitive for Q1.14 coefficients (∂θ/∂a1 = 1/(2 r sin θ) ≈ 88)
+    w = 2 * np.pi * 45.0
+    branch = Branch(
+        gain=-0.2 * w**2,
+        sections=(Section((1.0,), (1.0, 2 * 0.01 * w, w**2)),),
+        label="mode 1 filter",
+    )
+    return Design(
+        law="ppf",
+        plant_fingerprint=plant.fingerprint,
+        actuators=("f3",),
+        sensors=("x3",),
+        target_modes=(1,),
+        loops=(Loop("q3", "f3", "x3", 0.2, branches=(branch,)),),
+    )
+
+
+def _files(tmp_path, plant, design):
+    (tmp_path / "plant.toml").write_text(dump_plant(plant))
+    (tmp_path / "design.json").write_text(design.to_json())
+    return str(tmp_path / "plant.toml"), str(tmp_path / "design.json")
+
+
+def _run(args):
+    out, err = io.StringIO(), io.StringIO()
+    code = main(["export", *args], stdout=out, stderr=err)
+    return code, out.getvalue(), err.getvalue()
+
+
+def test_export_writes_files_and_prints_safety(tmp_path, plant):
+    p, d = _files(tmp_path, plant, _dvf(plant))
+    code, out, err = _run([p, d, "--rate", "10000", "-o", str(tmp_path / "out")])
+    assert code == 0, err
+    assert sorted(f.name for f in (tmp_path / "out").iterdir()) == [
+        "controller.h",
+        "controller.json",
+        "sections.csv",
+    ]
+    assert "stable: yes" in out
+    assert "Safety:" in out and "emergency stop" in out
+
+
+def test_export_json_keys(tmp_path, plant):
+    p, d = _files(tmp_path, plant, _dvf(plant))
+    code, out, _ = _run(
+        [
+            p,
+            d,
+            "--rate",
+            "10000",
+            "--method",
+            "zoh",
+            "--fixed",
+            "q31",
+            "--format",
+            "json,csv",
+            "-o",
+            str(tmp_path / "out"),
+            "--json",
+        ]
+    )
+    assert code == 0
+    data = json.loads(out)
+    assert data["rate_hz"] == 10000.0 and data["method"] == "zoh"
+    assert data["loops"][0]["pair"] == "p3" and len(data["loops"][0]["sos"][0]) == 6
+    row = data["verification"]["modes"][0]
+    assert {"mode", "continuous_damping", "discrete_damping", "fixed_damping"} <= set(row)
+    assert len(data["files"]) == 2
+
+
+def test_oversensitive_q15_section_exits_1_naming_it(tmp_path, plant):
+    p, d = _files(tmp_path, plant, _slow_ppf(plant))
+    code, out, err = _run([p, d, "--rate", "50000", "--fixed", "q15", "-o", str(tmp_path / "o")])
+    assert code == 1
+    assert "loop q3, section 1: quantized pole radius" in err  # rounded onto |z| = 1
+    assert "no files written" in out and not (tmp_path / "o").exists()
+    code, _, err = _run([p, d, "--rate", "20000", "--fixed", "q15", "-o", str(tmp_path / "o")])
+    assert code == 1
+    assert "loop q3, section 1: damping ratio moves by" in err
+    code, _, err = _run([p, d, "--rate", "50000", "--fixed", "q31", "-o", str(tmp_path / "o")])
+    assert code == 0, err
+
+
+def test_fingerprint_mismatch_exits_2(tmp_path, plant):
+    other = chain_plant([1.0, 1.0, 1.0], [4e5, 4e5, 5e5], damping=0.005)
+    p, d = _files(tmp_path, plant, _dvf(other))
+    code, _, err = _run([p, d, "--rate", "10000", "-o", str(tmp_path / "out")])
+    assert code == 2
+    assert "plant_fingerprint" in err
+
+
+@pytest.mark.parametrize(
+    ("extra", "message"),
+    [
+        (["--prewarp", "fast"], "--prewarp: expected auto, none or a frequency"),
+        (["--format", "json,xml"], "--format: expected some of json, csv, c"),
+        (["--method", "zoh", "--prewarp", "100"], "Tustin only"),
+    ],
+)
+def test_bad_options_exit_2(tmp_path, plant, extra, message):
+    p, d = _files(tmp_path, plant, _dvf(plant))
+    code, _, err = _run([p, d, "--rate", "10000", "-o", str(tmp_path / "out"), *extra])
+    assert code == 2
+    assert message in err
+
+
+def test_rate_is_required_without_plant_rate(tmp_path, plant):
+    p, d = _files(tmp_path, plant, _dvf(plant))
+    code, _, err = _run([p, d, "-o", str(tmp_path / "out")])
+    assert code == 2 and "--rate is required" in err
+
+
+def test_mimo_design_exports_modal_paths(tmp_path, plant):
+    A = np.array([[-30.0, 400.0], [-400.0, -30.0]])
+    design = Design(
+        law="lqg",
+        plant_fingerprint=plant.fingerprint,
+        actuators=("f1", "f3"),
+        sensors=("v1", "v3"),
+        target_modes=(1,),
+        controller=(
+            A,
+            np.array([[1.0, 0.5], [0.0, 1.0]]),
+            np.array([[20.0, 0.0], [5.0, 10.0]]),
+            np.zeros((2, 2)),
+        ),
+    )
+    p, d = _files(tmp_path, plant, design)
+    code, out, err = _run(
+        [p, d, "--rate", "10000", "--fixed", "q31", "-o", str(tmp_path / "o"), "--json"]
+    )
+    assert code == 0, err
+    data = json.loads(out)
+    assert len(data["paths"]) == 4
+    header = (tmp_path / "o" / "controller.h").read_text()
+    assert "dampctl_f1__v1_command" in header
+
+
+def test_output_must_be_a_folder_and_existing_files_need_force(tmp_path, plant):
+    p, d = _files(tmp_path, plant, _dvf(plant))
+    code, _, err = _run([p, d, "--rate", "10000", "-o", d])
+    assert code == 2 and "is not a folder" in err
+    out_dir = str(tmp_path / "out")
+    assert _run([p, d, "--rate", "10000", "-o", out_dir])[0] == 0
+    code, _, err = _run([p, d, "--rate", "10000", "-o", out_dir])
+    assert code == 2 and "already exists (use --force to replace)" in err
+    assert _run([p, d, "--rate", "10000", "-o", out_dir, "--force"])[0] == 0
