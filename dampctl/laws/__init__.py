@@ -1,0 +1,22 @@
+"""Damping laws: each turns a plant and a choice of pairs into a :class:`~dampctl.design.Design`.
+
+Collocated, decentralized (one SISO loop per pair; ``design(plant, pairs, *, modes=None,
+target_damping=None, gain=None, delay_s=None, ...)``)
+    dvf
+        direct velocity feedback u = −g v (velocity sensor, or displacement sensor through a
+        band-limited differentiator), with a roll-off where the plant states a delay or
+        hardware bandwidth
+    iff
+        integral force feedback on an active strut with its own force sensor: leaky integrator
+        g/(s + ω_c), tuned from Preumont's maximum-damping result
+    ppf
+        positive position feedback: a bank of second-order filters, one per target mode, tuned
+        by the equal-damping (pole-coalescence) rule, with the static stability condition
+
+Model-based (MIMO)
+    lqg
+        observer-based controller on a reduced modal model (its own module)
+
+Sign convention for all laws: u = −K(s) y (negative feedback). Import the law modules
+directly (``from dampctl.laws import dvf``); nothing is imported here at package import.
+"""

@@ -1,0 +1,294 @@
+"""Gain search shared by the collocated laws: batched closed-loop eigenvalues, no models.
+
+Every candidate is a controller state space (A_c, B_c, C_c, D_c) with the loop delay (Padé)
+and the hardware roll-offs already folded in (:func:`dampctl.closedloop.lag_elements`). The
+closed-loop matrices of a batch are stacked and handed to one ``numpy.linalg.eigvals`` call;
+closed-loop poles are matched to the plant's modes by assignment
+(:func:`dampctl.closedloop.match_modes`).
+
+The search (:func:`search_gains`) works on per-loop gains ``g = s · base`` with a common scale
+s over a log grid (base normalizes each loop by what its pair sees), then refines s locally and
+finally each loop's gain one at a time (coordinate refinement). Either it maximizes the
+objective (the smallest closed-loop damping ratio over the target groups, unstable = −inf),
+taking the smallest gains within a hair of the maximum, or it finds the smallest gains that
+reach a target damping.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from dampctl.closedloop import closed_loop_matrix, lag_elements, match_modes, open_loop_poles
+
+__all__ = ["Evaluation", "LoopModel", "SearchResult", "search_gains", "stack_loops"]
+
+Matrices = tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]
+
+#: relative tolerance under which two objective values count as equal (prefer smaller gains)
+_TIE = 1e-3
+
+
+@dataclass(frozen=True)
+class Evaluation:
+    """Closed-loop facts of a batch of candidates.
+
+    Attributes
+    ----------
+    damping : ndarray, shape (n_eval, n_modes)
+        Damping ratio of the pole matched to each plant mode.
+    poles : ndarray of complex, shape (n_eval, n_modes)
+        Matched poles (rad/s).
+    stable : ndarray of bool, shape (n_eval,)
+    max_real : ndarray, shape (n_eval,)
+        Largest real part (1/s) of any closed-loop pole.
+    score : ndarray, shape (n_eval,)
+        Objective (−inf when unstable).
+    """
+
+    damping: np.ndarray
+    poles: np.ndarray
+    stable: np.ndarray
+    max_real: np.ndarray
+    score: np.ndarray
+
+
+@dataclass(frozen=True)
+class LoopModel:
+    """A plant's loop matrices with the hardware that lies between it and the controller.
+
+    Parameters
+    ----------
+    plant_mats : tuple of ndarray
+        (A, B, C, D) of the plant from the loops' actuators to their sensors.
+    open_poles : ndarray of complex
+        Open-loop upper-half-plane pole of each mode.
+    delay_s : float
+        Loop delay (s), folded in as a Padé approximant.
+    actuator_bandwidth_hz, sensor_bandwidth_hz : sequence of float or None
+        First-order hardware roll-off corners per loop (None: ideal).
+    score : callable
+        Objective over the damping ratios of a batch (n_eval, n_modes) -> (n_eval,).
+    pade_order : int
+        Order of the delay approximant.
+    """
+
+    plant_mats: Matrices
+    open_poles: np.ndarray
+    delay_s: float
+    actuator_bandwidth_hz: tuple[float | None, ...]
+    sensor_bandwidth_hz: tuple[float | None, ...]
+    score: Callable[[np.ndarray], np.ndarray]
+    pade_order: int = 2
+
+    @classmethod
+    def build(cls, plant, pairs, *, delay_s: float, score, pade_order: int = 2) -> LoopModel:
+        """Loop model of ``plant`` for the given pairs (see class parameters)."""
+        actuators = [p.actuator for p in pairs]
+        sensors = [p.sensor for p in pairs]
+        return cls(
+            plant_mats=plant.statespace_matrices(actuators, sensors),
+            open_poles=open_loop_poles(plant.omegas, plant.dampings),
+            delay_s=float(delay_s),
+            actuator_bandwidth_hz=tuple(plant.actuator(a).bandwidth_hz for a in actuators),
+            sensor_bandwidth_hz=tuple(plant.sensor(s).bandwidth_hz for s in sensors),
+            score=score,
+            pade_order=pade_order,
+        )
+
+    def effective(self, controller: Matrices) -> Matrices:
+        """The controller with the delay and the hardware roll-offs folded in."""
+        return lag_elements(
+            controller,
+            delay_s=self.delay_s,
+            actuator_bandwidth_hz=self.actuator_bandwidth_hz,
+            sensor_bandwidth_hz=self.sensor_bandwidth_hz,
+            pade_order=self.pade_order,
+        )
+
+    def evaluate(self, controllers: Sequence[Matrices]) -> Evaluation:
+        """Closed-loop facts of effective controllers of one size (one eigvals call)."""
+        stack = np.array([closed_loop_matrix(self.plant_mats, c) for c in controllers])
+        return self._facts(np.linalg.eigvals(stack))
+
+    def evaluate_gains(self, unit: Matrices, gains: np.ndarray) -> Evaluation:
+        """Closed-loop facts of a unit-gain effective controller scaled per loop.
+
+        Valid for decentralized loops: the effective controller is diagonal, so scaling its
+        input k by g_k scales loop k.
+        """
+        Ac, Bc, Cc, Dc = unit
+        gains = np.atleast_2d(np.asarray(gains, dtype=float))
+        return self.evaluate([(Ac, Bc * g[None, :], Cc, Dc * g[None, :]) for g in gains])
+
+    def _facts(self, eigenvalues: np.ndarray) -> Evaluation:
+        rows = [match_modes(self.open_poles, ev) for ev in eigenvalues]
+        damping = np.array([r.damping for r in rows])
+        stable = np.array([r.stable for r in rows])
+        score = np.where(stable, self.score(damping), -np.inf)
+        return Evaluation(
+            damping=damping,
+            poles=np.array([r.poles for r in rows]),
+            stable=stable,
+            max_real=np.array([r.max_real for r in rows]),
+            score=score,
+        )
+
+
+@dataclass(frozen=True)
+class SearchResult:
+    """Outcome of :func:`search_gains`.
+
+    Attributes
+    ----------
+    gains : ndarray, shape (n_loops,)
+        Chosen per-loop gains (the law's normalization).
+    score : float
+        Objective at the chosen gains (smallest target damping ratio).
+    best_score : float
+        Largest objective seen (the max-min damping the search found).
+    reached : bool
+        True when a target was given and reached (always True without a target).
+    evaluations : int
+        Closed-loop eigenvalue problems solved.
+    """
+
+    gains: np.ndarray
+    score: float
+    best_score: float
+    reached: bool
+    evaluations: int
+
+
+def search_gains(
+    evaluate: Callable[[np.ndarray], np.ndarray],
+    base: np.ndarray,
+    *,
+    target: float | None = None,
+    log_range: tuple[float, float] = (-4.0, 2.0),
+    points_per_decade: int = 6,
+    refine_loops: bool = True,
+) -> SearchResult:
+    """Search per-loop gains ``g = s · base`` (then loop by loop) for the damping objective.
+
+    Parameters
+    ----------
+    evaluate : callable
+        Maps gains (n_eval, n_loops) to objective values (n_eval,), −inf when unstable.
+    base : ndarray, shape (n_loops,)
+        Per-loop gain normalization (> 0).
+    target : float, optional
+        Damping ratio to reach with the smallest gains; None maximizes the objective.
+    log_range : (float, float), optional
+        log10 range of the common scale s.
+    points_per_decade : int, optional
+        Grid density of the common-scale scan.
+    refine_loops : bool, optional
+        Refine each loop's gain separately after the common scale (several loops only).
+
+    Returns
+    -------
+    SearchResult
+    """
+    base = np.asarray(base, dtype=float)
+    count = 0
+
+    def run(gains: np.ndarray) -> np.ndarray:
+        nonlocal count
+        count += gains.shape[0]
+        return np.asarray(evaluate(gains), dtype=float)
+
+    n = round((log_range[1] - log_range[0]) * points_per_decade) + 1
+    scales = np.logspace(log_range[0], log_range[1], n)
+    scores = run(scales[:, None] * base[None, :])
+    best_seen = float(np.max(scores))
+    reached = True
+    if target is not None and np.any(scores >= target):
+        k = int(np.argmax(scores >= target))
+        lo = scales[k - 1] if k > 0 else scales[0] / 10.0
+        hi = scales[k]
+        for _ in range(3):  # three batched bisection passes on the log scale
+            fine = np.logspace(np.log10(lo), np.log10(hi), 9)
+            values = run(fine[:, None] * base[None, :])
+            ok = values >= target
+            j = int(np.argmax(ok)) if np.any(ok) else len(fine) - 1
+            lo, hi = fine[max(j - 1, 0)], fine[j]
+        gains = hi * base
+        if refine_loops and base.size > 1:
+            gains = _reduce_loops(run, gains, target)
+        score = float(run(gains[None, :])[0])
+        best_seen = max(best_seen, score)
+        return SearchResult(gains, score, best_seen, True, count)
+    if target is not None:
+        reached = False
+    k = _smallest_best(scores)
+    scale, score = scales[k], float(scores[k])
+    lo, hi = scales[max(k - 1, 0)], scales[min(k + 1, n - 1)]
+    for _ in range(6):  # zoom around the best scale until it is fixed to ~1e-4
+        if hi / lo < 1.0 + 1e-4:
+            break
+        fine = np.logspace(np.log10(lo), np.log10(hi), 13)
+        fine_scores = run(fine[:, None] * base[None, :])
+        j = _smallest_best(fine_scores)
+        if fine_scores[j] >= score:
+            scale, score = fine[j], float(fine_scores[j])
+        lo, hi = fine[max(j - 1, 0)], fine[min(j + 1, fine.size - 1)]
+    gains = scale * base
+    if refine_loops and base.size > 1 and np.isfinite(score):
+        gains, score = _refine_loops(run, gains, score)
+    best_seen = max(best_seen, score)
+    return SearchResult(gains, score, best_seen, reached, count)
+
+
+def _smallest_best(scores: np.ndarray) -> int:
+    """Index of the first (smallest gain) score within the tie tolerance of the maximum."""
+    best = np.max(scores)
+    if not np.isfinite(best):
+        return 0
+    tol = _TIE * max(abs(best), 1e-6)
+    return int(np.argmax(scores >= best - tol))
+
+
+def _refine_loops(run, gains: np.ndarray, score: float, sweeps: int = 2):
+    factors = np.logspace(-0.5, 0.5, 11)
+    for _ in range(sweeps):
+        improved = False
+        for k in range(gains.size):
+            trial = np.repeat(gains[None, :], factors.size, axis=0)
+            trial[:, k] *= factors
+            values = run(trial)
+            j = _smallest_best(values)
+            tol = _TIE * max(abs(score), 1e-6)
+            if values[j] > score + tol:
+                gains, score, improved = trial[j], float(values[j]), True
+        if not improved:
+            break
+    return gains, score
+
+
+def _reduce_loops(run, gains: np.ndarray, target: float) -> np.ndarray:
+    factors = np.logspace(-1.0, 0.0, 11)[:-1]
+    for k in range(gains.size):
+        trial = np.repeat(gains[None, :], factors.size, axis=0)
+        trial[:, k] *= factors
+        ok = run(trial) >= target
+        if np.any(ok):
+            gains = trial[int(np.argmax(ok))]
+    return gains
+
+
+def stack_loops(loops) -> Matrices:
+    """Block-diagonal (A, B, C, D) of decentralized loops (loop k: input k, output k)."""
+    systems = [lp.statespace_matrices() for lp in loops]
+    parts = []
+    for k in range(4):
+        mats = [s[k] for s in systems]
+        out = np.zeros((sum(m.shape[0] for m in mats), sum(m.shape[1] for m in mats)))
+        r = c = 0
+        for m in mats:
+            out[r : r + m.shape[0], c : c + m.shape[1]] = m
+            r, c = r + m.shape[0], c + m.shape[1]
+        parts.append(out)
+    return tuple(parts)
