@@ -13,13 +13,13 @@ from collections.abc import Sequence
 from typing import TextIO
 
 from dampctl import __version__
-from dampctl.commands import check
+from dampctl.commands import check, tune
 from dampctl.errors import DampctlError
 
 __all__ = ["build_parser", "entry_point", "main"]
 
 #: subcommand modules, in the order of the job
-COMMANDS = (check,)
+COMMANDS = (check, tune)
 
 
 class _Parser(argparse.ArgumentParser):

@@ -1,0 +1,319 @@
+"""``dampctl tune PLANT --law dvf|iff|ppf|lqg ...``: design damping loops, write the design file."""
+
+from __future__ import annotations
+
+import argparse
+import math
+from typing import TextIO
+
+from dampctl.commands._common import SAFETY_LINES, mode_list, name_list, print_json, table
+from dampctl.errors import MissingFeatureError, UsageError
+from dampctl.fileio import write_text
+from dampctl.modetable import TABLE_HEADERS, closed_loop_table
+from dampctl.plantfile import load_plant
+
+NAME = "tune"
+HELP = "tune damping loops (dvf, iff, ppf on collocated pairs, or lqg) and write a design file"
+
+LAWS = ("dvf", "iff", "ppf", "lqg")
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    """Options of ``dampctl tune``."""
+    parser.add_argument("plant", help="plant file (TOML)")
+    parser.add_argument(
+        "--law",
+        required=True,
+        choices=LAWS,
+        help="damping law: dvf (velocity feedback), iff (integral force feedback), ppf "
+        "(positive position feedback) or lqg (model-based); required",
+    )
+    parser.add_argument(
+        "--pairs",
+        metavar="P1,P2",
+        help="pairs to close loops on, one loop each (required for dvf/iff/ppf; for lqg they "
+        "give the actuators and sensors)",
+    )
+    parser.add_argument(
+        "--actuators", metavar="A1,A2", help="lqg only: actuators to use (default from --pairs)"
+    )
+    parser.add_argument(
+        "--sensors", metavar="S1,S2", help="lqg only: sensors to use (default from --pairs)"
+    )
+    parser.add_argument(
+        "--modes",
+        metavar="1,2",
+        help="target modes, 1-based (e.g. 1,2 or 1-4; default the plant's required modes, or all)",
+    )
+    parser.add_argument(
+        "--target-damping",
+        type=float,
+        metavar="Z",
+        help="damping ratio to reach on the target modes with the smallest gains (default the "
+        "plant's min_damping; none: maximize the smallest damping)",
+    )
+    parser.add_argument(
+        "--gain",
+        metavar="G[,G2]",
+        help="fix the loop gain(s) instead of tuning: dvf N·s/m (force) or s (strut), iff rad/s "
+        "(Preumont's g), ppf the rule's normalized g; one value or one per pair (default: tune)",
+    )
+    parser.add_argument(
+        "--leak-hz",
+        type=float,
+        metavar="F",
+        help="iff only: integrator leak corner in Hz (default 0.1 x lowest target mode; 0 = pure "
+        "integrator)",
+    )
+    parser.add_argument(
+        "--order",
+        type=int,
+        metavar="N",
+        help="lqg only: controller model order (default the law's choice)",
+    )
+    parser.add_argument(
+        "--delay-s",
+        type=float,
+        metavar="T",
+        help="loop delay in s to tune and check against (default the plant's loop_delay_s plus "
+        "1.5 samples at its sample_rate_hz)",
+    )
+    parser.add_argument(
+        "-o", "--output", required=True, metavar="DESIGN", help="design file to write (JSON)"
+    )
+    parser.add_argument("--json", action="store_true", help="print JSON on stdout")
+
+
+def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    """Run ``dampctl tune``; exit 0, or 1 when the target damping is not met or unstable."""
+    plant = load_plant(args.plant)
+    design = make_design(plant, args)
+    path = write_text(args.output, design.to_json(), inputs=[args.plant])
+    modes = closed_loop_table(plant, design, delay_s=args.delay_s)
+    payload = tune_payload(plant, design, modes, design_file=str(path))
+    if args.json:
+        print_json(payload, out)
+    else:
+        _print_human(payload, modes, out)
+    return 0 if payload["stable"] and payload["target_met"] is not False else 1
+
+
+def make_design(plant, args: argparse.Namespace):
+    """Call the chosen law with the parsed options (the Python API does the work)."""
+    law = args.law
+    pairs = name_list(args.pairs, "--pairs")
+    modes = mode_list(args.modes) or None
+    if args.target_damping is not None and not 0.0 < args.target_damping < 1.0:
+        raise UsageError(f"--target-damping must be in (0, 1), got {args.target_damping}")
+    gain = _gains(args.gain)
+    if args.leak_hz is not None and law != "iff":
+        raise UsageError("--leak-hz applies to --law iff only")
+    if args.order is not None and law != "lqg":
+        raise UsageError("--order applies to --law lqg only")
+    if law != "lqg" and (args.actuators or args.sensors):
+        raise UsageError(f"--actuators/--sensors apply to --law lqg; {law} uses --pairs")
+    common = {"modes": modes, "target_damping": args.target_damping}
+    if law == "lqg":
+        if gain is not None:
+            raise UsageError("--gain does not apply to --law lqg")
+        actuators = name_list(args.actuators, "--actuators")
+        sensors = name_list(args.sensors, "--sensors")
+        if pairs:
+            found = [plant.pair(name) for name in pairs]
+            actuators = actuators or [p.actuator for p in found]
+            sensors = sensors or [p.sensor for p in found]
+        if not actuators or not sensors:
+            raise UsageError("--law lqg needs --pairs, or --actuators and --sensors")
+        return _lqg().design(plant, actuators, sensors, order=args.order, **common)
+    if not pairs:
+        raise UsageError(f"--law {law} needs --pairs P1[,P2...]")
+    common.update(gain=gain, delay_s=args.delay_s)
+    if law == "dvf":
+        from dampctl.laws import dvf
+
+        return dvf.design(plant, pairs, **common)
+    if law == "iff":
+        from dampctl.laws import iff
+
+        return iff.design(plant, pairs, leak_hz=args.leak_hz, **common)
+    from dampctl.laws import ppf
+
+    return ppf.design(plant, pairs, **common)
+
+
+def tune_payload(plant, design, modes, *, design_file: str | None = None) -> dict:
+    """The JSON form of a tuned design with its closed-loop modes (also used in reports).
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant.
+    design : Design
+        The design.
+    modes : ClosedLoopTable
+        Its closed-loop modes (:func:`dampctl.modetable.closed_loop_table`).
+    design_file : str, optional
+        Where the design was written.
+
+    Returns
+    -------
+    dict
+        Keys ``law``, ``plant``, ``plant_fingerprint``, ``pairs``, ``actuators``, ``sensors``,
+        ``loops``, ``stable``, ``max_real``, ``delay_s``, ``note``, ``target_modes``,
+        ``target_damping``, ``target_met``, ``min_damping``, ``modes``, ``controller_poles``,
+        ``info``, ``design_file``, ``warnings``.
+    """
+    info = dict(design.info)
+    units = list(info.get("gain_units", []))
+    loops = []
+    for k, lp in enumerate(design.loops):
+        loops.append(
+            {
+                "pair": lp.pair,
+                "actuator": lp.actuator,
+                "sensor": lp.sensor,
+                "gain": lp.gain,
+                "gain_unit": units[k] if k < len(units) else "",
+                "branches": [
+                    {
+                        "gain": b.gain,
+                        "label": b.label,
+                        "sections": [{"num": list(s.num), "den": list(s.den)} for s in b.sections],
+                    }
+                    for b in lp.branches
+                ],
+            }
+        )
+    target = info.get("target_damping")
+    smallest = modes.target_min_damping()
+    met = None if target is None or smallest is None else bool(smallest >= target * (1 - 1e-6))
+    table_dict = modes.to_dict()
+    warnings = list(info.get("warnings", []))
+    if not modes.stable and not any("UNSTABLE" in w for w in warnings):
+        warnings.append(
+            f"the closed loop is UNSTABLE (largest pole real part {modes.max_real:.4g} 1/s): do "
+            "not run it"
+        )
+    return {
+        "law": design.law,
+        "plant": plant.title,
+        "plant_fingerprint": design.plant_fingerprint,
+        "pairs": list(design.pairs),
+        "actuators": list(design.actuators),
+        "sensors": list(design.sensors),
+        "loops": loops,
+        "stable": table_dict["stable"],
+        "max_real": table_dict["max_real"],
+        "delay_s": table_dict["delay_s"],
+        "note": table_dict["note"],
+        "target_modes": list(design.target_modes),
+        "target_damping": target,
+        "target_met": met,
+        "min_damping": smallest,
+        "modes": table_dict["modes"],
+        "controller_poles": table_dict["controller_poles"],
+        "info": info,
+        "design_file": design_file,
+        "warnings": warnings,
+    }
+
+
+def _print_human(payload: dict, modes, out: TextIO) -> None:
+    title = payload["plant"] or "plant"
+    pairs = ", ".join(payload["pairs"]) or "-"
+    out.write(
+        f"{title}: {payload['law']} on {len(payload['pairs']) or len(payload['actuators'])} "
+        f"loop(s) ({pairs}); design written to {payload['design_file']}\n"
+    )
+    info = payload["info"]
+    if payload["loops"]:
+        out.write(f"\ntuning: {info.get('tuning', '-')}\n")
+        rows = [
+            [
+                lp["pair"],
+                lp["actuator"],
+                lp["sensor"],
+                lp["gain"],
+                lp["gain_unit"],
+                "; ".join(b["label"] for b in lp["branches"]),
+            ]
+            for lp in payload["loops"]
+        ]
+        out.write(table(["pair", "actuator", "sensor", "gain", "unit", "controller"], rows) + "\n")
+    out.write(f"\n{payload['note']}:\n")
+    out.write(table(list(TABLE_HEADERS), modes.table_rows()) + "\n")
+    poles = payload["controller_poles"]
+    if poles:
+        listing = ", ".join(f"{p['freq_hz']:.4g} Hz (damping {p['damping']:.3g})" for p in poles)
+        out.write(f"controller poles: {listing}\n")
+    out.write(f"stable: {'yes' if payload['stable'] else 'NO'}\n")
+    _print_law_facts(info, out)
+    target = payload["target_damping"]
+    if target is not None:
+        status = "met" if payload["target_met"] else "NOT met"
+        out.write(
+            f"\ntarget: damping >= {target:g} on mode(s) "
+            f"{', '.join(str(m) for m in payload['target_modes'])}: {status} "
+            f"(smallest {_num(payload['min_damping'])})\n"
+        )
+    else:
+        out.write(
+            f"\nsmallest damping on the target modes: {_num(payload['min_damping'])} "
+            "(no target stated)\n"
+        )
+    if payload["warnings"]:
+        out.write("\nwarnings:\n" + "".join(f"  - {w}\n" for w in payload["warnings"]))
+    out.write("\n" + "\n".join(SAFETY_LINES) + "\n")
+
+
+def _print_law_facts(info: dict, out: TextIO) -> None:
+    if "achievable" in info:
+        out.write(
+            f"\nIFF leak {info['leak_hz']:.4g} Hz; achievable damping per target mode "
+            "(Preumont, equal gains):\n"
+        )
+        rows = [
+            [a["mode"], a["zero_hz"], a["max_damping"], a["optimal_gain"], a["design_damping"]]
+            for a in info["achievable"]
+        ]
+        out.write(
+            table(["mode", "zero (Hz)", "max damping", "at gain (rad/s)", "design"], rows) + "\n"
+        )
+    if "filters" in info:
+        out.write(
+            f"\nPPF rule: {info['ppf_rule']}; rule damping {info['rule_damping']:.4g}; DC loop "
+            f"gain {info['dc_loop_gain']:.4g} (must be < 1)\n"
+        )
+        rows = [
+            [f["pair"], f["mode"], f["freq_hz"], f["damping"], f["gain"]] for f in info["filters"]
+        ]
+        out.write(table(["pair", "mode", "filter (Hz)", "filter damping", "gain"], rows) + "\n")
+    if info.get("roll_off_hz"):
+        out.write(f"\nroll-off corner {info['roll_off_hz']:.4g} Hz ({info['roll_off_rule']})\n")
+
+
+def _gains(text: str | None):
+    if text is None:
+        return None
+    try:
+        values = [float(part) for part in text.split(",") if part.strip()]
+    except ValueError:
+        raise UsageError(f"--gain: expected numbers like 50 or 50,80, got {text!r}") from None
+    if not values or not all(math.isfinite(v) for v in values):
+        raise UsageError(f"--gain: expected finite numbers, got {text!r}")
+    return values[0] if len(values) == 1 else values
+
+
+def _lqg():
+    import importlib
+    import importlib.util
+
+    if importlib.util.find_spec("dampctl.laws.lqg") is None:
+        raise MissingFeatureError(
+            "--law lqg needs dampctl.laws.lqg, which is not part of this installation"
+        )
+    return importlib.import_module("dampctl.laws.lqg")
+
+
+def _num(value) -> str:
+    return "-" if value is None else f"{value:.4g}"
