@@ -13,13 +13,13 @@ from collections.abc import Sequence
 from typing import TextIO
 
 from dampctl import __version__
-from dampctl.commands import check, tune
+from dampctl.commands import check, size, tune
 from dampctl.errors import DampctlError
 
 __all__ = ["build_parser", "entry_point", "main"]
 
 #: subcommand modules, in the order of the job
-COMMANDS = (check, tune)
+COMMANDS = (check, size, tune)
 
 
 class _Parser(argparse.ArgumentParser):

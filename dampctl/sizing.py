@@ -468,7 +468,8 @@ def _min_damping(plant, design, targets) -> float:
 def _cost(plant: ModalPlant, chosen: Sequence[str]) -> float:
     acts = {plant.pair(p).actuator for p in chosen}
     sens = {plant.pair(p).sensor for p in chosen}
-    return float(sum(plant.actuator(a).cost for a in acts) + sum(plant.sensor(s).cost for s in sens))
+    total = sum(plant.actuator(a).cost for a in acts) + sum(plant.sensor(s).cost for s in sens)
+    return float(total)
 
 
 def _margins(plant: ModalPlant, design) -> tuple[dict, ...]:
