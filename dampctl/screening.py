@@ -234,16 +234,16 @@ class SetEvaluator:
         """A_0 and W = U V of each set (affine case), or None when some loop is not affine."""
         n_sets, k = sets.shape
         m = self.n_ctrl[sets]
-        if np.any(m != m[:1, :1]):
+        if np.any(m != m[:1, :]):
             return None
-        m = int(m[0, 0]) if m.size else 0
+        sizes = [int(x) for x in m[0]] if m.size else []
+        offsets = np.concatenate([[0], np.cumsum(sizes)]).astype(int)
         n = self.A.shape[0]
-        tot = n + k * m
-        temps = [self.templates[p].matrices for p in range(len(self.templates))]
+        tot = n + int(offsets[-1])
+        temps = [t.matrices for t in self.templates]
         dc = np.array([t[3][0, 0] for t in temps])[sets]  # (n_sets, k)
-        kap = self.kappa[sets] / np.array([self.templates[p].unit_gain for p in range(len(temps))])[
-            sets
-        ]
+        units = np.array([t.unit_gain for t in self.templates])
+        kap = self.kappa[sets] / units[sets]
         D_ss = self.D[sets[:, :, None], sets[:, None, :]]  # (n_sets, k, k): sensor row, act col
         if np.any(np.abs(dc[:, :, None] * D_ss) > 0):
             return None
@@ -255,16 +255,17 @@ class SetEvaluator:
         V = np.zeros((n_sets, k, tot))
         U[:, :n, :] = B_s
         V[:, :, :n] = (kap * dc)[:, :, None] * C_s
-        if m:
-            Ac = np.array([t[0] for t in temps])[sets]  # (n_sets, k, m, m)
-            Bc = np.array([t[1][:, 0] for t in temps])[sets]  # (n_sets, k, m)
-            Cc = np.array([t[2][0, :] for t in temps])[sets]  # (n_sets, k, m)
-            for j in range(k):
-                sl = slice(n + j * m, n + (j + 1) * m)
-                A0[:, sl, sl] = Ac[:, j]
-                A0[:, sl, :n] = Bc[:, j, :, None] * C_s[:, j, None, :]
-                U[:, sl, :] = Bc[:, j, :, None] * D_ss[:, j, None, :]
-                V[:, j, sl] = kap[:, j, None] * Cc[:, j]
+        for j in range(k):
+            if not sizes[j]:
+                continue
+            sl = slice(n + offsets[j], n + offsets[j + 1])
+            Ac = np.array([temps[p][0] for p in sets[:, j]])  # (n_sets, m, m)
+            Bc = np.array([temps[p][1][:, 0] for p in sets[:, j]])  # (n_sets, m)
+            Cc = np.array([temps[p][2][0, :] for p in sets[:, j]])  # (n_sets, m)
+            A0[:, sl, sl] = Ac
+            A0[:, sl, :n] = Bc[:, :, None] * C_s[:, j, None, :]
+            U[:, sl, :] = Bc[:, :, None] * D_ss[:, j, None, :]
+            V[:, j, sl] = kap[:, j, None] * Cc
         return A0, U @ V
 
     def _matrices_generic(self, sets: np.ndarray, gammas: np.ndarray) -> list[np.ndarray]:
@@ -302,7 +303,19 @@ class SetEvaluator:
             Damping ratio; when the loop is unstable, the most negative damping of any pole.
         """
         sets = np.atleast_2d(np.asarray(sets, dtype=int))
-        return self._score(sets, gammas, self._assemble(sets))
+        gammas = np.asarray(gammas, dtype=float).reshape(sets.shape[0], -1)
+        out = np.empty(gammas.shape)
+        for rows in self._groups(sets):
+            out[rows] = self._score(sets[rows], gammas[rows], self._assemble(sets[rows]))
+        return out
+
+    def _groups(self, sets: np.ndarray) -> list[np.ndarray]:
+        """Row indices of sets whose loops have the same controller sizes, position by position."""
+        keys = self.n_ctrl[sets]
+        if sets.shape[0] == 0 or np.all(keys == keys[:1]):
+            return [np.arange(sets.shape[0])]
+        _, inverse = np.unique(keys, axis=0, return_inverse=True)
+        return [np.flatnonzero(inverse.ravel() == g) for g in range(inverse.max() + 1)]
 
     def _score(self, sets: np.ndarray, gammas: np.ndarray, assembled) -> np.ndarray:
         import time
@@ -398,6 +411,16 @@ class SetEvaluator:
         TunedSets
         """
         sets = np.atleast_2d(np.asarray(sets, dtype=int))
+        groups = self._groups(sets)
+        if len(groups) > 1:
+            gamma, score = np.empty(sets.shape[0]), np.empty(sets.shape[0])
+            for rows in groups:
+                part = self.tune(
+                    sets[rows], center=center, span_decades=span_decades, points=points,
+                    rounds=rounds,
+                )  # fmt: skip
+                gamma[rows], score[rows] = part.gamma, part.score
+            return TunedSets(sets=sets, gamma=gamma, score=score)
         lo, hi = np.log10(GAIN_RANGE[0]), np.log10(GAIN_RANGE[1])
         if center is None:
             grid = np.linspace(lo, hi, points)

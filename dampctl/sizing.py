@@ -9,7 +9,8 @@ the smallest k that meets the target damping and the plant's margin requirements
 Search
     Sets are compared by the smallest target damping with a common normalized gain tuned per
     set (:mod:`dampctl.screening`: batched eigenvalues, pilot-gain screening). When
-    C(n, k) ≤ ``exhaustive_limit`` every set is considered (``method = "exhaustive"``),
+    C(n, k) ≤ ``exhaustive_limit`` (and always for k = 1) every set is considered
+    (``method = "exhaustive"``),
     otherwise greedy forward selection from the previous row's set with pairwise-swap
     refinement (``"greedy + swaps"``). The few best sets of the search (``shortlist``) are then
     designed by the law itself — its own per-loop tuning, delay and roll-offs — and the row
@@ -280,7 +281,8 @@ def size_pairs(
     max_pairs : int, optional
         Largest set size K; default min(number of usable candidates, 4).
     exhaustive_limit : int, optional
-        Largest C(n, k) searched exhaustively; above it greedy selection with swaps is used.
+        Largest C(n, k) searched exhaustively; above it greedy selection with swaps is used
+        (single pairs are always searched exhaustively).
     candidates : sequence of str, optional
         Pair names to choose from; default every pair of the plant.
     shortlist : int, optional
@@ -339,7 +341,7 @@ def size_pairs(
     )
     steps = sum(
         math.comb(len(usable), k)
-        if math.comb(len(usable), k) <= exhaustive_limit
+        if math.comb(len(usable), k) <= exhaustive_limit or k == 1
         else 3 * len(usable) * k
         for k in range(1, limit + 1)
     )
@@ -348,7 +350,7 @@ def size_pairs(
     with Progress(steps, "sizing", stream=progress, enabled=progress is not None) as bar:
         for k in range(1, limit + 1):
             count = math.comb(len(usable), k)
-            if count <= exhaustive_limit:
+            if count <= exhaustive_limit or k == 1:
                 sets = all_sets(evaluator, usable, k)
                 ranked = search_exhaustive(evaluator, sets, progress=bar)
                 method, considered = "exhaustive", sets.shape[0]
