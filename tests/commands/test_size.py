@@ -72,7 +72,7 @@ def test_plots_are_written(tmp_path):
     code, out, _ = _run(
         ["size", str(_plant_file(tmp_path)), "--max-pairs", "2", "--plots", str(folder)]
     )
-    assert code == 0
+    assert code == 0 and "sizing_damping_cost.png" in out
     names = sorted(p.name for p in folder.iterdir())
     assert names == ["sizing_damping_cost.png", "sizing_mode_damping.png"]
     assert (folder / names[0]).read_bytes()[:4] == b"\x89PNG"
