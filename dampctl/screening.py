@@ -249,8 +249,11 @@ class SetEvaluator:
             return None
         B_s = np.transpose(self.B[:, sets], (1, 0, 2))  # (n_sets, n, k)
         C_s = self.C[sets]  # (n_sets, k, n)
-        A0 = np.zeros((n_sets, tot, tot))
-        A0[:, :n, :n] = self.A
+        if tot == n:  # no controller states: A_0 is the plant's A for every set (broadcast)
+            A0 = self.A[None]
+        else:
+            A0 = np.zeros((n_sets, tot, tot))
+            A0[:, :n, :n] = self.A
         U = np.zeros((n_sets, tot, k))
         V = np.zeros((n_sets, k, tot))
         U[:, :n, :] = B_s
@@ -361,22 +364,28 @@ class SetEvaluator:
         """
         poles = np.asarray(poles, dtype=complex)
         scale = np.maximum(np.abs(poles).max(axis=1, keepdims=True), 1.0)
-        upper = poles.imag >= -1e-9 * scale
-        # |ln(p/p_ol)| in real arithmetic: ln|p| - ln|p_ol| and the angle difference, both
-        # poles taken in the upper half plane (a real pole counts at angle 0 or pi)
-        log_mag = np.log(np.maximum(np.abs(poles), 1e-300))
-        angle = np.abs(np.angle(poles))
+        # keep the upper half plane (and the real axis) only, packed to the left
+        keep = poles.imag >= -1e-9 * scale
+        width = int(keep.sum(axis=1).max())
+        order = np.argsort(~keep, axis=1, kind="stable")[:, :width]
+        packed = np.take_along_axis(poles, order, axis=1)
+        valid = np.take_along_axis(keep, order, axis=1)
+        # |ln(p/p_ol)|² in real arithmetic: ln|p| − ln|p_ol| and the angle difference (a
+        # real pole counts at angle 0 or π)
+        log_mag = np.log(np.maximum(np.abs(packed), 1e-300))
+        angle = np.abs(np.angle(packed))
         d_mag = log_mag[:, None, :] - self._open_log_mag[None, :, None]
         d_ang = angle[:, None, :] - self._open_angle[None, :, None]
         cost = d_mag * d_mag + d_ang * d_ang
-        cost[np.broadcast_to(~upper[:, None, :], cost.shape)] = np.inf
+        if not valid.all():
+            cost[np.broadcast_to(~valid[:, None, :], cost.shape)] = np.inf
         choice = np.argmin(cost, axis=2)  # (n_cand, n_modes)
         ordered = np.sort(choice, axis=1)
         clash = np.flatnonzero(np.any(ordered[:, 1:] == ordered[:, :-1], axis=1))
         for row in clash:
             r, c = linear_sum_assignment(np.sqrt(cost[row]))
             choice[row, r] = c
-        chosen = np.take_along_axis(poles, choice, axis=1)
+        chosen = np.take_along_axis(packed, choice, axis=1)
         mag = np.abs(chosen)
         return np.where(mag > 0, -chosen.real / np.where(mag > 0, mag, 1.0), 1.0)
 
