@@ -32,13 +32,8 @@ import numpy as np
 from dampctl.closedloop import match_modes, open_loop_poles
 from dampctl.components import Actuator, Pair, Sensor
 from dampctl.plant import ModalPlant
-from dampctl.screening import (
-    GAIN_RANGE,
-    LoopTemplate,
-    SetEvaluator,
-    all_sets,
-    search_exhaustive,
-)
+from dampctl.screening import GAIN_RANGE, LoopTemplate, SetEvaluator
+from dampctl.setsearch import all_sets, search_exhaustive
 
 TARGETS = (1, 2, 3, 4, 5, 6)
 

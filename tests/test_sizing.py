@@ -3,10 +3,8 @@
 import io
 import json
 
-import numpy as np
 import pytest
-from scipy.linalg import solve_continuous_lyapunov
-from sizingplants import shape_plant, stage_plant, white_force
+from sizingplants import shape_plant, stage_plant
 
 from dampctl.cli import main
 from dampctl.closedloop import closed_loop_modes
@@ -14,8 +12,7 @@ from dampctl.components import Requirements
 from dampctl.errors import UsageError
 from dampctl.laws import dvf
 from dampctl.plantfile import dump_plant
-from dampctl.sizing import actuator_effort, size_pairs
-from dampctl.testing import sdof_plant
+from dampctl.sizing import size_pairs
 
 
 def _dominant_plant():
@@ -112,25 +109,6 @@ def test_greedy_rows_when_the_exhaustive_limit_is_small():
     assert result.rows[1].method == "greedy + swaps"
     full = size_pairs(_dominant_plant(), max_pairs=2)
     assert result.rows[1].achievable_min_damping <= full.rows[1].achievable_min_damping + 1e-9
-
-
-def test_effort_matches_closed_form_and_lyapunov_for_white_force():
-    # SDOF under a one-sided white force PSD S: σ_v² = S/(4 m c_total) (Crandall & Mark,
-    # Random Vibration in Mechanical Systems, 1963; from memory, σ_x² = S/(4kc) times ω²),
-    # so DVF u = −g v has σ_u = g √(S/(4 m (c + g))); scipy's Lyapunov solver agrees.
-    m, k, c, g, S = 2.0, 8e4, 8.0, 72.0, 1e-2
-    base = sdof_plant(m, k, c)
-    plant = type(base)(
-        modes=base.modes, sites=base.sites, actuators=base.actuators, sensors=base.sensors,
-        pairs=base.pairs, disturbances=[white_force(site="x", psd=S)],
-    )  # fmt: skip
-    design = dvf.design(plant, ["fv"], gain=g)
-    (_name, rms, _limit), = actuator_effort(plant, design)
-    assert rms == pytest.approx(g * np.sqrt(S / (4 * m * (c + g))), rel=5e-3)
-    A, B, C, _D = plant.statespace_matrices(["f"], ["v"])
-    A_cl = A - g * B @ C
-    P = solve_continuous_lyapunov(A_cl, -B @ B.T * (S / 2.0))
-    assert rms == pytest.approx(g * np.sqrt((C @ P @ C.T)[0, 0]), rel=5e-3)
 
 
 def test_no_disturbance_gives_no_effort():
