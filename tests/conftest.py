@@ -9,7 +9,10 @@ os.environ.setdefault("MPLBACKEND", "Agg")
 matplotlib.use("Agg")
 
 settings.register_profile(
-    "dampctl", max_examples=40, deadline=None, derandomize=True,
+    "dampctl",
+    max_examples=40,
+    deadline=None,
+    derandomize=True,
     suppress_health_check=[HealthCheck.too_slow],
 )
 settings.load_profile("dampctl")

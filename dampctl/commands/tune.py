@@ -19,7 +19,13 @@ LAWS = ("dvf", "iff", "ppf", "lqg")
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    """Options of ``dampctl tune``."""
+    """Options of ``dampctl tune``.
+
+    Parameters
+    ----------
+    parser : argparse.ArgumentParser
+        The subcommand's parser.
+    """
     parser.add_argument("plant", help="plant file (TOML)")
     parser.add_argument(
         "--law",
@@ -85,7 +91,20 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
-    """Run ``dampctl tune``; exit 0, or 1 when the target damping is not met or unstable."""
+    """Run ``dampctl tune``.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        Parsed options.
+    out, err : file-like
+        Output and error streams.
+
+    Returns
+    -------
+    int
+        0 done, 1 the loop is unstable or the target damping is not met.
+    """
     plant = load_plant(args.plant)
     design = make_design(plant, args)
     path = write_text(args.output, design.to_json(), inputs=[args.plant])
@@ -99,7 +118,19 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
 
 
 def make_design(plant, args: argparse.Namespace):
-    """Call the chosen law with the parsed options (the Python API does the work)."""
+    """Call the chosen law with the parsed options (the Python API does the work).
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant.
+    args : argparse.Namespace
+        Parsed ``dampctl tune`` options.
+
+    Returns
+    -------
+    Design
+    """
     law = args.law
     pairs = name_list(args.pairs, "--pairs")
     modes = mode_list(args.modes) or None

@@ -94,14 +94,26 @@ def finish(
     """Assemble the frozen :class:`Design` with the facts every law reports.
 
     ``evaluation`` is the single-row closed-loop evaluation of the final loops (with delay and
-    roll-offs).
+    roll-offs). ``info["min_damping"]`` is the smallest closed-loop damping ratio over all
+    target modes, ``info["objective_damping"]`` the value the tuning maximized (it leaves out
+    modes the pairs cannot damp: unseen modes and the surplus of a rank-deficient cluster);
+    ``target_reached`` compares the former with the target.
     """
     plant = request.plant
     damping = evaluation.damping[0]
     stable = bool(evaluation.stable[0])
     objective = request.groups.modes
-    achieved = float(request.groups.score(damping[None, :])[0]) if objective else None
+    tuned = float(request.groups.score(damping[None, :])[0]) if objective else None
+    achieved = float(np.min(damping[list(request.targets)]))
+    if request.target_damping is not None:
+        target_reached = bool(achieved >= request.target_damping * (1.0 - 1e-6))
     notes = list(request.groups.warnings) + list(warnings)
+    open_min = float(np.min(plant.dampings[list(request.targets)]))
+    if request.target_damping is not None and open_min >= request.target_damping:
+        notes.append(
+            f"the target modes already have damping >= {request.target_damping:g} without "
+            "control: the loops are not needed for this target"
+        )
     if not stable:
         notes.append(
             "the closed loop is UNSTABLE with the stated delay and roll-offs "
@@ -117,6 +129,7 @@ def finish(
         "target_damping": request.target_damping,
         "target_reached": target_reached,
         "min_damping": achieved,
+        "objective_damping": tuned,
         "closed_loop_damping": [
             {"mode": i + 1, "damping": float(damping[i])} for i in request.targets
         ],

@@ -83,6 +83,13 @@ def check_collocated(plant: ModalPlant, pair: Pair, law: str) -> None:
     force_row = plant.input_row(pair.actuator) * plant.modal_masses
     sensor_row, _order = plant.output_row(pair.sensor)
     nb, nc = np.linalg.norm(force_row), np.linalg.norm(sensor_row)
+    if nb == 0.0 or nc == 0.0:
+        which = "actuator" if nb == 0.0 else "sensor"
+        raise DesignRefused(
+            f"pair {pair.name!r} cannot damp anything: its {which}'s mode-shape values are all "
+            "zero (it sits at a node of every mode)",
+            field=f"pairs.{pair.name}",
+        )
     cosine = float(np.dot(force_row, sensor_row) / (nb * nc)) if nb > 0 and nc > 0 else 0.0
     if cosine > 1.0 - 1e-9:
         return
@@ -94,7 +101,8 @@ def check_collocated(plant: ModalPlant, pair: Pair, law: str) -> None:
     else:
         detail = "its sensor does not act at the actuator's place and direction"
     raise DesignRefused(
-        f"{law.upper()} needs a collocated pair, but pair {pair.name!r} is not: {detail}; "
+        f"{law.upper()} needs a collocated pair, but pair {pair.name!r} is not collocated: "
+        f"{detail}; "
         "collocated-law stability is not guaranteed there — use --law lqg "
         "(model-based) for non-collocated pairs",
         field=f"pairs.{pair.name}",

@@ -105,6 +105,7 @@ def design(
     gain: float | Sequence[float] | None = None,
     delay_s: float | None = None,
     leak_hz: float | None = None,
+    refine: bool = True,
 ) -> Design:
     """Design integral force feedback loops on strut/force-sensor pairs.
 
@@ -128,6 +129,10 @@ def design(
         Leak corner ω_c/2π (Hz) of the integrator; default ``DEFAULT_LEAK_FRACTION`` × the
         lowest target mode; 0 gives the pure integrator.
 
+    refine : bool, optional
+        Refine the gains loop by loop after the common-scale search (default). False keeps
+        the common scale only: about a third of the eigenvalue solves, for fast screening
+        (sizing), at some loss of damping with several loops.
     Returns
     -------
     Design
@@ -181,6 +186,7 @@ def design(
             lambda g: model.evaluate_gains(unit, g).score,
             np.ones(len(request.pairs)),
             target=request.target_damping,
+            refine_loops=refine,
             log_range=(low - 2.0, high + 1.5),
             points_per_decade=8,
         )

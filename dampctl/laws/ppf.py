@@ -96,7 +96,18 @@ def equal_damping_rule(omega: float, damping: float) -> tuple[float, float, floa
 
 
 def rule_damping(gain: float) -> float:
-    """Inverse of the rule's gain: ζ_c = ½ √(g / (1 − g)) for 0 < g < 1."""
+    """Inverse of the rule's gain: ζ_c = ½ √(g / (1 − g)).
+
+    Parameters
+    ----------
+    gain : float
+        Normalized rule gain g, 0 < g < 1.
+
+    Returns
+    -------
+    float
+        The closed-loop damping ratio ζ_c the rule gives at that gain.
+    """
     return 0.5 * math.sqrt(gain / (1.0 - gain))
 
 

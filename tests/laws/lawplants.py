@@ -16,9 +16,10 @@ def strut_plant(
     The strut ``s1`` (stiffness ka, ground to m1) has a force sensor ``F1``, a relative
     velocity sensor ``dv1`` and a relative displacement sensor ``dx1``; m2 has a force actuator
     ``f2`` and velocity/displacement sensors ``v2``/``x2``. Pairs: ``iff1`` (s1/F1), ``dvf1``
-    (s1/dv1), ``ppf1`` (s1/dx1), ``fv2`` (f2/v2), ``fx2`` (f2/x2), ``cross`` (s1/v2, not
-    collocated). With ``second`` = a stiffness, a second strut ``s2`` (force sensor ``F2``)
-    sits in parallel with k2, with pairs ``iff2`` (s2/F2) and ``mixed`` (s2/F1).
+    (s1/dv1), ``ppf1`` (s1/dx1), ``fv2`` (f2/v2), ``fx2`` (f2/x2), ``cross`` (s1/v2) and
+    ``crossx`` (s1/x2), not collocated. With ``second`` = a stiffness, a second strut ``s2``
+    (force sensor ``F2``) sits in parallel with k2, with pairs ``iff2`` (s2/F2) and ``mixed``
+    (s2/F1).
     """
     M = np.diag([m1, m2])
     k2 = k2 + (second or 0.0)
@@ -45,6 +46,7 @@ def strut_plant(
             Pair("fv2", "f2", "v2"),
             Pair("fx2", "f2", "x2"),
             Pair("cross", "s1", "v2"),
+            Pair("crossx", "s1", "x2"),
         ],
         requirements=requirements or Requirements(),
         title="two-mass strut",

@@ -3,7 +3,7 @@
 import control
 import numpy as np
 import pytest
-from hypothesis import given
+from hypothesis import assume, given
 from hypothesis import strategies as st
 from lawplants import cluster_plant, strut_plant
 
@@ -189,6 +189,15 @@ def test_refuses_non_collocated_and_force_sensor_pairs():
         dvf.design(plant, ["cross"])
     with pytest.raises(DesignRefused, match="--law iff"):
         dvf.design(plant, ["iff1"])
+    nodal = type(plant)(
+        modes=plant.modes,
+        sites={**plant.sites, "node": [0.0, 0.0]},
+        actuators=[*plant.actuators, type(plant.actuators[1])("fn", "force", site="node")],
+        sensors=[*plant.sensors, type(plant.sensors[3])("vn", "velocity", site="node")],
+        pairs=[*plant.pairs, type(plant.pairs[0])("pn", "fn", "vn")],
+    )
+    with pytest.raises(DesignRefused, match="cannot damp anything"):
+        dvf.design(nodal, ["pn"])
     with pytest.raises(UsageError, match="one gain or 2 gains"):
         dvf.design(plant, ["dvf1", "fv2"], gain=[1.0, 2.0, 3.0])
 
@@ -198,3 +207,37 @@ def test_strut_with_relative_velocity_sensor_damps():
     design = dvf.design(plant, ["dvf1"])
     assert design.info["stable"] and design.info["min_damping"] > 0.01
     assert design.info["gain_units"] == ["m/(m/s)"]
+
+
+@given(
+    freqs=st.lists(st.floats(1.0, 1e4), min_size=1, max_size=8),
+    shape=st.lists(st.floats(-2.0, 2.0), min_size=8, max_size=8),
+    damping=st.floats(1e-4, 0.1),
+    log_gain=st.floats(-4.0, 3.0),
+)
+def test_ideal_dvf_stable_on_random_modal_plants(freqs, shape, damping, log_gain):
+    # Balas 1979 (from memory): any positive collocated velocity gain on a passive modal plant
+    # leaves every mode stable, with damping not below its open-loop value at small gain.
+    from dampctl.components import Actuator, Mode, Pair, Sensor
+    from dampctl.plant import ModalPlant
+
+    n = len(freqs)
+    assume(np.any(np.abs(shape[:n]) > 1e-3))
+    plant = ModalPlant(
+        modes=[Mode(f, damping) for f in freqs],
+        sites={"a": shape[:n]},
+        actuators=[Actuator("f", "force", site="a")],
+        sensors=[Sensor("v", "velocity", site="a")],
+        pairs=[Pair("fv", "f", "v")],
+    )
+    design = dvf.design(plant, ["fv"], gain=10.0**log_gain, delay_s=0.0)
+    modes = closed_loop_modes(plant, design, delay_s=0.0)
+    assert modes.stable
+    small = dvf.design(plant, ["fv"], gain=1e-6, delay_s=0.0)
+    assert np.all(closed_loop_modes(plant, small).damping >= plant.dampings - 1e-9)
+
+
+def test_target_already_met_without_control_is_said():
+    design = dvf.design(_sdof(), ["fv"], target_damping=0.005)
+    assert design.info["target_reached"] is True
+    assert any("without control" in w for w in design.info["warnings"])

@@ -1,0 +1,249 @@
+"""``dampctl tune`` in-process: each law, refusals, file output, JSON keys, exit codes."""
+
+import io
+import json
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "laws"))
+from lawplants import cluster_plant, strut_plant
+
+from dampctl.cli import main
+from dampctl.closedloop import closed_loop_modes
+from dampctl.commands import tune
+from dampctl.commands._common import SAFETY_LINES
+from dampctl.components import Requirements
+from dampctl.design import load_design
+from dampctl.plantfile import dump_plant, load_plant
+from dampctl.testing import chain_plant
+
+
+def _run(*argv):
+    out, err = io.StringIO(), io.StringIO()
+    code = main(["tune", *map(str, argv)], stdout=out, stderr=err)
+    return code, out.getvalue(), err.getvalue()
+
+
+@pytest.fixture
+def strut_file(tmp_path):
+    plant = strut_plant(
+        damping=0.002, requirements=Requirements(min_damping=0.01, sample_rate_hz=20.0)
+    )
+    path = tmp_path / "strut.toml"
+    path.write_text(dump_plant(plant))
+    return path
+
+
+@pytest.fixture
+def chain_file(tmp_path):
+    path = tmp_path / "chain.toml"
+    path.write_text(dump_plant(chain_plant([1.0] * 4, [1e4] * 4, damping=0.005)))
+    return path
+
+
+REQUIRED = {
+    "law",
+    "pairs",
+    "loops",
+    "stable",
+    "modes",
+    "controller_poles",
+    "design_file",
+    "warnings",
+}
+
+
+@pytest.mark.parametrize(
+    ("law", "pairs", "extra"),
+    [("dvf", "dvf1", []), ("iff", "iff1", ["--leak-hz", "0.005"]), ("ppf", "ppf1", [])],
+)
+def test_each_law_writes_a_design_and_json(strut_file, tmp_path, law, pairs, extra):
+    target = tmp_path / f"{law}.json"
+    code, out, err = _run(
+        strut_file, "--law", law, "--pairs", pairs, "-o", target, "--json", *extra
+    )
+    assert code == 0, err
+    payload = json.loads(out)
+    assert REQUIRED <= payload.keys()
+    assert payload["law"] == law and payload["pairs"] == [pairs]
+    assert payload["loops"][0]["pair"] == pairs and "gain" in payload["loops"][0]
+    assert payload["stable"] is True and payload["target_met"] is True
+    assert payload["design_file"] == str(target)
+    assert payload["delay_s"] == pytest.approx(1.5 / 20.0)
+    assert "loop delay" in payload["note"]
+    # the design file reads back and belongs to the plant
+    plant = load_plant(strut_file)
+    design = load_design(target)
+    design.check_plant(plant)
+    assert design.law == law
+    # modes are those of closed_loop_modes with the plant's delay (assignment, not sort)
+    matched = closed_loop_modes(plant, design)
+    np.testing.assert_allclose(
+        [m["closed_damping"] for m in payload["modes"]], matched.damping, rtol=1e-12
+    )
+    assert [m["mode"] for m in payload["modes"]] == [1, 2]
+    assert {"mode", "open_freq_hz", "open_damping", "closed_freq_hz", "closed_damping"} <= (
+        payload["modes"][0].keys()
+    )
+    assert len(payload["controller_poles"]) == matched.other_poles.size
+    if law == "iff":
+        assert payload["info"]["leak_hz"] == 0.005
+        assert len(payload["info"]["achievable"]) == 2
+
+
+def test_human_output_has_table_target_and_safety(chain_file, tmp_path):
+    code, out, _ = _run(
+        chain_file,
+        "--law",
+        "dvf",
+        "--pairs",
+        "p1,p4",
+        "--modes",
+        "1,2",
+        "--target-damping",
+        "0.05",
+        "-o",
+        tmp_path / "d.json",
+    )
+    assert code == 0
+    assert "closed damping" in out and "open (Hz)" in out
+    assert "target: damping >= 0.05 on mode(s) 1, 2: met" in out
+    for line in SAFETY_LINES:
+        assert line in out
+
+
+def test_target_not_met_exits_one(strut_file, tmp_path):
+    code, out, _ = _run(
+        strut_file,
+        "--law",
+        "iff",
+        "--pairs",
+        "iff1",
+        "--target-damping",
+        "0.5",
+        "-o",
+        tmp_path / "d.json",
+    )
+    assert code == 1
+    assert "NOT met" in out and "not reached" in out
+
+
+def test_ppf_gain_above_static_limit_is_reported_unstable(strut_file, tmp_path):
+    code, out, _ = _run(
+        strut_file,
+        "--law",
+        "ppf",
+        "--pairs",
+        "ppf1",
+        "--modes",
+        "1",
+        "--gain",
+        "1.2",
+        "-o",
+        tmp_path / "d.json",
+        "--json",
+    )
+    payload = json.loads(out)
+    assert code == 1
+    assert payload["stable"] is False and payload["info"]["static_stability"] is False
+    assert any("static stability condition broken" in w for w in payload["warnings"])
+
+
+def test_refusals_point_to_the_right_law(strut_file, tmp_path):
+    target = tmp_path / "d.json"
+    for law, pair in (("dvf", "cross"), ("ppf", "crossx")):
+        code, _, err = _run(strut_file, "--law", law, "--pairs", pair, "-o", target)
+        assert code == 2 and "--law lqg" in err and "not collocated" in err
+    code, _, err = _run(strut_file, "--law", "iff", "--pairs", "fv2", "-o", target)
+    assert code == 2 and "strut with its own force sensor" in err
+    assert not target.exists()
+
+
+def test_refuses_to_write_over_the_plant(strut_file):
+    before = strut_file.read_text()
+    code, _, err = _run(strut_file, "--law", "iff", "--pairs", "iff1", "-o", strut_file)
+    assert code == 2 and "refusing to write over the input" in err
+    assert strut_file.read_text() == before
+
+
+@pytest.mark.parametrize(
+    ("argv", "message"),
+    [
+        (["--law", "dvf", "--pairs", "dvf1", "--leak-hz", "1"], "--leak-hz applies"),
+        (["--law", "dvf", "--pairs", "dvf1", "--gain", "x"], "--gain: expected numbers"),
+        (["--law", "dvf"], "needs --pairs"),
+        (["--law", "dvf", "--pairs", "dvf1", "--order", "4"], "--order applies"),
+        (["--law", "dvf", "--pairs", "dvf1", "--modes", "7"], "mode 7 does not exist"),
+        (["--law", "dvf", "--pairs", "nope"], "unknown pair 'nope'"),
+    ],
+)
+def test_bad_options(strut_file, tmp_path, argv, message):
+    code, _, err = _run(strut_file, *argv, "-o", tmp_path / "d.json")
+    assert code == 2 and message in err
+
+
+def test_one_two_four_pairs(chain_file, tmp_path):
+    seen = []
+    for pairs in ("p1", "p1,p4", "p1,p2,p3,p4"):
+        code, out, _ = _run(
+            chain_file, "--law", "dvf", "--pairs", pairs, "--json", "-o", tmp_path / "d.json"
+        )
+        payload = json.loads(out)
+        assert code == 0 and len(payload["loops"]) == len(pairs.split(","))
+        seen.append(payload["min_damping"])
+    assert seen[0] <= seen[1] + 1e-9 <= seen[2] + 2e-9
+
+
+def test_cluster_shortfall_is_printed(tmp_path):
+    path = tmp_path / "cluster.toml"
+    path.write_text(dump_plant(cluster_plant()))
+    code, out, _ = _run(
+        path, "--law", "dvf", "--pairs", "pc", "--modes", "1,2", "-o", tmp_path / "d.json"
+    )
+    assert code == 0
+    assert "modes 1, 2 cannot all be damped" in out
+
+
+def test_lqg_missing_module_is_a_clear_error(strut_file, tmp_path, monkeypatch):
+    import importlib.util
+
+    real = importlib.util.find_spec
+    monkeypatch.setattr(
+        importlib.util,
+        "find_spec",
+        lambda name, *a: None if name == "dampctl.laws.lqg" else real(name, *a),
+    )
+    code, _, err = _run(strut_file, "--law", "lqg", "--pairs", "fv2", "-o", tmp_path / "d.json")
+    assert code == 2 and "dampctl.laws.lqg" in err
+
+
+def test_lqg_gets_actuators_and_sensors_from_pairs(strut_file, tmp_path, monkeypatch):
+    calls = {}
+
+    class FakeLqg:
+        @staticmethod
+        def design(plant, actuators, sensors, *, modes=None, target_damping=None, order=None):
+            calls.update(actuators=actuators, sensors=sensors, order=order, modes=modes)
+            from dampctl.laws import dvf
+
+            return dvf.design(plant, ["fv2"], gain=1.0)
+
+    monkeypatch.setattr(tune, "_lqg", lambda: FakeLqg)
+    code, _, err = _run(
+        strut_file,
+        "--law",
+        "lqg",
+        "--pairs",
+        "fv2",
+        "--order",
+        "4",
+        "--modes",
+        "2",
+        "-o",
+        tmp_path / "d.json",
+    )
+    assert code in (0, 1), err
+    assert calls == {"actuators": ["f2"], "sensors": ["v2"], "order": 4, "modes": [2]}
