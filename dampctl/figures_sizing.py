@@ -108,7 +108,18 @@ def plot_mode_damping(result, ax=None) -> dict:
 
 
 def sizing_pngs(result) -> dict[str, bytes]:
-    """PNG bytes of both sizing figures, keyed by file name."""
+    """PNG bytes of both sizing figures, keyed by file name.
+
+    Parameters
+    ----------
+    result : SizingResult
+        The sizing result.
+
+    Returns
+    -------
+    dict of str to bytes
+        ``sizing_damping_cost.png`` and ``sizing_mode_damping.png``.
+    """
     out = {}
     for name, plot in (
         ("sizing_damping_cost.png", plot_damping_and_cost),

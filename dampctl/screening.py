@@ -92,7 +92,18 @@ class LoopTemplate:
         return self.matrices[0].shape[0]
 
     def response(self, s: np.ndarray) -> np.ndarray:
-        """K(s) at complex frequencies ``s`` (rad/s)."""
+        """K(s) at complex frequencies.
+
+        Parameters
+        ----------
+        s : array_like of complex
+            Complex frequencies (rad/s).
+
+        Returns
+        -------
+        ndarray of complex
+            K(s), same length as ``s``.
+        """
         Ac, Bc, Cc, Dc = self.matrices
         s = np.atleast_1d(np.asarray(s, dtype=complex))
         if Ac.shape[0] == 0:
@@ -458,7 +469,20 @@ class SetEvaluator:
         return TunedSets(sets=sets, gamma=10.0**best_log, score=best)
 
     def closed_loop(self, members: Sequence[int], gamma: float) -> np.ndarray:
-        """Closed-loop damping of every plant mode for one set at γ (matched by assignment)."""
+        """Closed-loop damping of every plant mode for one set at γ (matched by assignment).
+
+        Parameters
+        ----------
+        members : sequence of int
+            Candidate indices of the set.
+        gamma : float
+            Normalized gain γ.
+
+        Returns
+        -------
+        ndarray, shape (n_modes,)
+            Damping ratio of the pole matched to each mode.
+        """
         sets = np.asarray([list(members)], dtype=int)
         assembled = self._assemble(sets)
         if assembled is not None:

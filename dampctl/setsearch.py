@@ -25,7 +25,22 @@ def _disjoint(evaluator: SetEvaluator, members: Sequence[int]) -> bool:
 
 
 def all_sets(evaluator: SetEvaluator, candidates: Sequence[int], k: int) -> np.ndarray:
-    """Every k-subset of ``candidates`` whose loops share no hardware, shape (n_sets, k)."""
+    """Every k-subset of the candidates whose loops share no actuator or sensor.
+
+    Parameters
+    ----------
+    evaluator : SetEvaluator
+        Supplies the loops' hardware.
+    candidates : sequence of int
+        Candidate indices.
+    k : int
+        Set size.
+
+    Returns
+    -------
+    ndarray of int, shape (n_sets, k)
+        The sets, each sorted, in lexicographic order.
+    """
     import itertools
 
     rows = [c for c in itertools.combinations(sorted(candidates), k) if _disjoint(evaluator, c)]

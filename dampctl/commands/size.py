@@ -16,7 +16,13 @@ HELP = "find how many pairs a structure needs and where, with the cost of each e
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    """Options of ``dampctl size``."""
+    """Options of ``dampctl size``.
+
+    Parameters
+    ----------
+    parser : argparse.ArgumentParser
+        The subcommand's parser.
+    """
     parser.add_argument("plant", help="plant file (TOML)")
     parser.add_argument(
         "--law", choices=LAWS, default="dvf", help="collocated damping law (default dvf)"
@@ -64,7 +70,20 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
-    """Run ``dampctl size``; exit 0 with a recommendation, 1 when no count up to K meets it."""
+    """Run ``dampctl size``.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        Parsed options.
+    out, err : file-like
+        Output and progress/error streams.
+
+    Returns
+    -------
+    int
+        0 with a recommendation, 1 when no count up to K meets the requirements.
+    """
     plant = load_plant(args.plant)
     if args.target_damping is not None and not 0.0 < args.target_damping < 1.0:
         raise UsageError(f"--target-damping must be in (0, 1), got {args.target_damping}")
