@@ -274,7 +274,8 @@ def size_pairs(
     target_damping : float, optional
         Damping ratio to reach on every target mode; default the plant's ``min_damping``.
     max_pairs : int, optional
-        Largest set size K; default min(number of usable candidates, 4).
+        Largest set size K; default min(number of usable candidates, 4). Rows stop earlier
+        when no larger set exists without two loops sharing an actuator or a sensor.
     exhaustive_limit : int, optional
         Largest C(n, k) searched exhaustively; above it greedy selection with swaps is used
         (single pairs are always searched exhaustively).
@@ -347,10 +348,15 @@ def size_pairs(
             count = math.comb(len(usable), k)
             if count <= exhaustive_limit or k == 1:
                 sets = all_sets(evaluator, usable, k)
+                if sets.shape[0] == 0:
+                    break  # every k-set would share an actuator or a sensor
                 ranked = search_exhaustive(evaluator, sets, progress=bar)
                 method, considered = "exhaustive", sets.shape[0]
             else:
-                ranked = search_greedy(evaluator, usable, k, start=previous, progress=bar)
+                try:
+                    ranked = search_greedy(evaluator, usable, k, start=previous, progress=bar)
+                except UsageError:
+                    break  # no k loops without shared hardware
                 method, considered = "greedy + swaps", ranked.sets.shape[0]
             row = _row(
                 plant,

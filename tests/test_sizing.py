@@ -167,3 +167,12 @@ def test_pairs_a_law_cannot_use_are_excluded_with_the_reason():
     assert set(reasons) == {"cross"} and "collocated" in reasons["cross"]
     with pytest.raises(UsageError, match="no candidate pair suits iff"):
         size_pairs(plant, law="iff", max_pairs=1)
+
+
+def test_rows_stop_where_every_larger_set_would_share_hardware():
+    # p1 (velocity) and q1 (displacement) share actuator f1: no 2-set of them exists
+    from dampctl.testing import chain_plant
+
+    plant = chain_plant([1.0, 0.5], [5e5, 2e5], damping=0.01)
+    result = size_pairs(plant, max_pairs=2, candidates=["p1", "q1"])
+    assert [r.pairs_used for r in result.rows] == [1]
