@@ -71,3 +71,42 @@ def test_tuned_equal_chain_reaches_coalescence_damping():
     tuned = ev.tune(np.array([[0]]), rounds=14)
     assert tuned.score[0] == pytest.approx(0.5, abs=2e-3)
     assert tuned.gamma[0] * ev.kappa[0] == pytest.approx(2 * np.sqrt(k * m), rel=2e-2)
+
+
+def _with(plant, *, pairs=None, requirements=None):
+    return type(plant)(
+        modes=plant.modes, sites=plant.sites, actuators=plant.actuators, sensors=plant.sensors,
+        pairs=plant.pairs if pairs is None else pairs,
+        requirements=plant.requirements if requirements is None else requirements,
+    )  # fmt: skip
+
+
+@pytest.mark.parametrize("case", ["delay", "feedthrough"])
+def test_loops_with_controller_states_match_closed_loop_modes(case):
+    # delay: roll-off and Padé states (affine assembly); feedthrough: a displacement pair with
+    # a static-gain correction (D ≠ 0) through the differentiator (D_c ≠ 0), built loop by loop
+    from dampctl.closedloop import closed_loop_modes
+    from dampctl.components import Pair, Requirements
+
+    plant = chain_plant([1.0, 0.5, 0.8], [5e5, 2e5, 3e5], damping=0.01)
+    if case == "delay":
+        plant = _with(plant, requirements=Requirements(loop_delay_s=3e-4))
+        names = ["p1", "p3"]
+    else:
+        static = float(np.sum(plant.sites["m1"] ** 2 / plant.omegas**2)) * 1.05
+        plant = _with(plant, pairs=[*plant.pairs[:1], Pair("q1", "f1", "x1", static_gain=static),
+                                    *plant.pairs[2:4]])  # fmt: skip
+        names = ["q1", "p2"]
+    templates = [
+        loop_template(plant, dvf.design(plant, [n], modes=[1, 2, 3], gain=1.0)) for n in names
+    ]
+    ev = SetEvaluator(plant, templates, [1, 2, 3])
+    assert (ev._assemble(np.array([[0, 1]])) is None) == (case == "feedthrough")
+    for gamma in (0.05, 0.4):
+        gains = gamma * ev.kappa
+        design = dvf.design(plant, names, modes=[1, 2, 3], gain=list(gains))
+        expected = closed_loop_modes(plant, design).damping
+        np.testing.assert_allclose(ev.closed_loop([0, 1], gamma), expected, rtol=1e-9)
+        assert ev.score(np.array([[0, 1]]), np.array([[gamma]]))[0, 0] == pytest.approx(
+            expected.min(), rel=1e-9
+        )
