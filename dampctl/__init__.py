@@ -7,6 +7,8 @@ Plant
         plant files (TOML)
     survey_plant
         participation of candidate pairs, near-repeated clusters, dominant modes
+    size_pairs, SizingResult
+        how many pairs, which ones, with cost, damping per cost and effort (dampctl.sizing)
 
 Design
     Design, Loop, Branch, Section, load_design
@@ -43,6 +45,7 @@ from dampctl.plant import (
     Sensor,
 )
 from dampctl.plantfile import dump_plant, load_plant, parse_plant
+from dampctl.sizing import SizingResult, size_pairs
 from dampctl.survey import survey_plant
 
 __version__ = "0.1.0"
@@ -68,11 +71,13 @@ __all__ = [
     "Requirements",
     "Section",
     "Sensor",
+    "SizingResult",
     "UsageError",
     "assess",
     "dump_plant",
     "load_design",
     "load_plant",
     "parse_plant",
+    "size_pairs",
     "survey_plant",
 ]

@@ -1,0 +1,132 @@
+"""Figures of a sizing result (matplotlib only here; numerics never import it).
+
+Each function takes ``ax=None`` (a new figure is made) and returns a dict of its artists.
+:func:`sizing_pngs` renders both figures to PNG bytes for :func:`dampctl.fileio.write_files`.
+"""
+
+from __future__ import annotations
+
+import io
+
+import numpy as np
+
+__all__ = ["plot_damping_and_cost", "plot_mode_damping", "sizing_pngs"]
+
+
+def _axes(ax):
+    if ax is not None:
+        return ax.figure, ax
+    from matplotlib.figure import Figure
+
+    figure = Figure(figsize=(7.0, 4.2), layout="constrained")
+    return figure, figure.add_subplot()
+
+
+def plot_damping_and_cost(result, ax=None) -> dict:
+    """Smallest target damping and total cost against the number of pairs.
+
+    Parameters
+    ----------
+    result : SizingResult
+        The sizing result.
+    ax : matplotlib.axes.Axes, optional
+        Axes for the damping (the cost goes on a twin y axis); default a new figure.
+
+    Returns
+    -------
+    dict
+        ``figure``, ``axes`` (damping, cost), ``lines`` (design damping, achievable damping,
+        cost) and ``target`` (the target line or None).
+    """
+    figure, ax = _axes(ax)
+    k = [r.pairs_used for r in result.rows]
+    design = ax.plot(k, [r.min_damping for r in result.rows], "o-", label="min damping (design)")
+    best = ax.plot(
+        k, [r.achievable_min_damping for r in result.rows], "s--", label="min damping (maximized)"
+    )
+    target = None
+    if result.target_damping is not None:
+        target = ax.axhline(result.target_damping, color="0.4", lw=1, ls=":", label="target")
+    if result.recommended is not None:
+        ax.axvline(result.recommended, color="0.7", lw=6, alpha=0.4, zorder=0)
+    ax.set_xlabel("number of pairs")
+    ax.set_ylabel("smallest damping ratio over target modes")
+    ax.set_xticks(k)
+    twin = ax.twinx()
+    cost = twin.plot(k, [r.cost for r in result.rows], "^-", color="tab:red", label="cost")
+    twin.set_ylabel("total cost of actuators and sensors")
+    handles = design + best + cost + ([target] if target is not None else [])
+    ax.legend(handles=handles, loc="upper left", fontsize="small")
+    ax.set_title(f"{result.law.upper()}: damping and cost against pair count")
+    return {
+        "figure": figure,
+        "axes": (ax, twin),
+        "lines": (design[0], best[0], cost[0]),
+        "target": target,
+    }
+
+
+def plot_mode_damping(result, ax=None) -> dict:
+    """Closed-loop damping of every target mode, one group of bars per pair count.
+
+    Parameters
+    ----------
+    result : SizingResult
+        The sizing result.
+    ax : matplotlib.axes.Axes, optional
+        Axes to draw on; default a new figure.
+
+    Returns
+    -------
+    dict
+        ``figure``, ``axes``, ``bars`` (one container per row) and ``target``.
+    """
+    figure, ax = _axes(ax)
+    modes = list(result.modes)
+    x = np.arange(len(modes))
+    width = 0.8 / max(len(result.rows), 1)
+    bars = []
+    for j, row in enumerate(result.rows):
+        values = [z for _m, z in row.mode_damping]
+        bars.append(
+            ax.bar(
+                x + (j - (len(result.rows) - 1) / 2) * width,
+                values,
+                width,
+                label=f"{row.pairs_used} pair(s): {', '.join(row.chosen)}",
+            )
+        )
+    target = None
+    if result.target_damping is not None:
+        target = ax.axhline(result.target_damping, color="0.3", lw=1, ls=":", label="target")
+    ax.set_xticks(x, [str(m) for m in modes])
+    ax.set_xlabel("target mode")
+    ax.set_ylabel("closed-loop damping ratio")
+    ax.legend(fontsize="x-small")
+    ax.set_title("damping of each target mode for the best set of each size")
+    return {"figure": figure, "axes": ax, "bars": tuple(bars), "target": target}
+
+
+def sizing_pngs(result) -> dict[str, bytes]:
+    """PNG bytes of both sizing figures, keyed by file name.
+
+    Parameters
+    ----------
+    result : SizingResult
+        The sizing result.
+
+    Returns
+    -------
+    dict of str to bytes
+        ``sizing_damping_cost.png`` and ``sizing_mode_damping.png``.
+    """
+    out = {}
+    for name, plot in (
+        ("sizing_damping_cost.png", plot_damping_and_cost),
+        ("sizing_mode_damping.png", plot_mode_damping),
+    ):
+        figure = plot(result)["figure"]
+        buffer = io.BytesIO()
+        figure.savefig(buffer, format="png", dpi=110)
+        out[name] = buffer.getvalue()
+    return out
