@@ -91,6 +91,8 @@ def test_spillover_cures():
     assert info["design_model"]["neighbours"] == [2]
     assert info["closed_loop"]["stable"]
     assert info["closed_loop"]["spillover_unstable"] == []
-    assert info["closed_loop"]["target_damping_min"] == pytest.approx(0.3, rel=1e-6)
+    assert info["closed_loop"]["target_damping_min"] == pytest.approx(
+        0.3 * (1 + lqg.GOAL_HEADROOM), rel=1e-6
+    )
     mode2 = info["closed_loop"]["residual_modes"][0]
     assert mode2["closed_loop_damping"] == pytest.approx(0.005, rel=1e-3)
