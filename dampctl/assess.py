@@ -26,7 +26,13 @@ from typing import Any
 
 import numpy as np
 
-from dampctl.closedloop import match_modes, modal_damping, open_loop_poles, plant_loop_delay_s
+from dampctl.closedloop import (
+    match_modes,
+    modal_damping,
+    open_loop_poles,
+    plant_loop_delay_s,
+    reference_omega,
+)
 from dampctl.errors import UsageError
 from dampctl.loopmodel import GainLocus, delay_sections, gain_locus, loop_controller, loop_poles
 from dampctl.margins import (
@@ -301,7 +307,10 @@ def assess(
     step()
     crossings = [f for m in margins for f in m.crossovers_hz] + list(common.crossovers_hz)
     top_target = max(plant.freqs_hz[m - 1] for m in targets)
-    omega_ref = 2 * np.pi * max([1.5 * max(crossings, default=0.0), top_target])
+    # the delay's phase is accurate up to 1.5 × the highest crossover, and at least up to the
+    # reference every other pole computation uses (closedloop.reference_omega), so they agree
+    omega_ref = max(2 * np.pi * max([1.5 * max(crossings, default=0.0), top_target]),
+                    reference_omega(plant))
     ctrl = loop_controller(plant, design, delay_s=delay, omega_ref=omega_ref, roll_off=roll_off)
     poles = loop_poles(plant, design, ctrl)
     matched = match_modes(open_loop_poles(plant.omegas, plant.dampings), poles)

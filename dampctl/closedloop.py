@@ -12,6 +12,7 @@ needed here; frequency-domain checks elsewhere use the exact e^{−jωT}.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -22,6 +23,8 @@ __all__ = [
     "MatchedModes",
     "closed_loop_matrix",
     "closed_loop_modes",
+    "delay_matrices",
+    "delay_sections",
     "effective_controller",
     "lag_elements",
     "match_modes",
@@ -29,6 +32,7 @@ __all__ = [
     "open_loop_poles",
     "pade_matrices",
     "plant_loop_delay_s",
+    "reference_omega",
     "sampling_delay_s",
     "series_matrices",
 ]
@@ -130,6 +134,66 @@ def pade_matrices(delay_s: float, order: int = 2) -> Matrices:
     return A, B, C, np.array([[num[0]]])
 
 
+#: largest number of [2/2] Padé sections per channel in a delay cascade
+MAX_DELAY_SECTIONS = 12
+
+
+def delay_sections(delay_s: float, omega_ref: float) -> int:
+    """Number m of [2/2] Padé sections so that ω_ref·T/m ≤ 1 (1 to 12; 0 for T = 0).
+
+    One [2/2] section is all-pass (exact magnitude) and its phase error at ωT = 1 is 1.3e-3 rad,
+    so a cascade of m sections of T/m each is that accurate up to ω_ref.
+
+    Parameters
+    ----------
+    delay_s : float
+        Delay (s).
+    omega_ref : float
+        Highest frequency (rad/s) where the phase must be right.
+
+    Returns
+    -------
+    int
+    """
+    if delay_s <= 0.0:
+        return 0
+    return int(min(max(math.ceil(omega_ref * delay_s), 1), MAX_DELAY_SECTIONS))
+
+
+def delay_matrices(delay_s: float, omega_ref: float) -> Matrices:
+    """SISO state space of e^{−sT} as a cascade of :func:`delay_sections` [2/2] Padé sections.
+
+    Parameters
+    ----------
+    delay_s : float
+        Delay T (s), >= 0.
+    omega_ref : float
+        Frequency (rad/s) up to which the phase is accurate to about 1.3e-3 rad.
+
+    Returns
+    -------
+    tuple of ndarray
+        (A, B, C, D), one input and one output.
+    """
+    m = delay_sections(delay_s, omega_ref)
+    if m == 0:
+        return pade_matrices(0.0)
+    one = pade_matrices(delay_s / m, 2)
+    chain = one
+    for _ in range(m - 1):
+        chain = series_matrices(chain, one)
+    return chain
+
+
+def reference_omega(plant) -> float:
+    """Delay-accuracy frequency (rad/s) used for a plant's closed-loop poles: 1.5 × top mode.
+
+    Every closed-loop computation of poles with a delay (tuning, sizing, tables, assessment)
+    uses this reference, so their damping figures agree.
+    """
+    return 1.5 * float(np.max(plant.omegas))
+
+
 def lag_elements(
     controller: Matrices,
     *,
@@ -137,6 +201,7 @@ def lag_elements(
     actuator_bandwidth_hz: Sequence[float | None] = (),
     sensor_bandwidth_hz: Sequence[float | None] = (),
     pade_order: int = 2,
+    omega_ref: float | None = None,
 ) -> Matrices:
     """Fold loop delay and first-order roll-offs into a controller.
 
@@ -153,7 +218,10 @@ def lag_elements(
     actuator_bandwidth_hz, sensor_bandwidth_hz : sequence of float or None, optional
         Corner frequency (Hz) of each actuator / sensor channel; None or missing: ideal.
     pade_order : int, optional
-        Order of the delay approximant.
+        Order of a single delay approximant (used when ``omega_ref`` is None).
+    omega_ref : float, optional
+        Frequency (rad/s) up to which the delay's phase must be accurate: the delay becomes a
+        cascade of :func:`delay_sections` [2/2] sections (see :func:`delay_matrices`).
 
     Returns
     -------
@@ -165,8 +233,11 @@ def lag_elements(
     system = _diagonal_lowpass(sensor_bandwidth_hz, n_in)
     system = series_matrices(system, controller)
     if delay_s > 0.0:
-        delay = _repeat(pade_matrices(delay_s, pade_order), n_out)
-        system = series_matrices(system, delay)
+        if omega_ref is None:
+            one = pade_matrices(delay_s, pade_order)
+        else:
+            one = delay_matrices(delay_s, omega_ref)
+        system = series_matrices(system, _repeat(one, n_out))
     return series_matrices(system, _diagonal_lowpass(actuator_bandwidth_hz, n_out))
 
 
@@ -314,7 +385,12 @@ def plant_loop_delay_s(plant) -> float:
 
 
 def effective_controller(
-    plant, design, *, delay_s: float | None = None, roll_off: bool = True, pade_order: int = 2
+    plant,
+    design,
+    *,
+    delay_s: float | None = None,
+    roll_off: bool = True,
+    pade_order: int | None = None,
 ) -> Matrices:
     """The design's controller with the loop's delay and the hardware roll-offs folded in.
 
@@ -329,7 +405,8 @@ def effective_controller(
     roll_off : bool, optional
         Include the first-order actuator and sensor roll-offs stated in the plant file.
     pade_order : int, optional
-        Order of the Padé approximant of the delay.
+        Order of one Padé approximant for the whole delay; default None: a cascade of [2/2]
+        sections accurate up to :func:`reference_omega` (what every pole computation uses).
 
     Returns
     -------
@@ -344,7 +421,8 @@ def effective_controller(
         delay_s=delay,
         actuator_bandwidth_hz=act_bw,
         sensor_bandwidth_hz=sen_bw,
-        pade_order=pade_order,
+        pade_order=pade_order or 2,
+        omega_ref=reference_omega(plant) if pade_order is None else None,
     )
 
 
@@ -353,7 +431,12 @@ def _sensor_bandwidth(plant, name: str):
 
 
 def closed_loop_modes(
-    plant, design, *, delay_s: float | None = None, roll_off: bool = True, pade_order: int = 2
+    plant,
+    design,
+    *,
+    delay_s: float | None = None,
+    roll_off: bool = True,
+    pade_order: int | None = None,
 ) -> MatchedModes:
     """Closed-loop poles of plant + design, matched to the plant's modes by assignment.
 
@@ -369,7 +452,8 @@ def closed_loop_modes(
     roll_off : bool, optional
         Include actuator and sensor roll-offs stated in the plant file.
     pade_order : int, optional
-        Order of the delay approximant.
+        Order of one Padé approximant for the whole delay; default None: a cascade of [2/2]
+        sections accurate up to :func:`reference_omega`.
 
     Returns
     -------

@@ -8,12 +8,18 @@ exact). Plain numpy: no python-control model is built, so this is cheap inside s
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 
 import numpy as np
 
-from dampctl.closedloop import closed_loop_matrix, lag_elements, pade_matrices, series_matrices
+from dampctl.closedloop import (
+    MAX_DELAY_SECTIONS,
+    closed_loop_matrix,
+    delay_matrices,
+    delay_sections,
+    lag_elements,
+    series_matrices,
+)
 
 __all__ = [
     "MAX_SECTIONS",
@@ -28,26 +34,7 @@ __all__ = [
 Matrices = tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]
 
 #: largest number of [2/2] Padé sections per channel
-MAX_SECTIONS = 12
-
-
-def delay_sections(delay_s: float, omega_ref: float) -> int:
-    """Number m of [2/2] Padé sections so that ω_ref·T/m ≤ 1 (1 to MAX_SECTIONS; 0 for T = 0).
-
-    Parameters
-    ----------
-    delay_s : float
-        Delay (s).
-    omega_ref : float
-        Highest frequency (rad/s) where the phase must be right.
-
-    Returns
-    -------
-    int
-    """
-    if delay_s <= 0.0:
-        return 0
-    return int(min(max(math.ceil(omega_ref * delay_s), 1), MAX_SECTIONS))
+MAX_SECTIONS = MAX_DELAY_SECTIONS
 
 
 def loop_controller(
@@ -94,12 +81,8 @@ def loop_controller(
     if sensor_bandwidth_hz is not None:
         sen = [sensor_bandwidth_hz] * len(design.sensors)
     ctrl = lag_elements(base, actuator_bandwidth_hz=act, sensor_bandwidth_hz=sen)
-    m = delay_sections(delay_s, omega_ref)
-    if m:
-        one = pade_matrices(delay_s / m, 2)
-        chain = one
-        for _ in range(m - 1):
-            chain = series_matrices(chain, one)
+    if delay_sections(delay_s, omega_ref):
+        chain = delay_matrices(delay_s, omega_ref)
         n_out = D.shape[0]
         blocks = [_blockdiag([chain[k]] * n_out) for k in range(4)]
         ctrl = series_matrices(ctrl, tuple(blocks))

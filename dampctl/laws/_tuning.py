@@ -23,7 +23,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from dampctl.closedloop import closed_loop_matrix, lag_elements, match_modes, open_loop_poles
+from dampctl.closedloop import (
+    closed_loop_matrix,
+    lag_elements,
+    match_modes,
+    open_loop_poles,
+    reference_omega,
+)
 
 __all__ = ["Evaluation", "LoopModel", "SearchResult", "search_gains", "stack_loops"]
 
@@ -73,8 +79,10 @@ class LoopModel:
         First-order hardware roll-off corners per loop (None: ideal).
     score : callable
         Objective over the damping ratios of a batch (n_eval, n_modes) -> (n_eval,).
-    pade_order : int
-        Order of the delay approximant.
+    omega_ref : float
+        Delay-accuracy frequency (rad/s): the delay is a cascade of [2/2] Padé sections
+        accurate up to it (:func:`dampctl.closedloop.reference_omega` of the plant, as for every
+        pole computation).
     """
 
     plant_mats: Matrices
@@ -83,10 +91,10 @@ class LoopModel:
     actuator_bandwidth_hz: tuple[float | None, ...]
     sensor_bandwidth_hz: tuple[float | None, ...]
     score: Callable[[np.ndarray], np.ndarray]
-    pade_order: int = 2
+    omega_ref: float = 0.0
 
     @classmethod
-    def build(cls, plant, pairs, *, delay_s: float, score, pade_order: int = 2) -> LoopModel:
+    def build(cls, plant, pairs, *, delay_s: float, score) -> LoopModel:
         """Loop model of ``plant`` for the given pairs (see class parameters)."""
         actuators = [p.actuator for p in pairs]
         sensors = [p.sensor for p in pairs]
@@ -97,7 +105,7 @@ class LoopModel:
             actuator_bandwidth_hz=tuple(plant.actuator(a).bandwidth_hz for a in actuators),
             sensor_bandwidth_hz=tuple(plant.sensor(s).bandwidth_hz for s in sensors),
             score=score,
-            pade_order=pade_order,
+            omega_ref=reference_omega(plant),
         )
 
     def effective(self, controller: Matrices) -> Matrices:
@@ -107,7 +115,7 @@ class LoopModel:
             delay_s=self.delay_s,
             actuator_bandwidth_hz=self.actuator_bandwidth_hz,
             sensor_bandwidth_hz=self.sensor_bandwidth_hz,
-            pade_order=self.pade_order,
+            omega_ref=self.omega_ref,
         )
 
     def evaluate(self, controllers: Sequence[Matrices]) -> Evaluation:
