@@ -142,9 +142,14 @@ def plot_root_locus(assessment, *, ax=None, span: float = 3.0) -> Drawn:
         label="open loop (k = 0)",
     )
     ax.axvline(0.0, color="0.6", linewidth=0.8)
+    # zoom on the structural modes (upper half plane): far-away roll-off and delay poles
+    # would otherwise squash the lightly damped branches against the axis
+    w_top = 2 * np.pi * max(m.open_freq_hz for m in assessment.modes)
+    ax.set_ylim(0.0, 1.25 * w_top)
+    ax.set_xlim(-0.6 * w_top, 0.08 * w_top)
     ax.set_xlabel("real part (1/s)")
     ax.set_ylabel("imaginary part (rad/s)")
-    ax.set_title("closed-loop poles, controller scaled 0 to 3x")
+    ax.set_title("closed-loop poles, controller scaled 0 to 3x (modes' region)")
     ax.grid(True, alpha=0.3)
     ax.legend(frameon=False, loc="upper left")
     figure.colorbar(dots, ax=ax, label="gain factor k")
