@@ -174,13 +174,15 @@ def _sizing_section(sizing: Mapping[str, Any]) -> str:
     out.append(_table(rows, [("pairs_used", "Pairs"), ("chosen", "Chosen", "text"),
                              ("min_damping", "Smallest damping"), ("cost", "Cost"),
                              ("method", "Search", "text")]))
-    rec = sizing.get("recommended")
-    if isinstance(rec, Mapping):
-        rec = rec.get("chosen") or rec.get("pairs_used")
-    out.append(f"<p>Recommended: <b>{_e(_plain(rec))}</b></p>")
-    for key in ("statement", "limiting_mode"):
-        if sizing.get(key) not in (None, ""):
-            out.append(f"<p>{_e(key.replace('_', ' '))}: {_e(_plain(sizing[key]))}</p>")
+    pairs = sizing.get("recommended_pairs")
+    if pairs:
+        out.append(f"<p>Recommended: <b>{len(pairs)} pair(s), {_e(', '.join(pairs))}</b></p>")
+    else:
+        out.append('<p class="unmet">No pair count up to the limit meets the target.</p>')
+    if sizing.get("statement"):
+        out.append(f"<p>{_e(sizing['statement'])}</p>")
+    if sizing.get("rank_rule"):
+        out.append(f"<p class='note'>{_e(_plain(sizing['rank_rule']))}</p>")
     return "\n".join(out)
 
 

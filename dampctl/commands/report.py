@@ -1,0 +1,165 @@
+"""``dampctl report PLANT DESIGN -o report.html``: one self-contained HTML design report."""
+
+from __future__ import annotations
+
+import argparse
+import json
+from collections.abc import Mapping
+from pathlib import Path
+from types import SimpleNamespace
+from typing import Any, TextIO
+
+from dampctl.assess import assess
+from dampctl.commands._common import jsonable
+from dampctl.commands.check import check_payload
+from dampctl.design import Design, load_design
+from dampctl.errors import UsageError
+from dampctl.fileio import write_text
+from dampctl.plant import ModalPlant
+from dampctl.plantfile import load_plant
+from dampctl.report import ReportInputs, render_report
+from dampctl.survey import survey_plant
+
+NAME = "report"
+HELP = "write a self-contained HTML report of a design on its plant"
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    """Options of ``dampctl report``."""
+    parser.add_argument("plant", help="plant file (TOML)")
+    parser.add_argument("design", help="design file written by dampctl tune (JSON)")
+    parser.add_argument("-o", "--output", required=True, metavar="FILE",
+                        help="report file to write (HTML)")
+    parser.add_argument("--sizing", metavar="FILE",
+                        help="sizing result saved from `dampctl size --json` (optional)")
+    parser.add_argument("--export", metavar="FILE",
+                        help="export summary: controller.json written by `dampctl export`, "
+                             "or its --json output (optional)")
+    parser.add_argument("--delay-s", type=float, default=None, metavar="T",
+                        help="loop delay (s) for the assessment; default the plant's "
+                             "loop_delay_s plus a ZOH and one sample at its sample rate")
+    parser.add_argument("--json", action="store_true",
+                        help="print a JSON summary of the written report on stdout")
+
+
+def report_html(
+    plant: ModalPlant,
+    design: Design,
+    *,
+    sizing: Mapping[str, Any] | None = None,
+    sizing_figures: Mapping[str, bytes] | None = None,
+    export: Mapping[str, Any] | None = None,
+    delay_s: float | None = None,
+) -> tuple[str, Any]:
+    """Assess a design and render the HTML report.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant.
+    design : Design
+        The design (checked against the plant's fingerprint).
+    sizing : mapping, optional
+        Sizing JSON (``dampctl size --json``).
+    sizing_figures : mapping of str to bytes, optional
+        Sizing PNGs; drawn from ``sizing`` when not given.
+    export : mapping, optional
+        Export JSON (``dampctl export --json`` or the written controller.json).
+    delay_s : float, optional
+        Loop delay (s) for the assessment; default the plant's stated delay.
+
+    Returns
+    -------
+    html : str
+        The report.
+    assessment : Assessment
+        The assessment shown in it.
+    """
+    from dampctl.figures import assessment_pngs
+
+    design.check_plant(plant)
+    result = assess(plant, design, delay_s=delay_s)
+    figures = {}
+    captions = {
+        "frf": "Frequency response at the output, open and closed loop",
+        "root_locus": "Closed-loop poles as the controller is scaled 0 to 3 times",
+        "damping": "Damping ratio per mode, before and after",
+        "nyquist": "Nyquist plot of the loop (broken at the plant input) with the critical point",
+        "cumulative_rms": "Cumulative RMS motion against frequency",
+        "third_octave": "One-third-octave velocity spectrum with vibration criterion levels",
+    }
+    for name, png in assessment_pngs(result).items():
+        stem = Path(name).stem
+        key = next((k for k in captions if stem.startswith(k)), stem)
+        detail = stem[len(key):].strip("_")
+        figures[f"{captions.get(key, stem)}{' — ' + detail if detail else ''}"] = png
+    if sizing is not None:
+        pngs = sizing_figures if sizing_figures is not None else _sizing_pngs(sizing)
+        for name, png in pngs.items():
+            figures[f"Sizing: {Path(name).stem.replace('_', ' ')}"] = png
+    check = check_payload(plant, survey_plant(plant))
+    inputs = ReportInputs(
+        check=check,
+        design=design.to_dict(),
+        assessment=jsonable(result.to_dict()),
+        sizing=jsonable(dict(sizing)) if sizing is not None else None,
+        export=jsonable(dict(export)) if export is not None else None,
+        figures=figures,
+    )
+    return render_report(inputs), result
+
+
+def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
+    """Run ``dampctl report``; exit 0 when every requirement is met, 1 otherwise."""
+    plant = load_plant(args.plant)
+    design = load_design(args.design)
+    design.check_plant(plant, source=args.design)
+    sizing = _read_json(args.sizing, "--sizing") if args.sizing else None
+    export = _read_json(args.export, "--export") if args.export else None
+    if sizing is not None and "rows" not in sizing:
+        raise UsageError(f"--sizing: {args.sizing} is not a sizing result (no 'rows')")
+    html, result = report_html(plant, design, sizing=sizing, export=export, delay_s=args.delay_s)
+    inputs = [p for p in (args.plant, args.design, args.sizing, args.export) if p]
+    path = write_text(args.output, html, inputs=inputs)
+    unmet = [r.name for r in result.unmet]
+    if args.json:
+        out.write(json.dumps({"report": str(path), "all_met": result.all_met,
+                              "unmet": unmet}, indent=2) + "\n")
+    else:
+        out.write(f"wrote {path}\n")
+        if unmet:
+            out.write(f"requirements not met: {', '.join(unmet)}\n")
+    return 0 if result.all_met else 1
+
+
+def _read_json(path: str, option: str) -> dict:
+    try:
+        data = json.loads(Path(path).read_text(encoding="utf-8"))
+    except OSError as exc:
+        raise UsageError(f"{option}: cannot read {path} ({exc.strerror or exc})") from None
+    except (UnicodeDecodeError, json.JSONDecodeError) as exc:
+        raise UsageError(f"{option}: {path} is not JSON ({exc})") from None
+    if not isinstance(data, dict):
+        raise UsageError(f"{option}: {path} does not hold a JSON object")
+    return data
+
+
+def _sizing_pngs(sizing: Mapping[str, Any]) -> dict[str, bytes]:
+    """Sizing figures drawn from the sizing JSON (the figures take the same fields)."""
+    from dampctl.figures_sizing import sizing_pngs
+
+    rows = [
+        SimpleNamespace(
+            pairs_used=r["pairs_used"], chosen=tuple(r.get("chosen", ())),
+            min_damping=r.get("min_damping"),
+            achievable_min_damping=r.get("achievable_min_damping", r.get("min_damping")),
+            cost=r.get("cost"),
+            mode_damping=tuple((m["mode"], m["damping"]) for m in r.get("mode_damping", ())),
+        )
+        for r in sizing.get("rows", ())
+    ]
+    view = SimpleNamespace(law=str(sizing.get("law", "")), rows=tuple(rows),
+                           target_damping=sizing.get("target_damping"),
+                           recommended=sizing.get("recommended"),
+                           modes=tuple(sizing.get("modes", ())))
+    return sizing_pngs(view)
