@@ -157,7 +157,10 @@ def delay_sections(delay_s: float, omega_ref: float) -> int:
     """
     if delay_s <= 0.0:
         return 0
-    return int(min(max(math.ceil(omega_ref * delay_s), 1), MAX_DELAY_SECTIONS))
+    product = omega_ref * delay_s
+    if not math.isfinite(product):
+        return MAX_DELAY_SECTIONS
+    return int(min(max(math.ceil(product), 1), MAX_DELAY_SECTIONS))
 
 
 def delay_matrices(delay_s: float, omega_ref: float) -> Matrices:
