@@ -518,8 +518,9 @@ class ModalPlant:
         Notes
         -----
         Evaluates H = Σ_i c_i (jω)^order b_i / (ω_i² − ω² + 2jζ_iω_iω) + D as one real matrix
-        product of the rank-one residues with the modal denominators, so its cost is one
-        (n_out·n_in) × n_modes × n_freq product.
+        product of the rank-one residues with the real and imaginary parts of the modal
+        denominators, so its cost is one (n_out·n_in) × n_modes × (2 n_freq) product; the
+        factor (jω)^order is applied per output in real arithmetic.
         """
         freq = np.asarray(freq_hz, dtype=float).ravel()
         if not np.all(np.isfinite(freq)) or np.any(freq < 0):
@@ -528,17 +529,35 @@ class ModalPlant:
         n_out, n_in = c.shape[0], b.shape[1]
         w_i, z_i = self.omegas, self.dampings
         w = 2.0 * np.pi * freq
-        # 1/(ω_i² − ω² + 2jζω_iω) = (re − j im)/(re² + im²), done in real arithmetic
-        re = w_i[:, None] ** 2 - w[None, :] ** 2
-        im = (2.0 * z_i * w_i)[:, None] * w[None, :]
-        inv_mag = 1.0 / (re * re + im * im)
-        residues = (c[:, None, :] * b.T[None, :, :]).reshape(n_out * n_in, -1)
-        h = (residues @ (re * inv_mag)) - 1j * (residues @ (im * inv_mag))
-        h = h.reshape(n_out, n_in, -1)
-        if np.any(orders):
-            factor = (1j * w)[None, :] ** orders[:, None]
-            h *= factor[:, None, :]
-        h += D[:, :, None]
+        n_modes, n_f = w_i.size, w.size
+        # 1/(ω_i² − ω² + 2jζω_iω) = (re − j im)/(re² + im²), in real arithmetic, with the real
+        # and imaginary parts side by side so that one GEMM gives both
+        basis = np.empty((n_modes, 2, n_f))
+        re, im = basis[:, 0, :], basis[:, 1, :]
+        np.subtract.outer(w_i * w_i, w * w, out=re)
+        np.multiply.outer(2.0 * z_i * w_i, w, out=im)
+        inv_mag = re * re
+        inv_mag += im * im
+        np.reciprocal(inv_mag, out=inv_mag)
+        re *= inv_mag
+        im *= inv_mag
+        residues = (c[:, None, :] * b.T[None, :, :]).reshape(n_out * n_in, n_modes)
+        parts = (residues @ basis.reshape(n_modes, 2 * n_f)).reshape(n_out, n_in, 2, n_f)
+        h = np.empty((n_out, n_in, n_f), dtype=complex)
+        h_re, h_im = h.real, h.imag
+        w2 = w * w
+        for o, order in enumerate(orders):
+            g_re, g_im = parts[o, :, 0, :], parts[o, :, 1, :]
+            if order == 0:  # (re − j im)
+                h_re[o] = g_re
+                np.negative(g_im, out=h_im[o])
+            elif order == 1:  # jω (re − j im) = ω im + j ω re
+                np.multiply(g_im, w, out=h_re[o])
+                np.multiply(g_re, w, out=h_im[o])
+            else:  # −ω² (re − j im)
+                np.multiply(g_re, -w2, out=h_re[o])
+                np.multiply(g_im, w2, out=h_im[o])
+        h_re += D[:, :, None]
         return h
 
 
