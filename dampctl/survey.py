@@ -7,8 +7,10 @@ This is what ``dampctl check`` prints. Measures used:
   γ_ip = |b_ip| |c̃_ip| / (4 ζ_i ω_i) (Gawronski, *Dynamics and Control of Structures: A Modal
   Approach*, 1998), where c̃ is the sensor row on the balanced states (c/ω for a
   displacement-like sensor, c for velocity, ω c for acceleration). The share is
-  γ_ip / Σ_q γ_iq, so the shares of one mode sum to 1 over the pairs; compare pairs of like
-  physical kind. Damping is floored at 1e-6 for undamped modes.
+  γ_ip / Σ_q γ_iq, the sum running over the pairs of the same physical kind (same actuator
+  kind and sensor kind, e.g. all force/velocity pairs), so the shares of one mode sum to 1 over
+  the pairs of each kind; HSVs of pairs of different units are not compared. Damping is
+  floored at 1e-6 for undamped modes.
 * **Visibility**: a mode is seen by a pair when γ_ip ≥ ``visibility_tol`` × the pair's largest
   γ over all modes (default 1e-3); a mode seen by no pair cannot be damped by any of them.
 * **Clusters**: modes whose natural frequencies lie within ``cluster_tol`` (relative, default
@@ -57,7 +59,8 @@ class PairSurvey:
     description : str
         Actuator and sensor kinds, e.g. ``force/velocity``.
     participation : ndarray, shape (n_modes,)
-        Share of each mode's Hankel singular value (0..1, sums to 1 over pairs).
+        Share of each mode's Hankel singular value (0..1, sums to 1 over the pairs of the
+        same kind).
     hsv : ndarray, shape (n_modes,)
         Approximate Hankel singular value γ_ip of the pair alone, per mode.
     """
@@ -199,17 +202,26 @@ def survey_plant(
     w = plant.omegas
     b_rows, c_rows = pair_rows(plant, names)
     hsv = np.abs(b_rows) * np.abs(c_rows) / (4.0 * zeta * w)
-    totals = hsv.sum(axis=0)
-    shares = np.divide(hsv, totals, out=np.zeros_like(hsv), where=totals > 0)
+    kinds = []
+    for name in names:
+        pair = plant.pair(name)
+        kinds.append(f"{plant.actuator(pair.actuator).kind}/{plant.sensor(pair.sensor).kind}")
+    shares = np.zeros_like(hsv)
+    for kind in set(kinds):
+        group = [k for k, other in enumerate(kinds) if other == kind]
+        totals = hsv[group].sum(axis=0)
+        shares[group] = np.divide(
+            hsv[group], totals, out=np.zeros_like(hsv[group]), where=totals > 0
+        )
     surveys = []
     for k, name in enumerate(names):
         pair = plant.pair(name)
-        actuator, sensor = plant.actuator(pair.actuator), plant.sensor(pair.sensor)
+        raw_row = plant.output_row(pair.sensor)[0]
         surveys.append(
             PairSurvey(
                 pair=name,
-                collocated=_collocated(b_rows[k] * plant.modal_masses, c_rows[k]),
-                description=f"{actuator.kind}/{sensor.kind}",
+                collocated=_collocated(b_rows[k] * plant.modal_masses, raw_row),
+                description=kinds[k],
                 participation=shares[k],
                 hsv=hsv[k],
             )

@@ -19,8 +19,8 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))  # run from a checkout
 
-from dampctl.components import Actuator, Mode, Sensor  # noqa: E402
-from dampctl.plant import ModalPlant  # noqa: E402
+from dampctl.components import Actuator, Mode, Sensor
+from dampctl.plant import ModalPlant
 
 N_MODES, N_IN, N_OUT, N_FREQ = 100, 8, 8, 5000
 REPEATS = 5
