@@ -35,9 +35,7 @@ def random_plant(seed: int = 20261201) -> ModalPlant:
     sites = {f"s{k + 1}": rng.normal(size=N_MODES) for k in range(max(N_IN, N_OUT))}
     actuators = [Actuator(name=f"f{k + 1}", kind="force", site=f"s{k + 1}") for k in range(N_IN)]
     kinds = ("displacement", "velocity", "acceleration")
-    sensors = [
-        Sensor(name=f"y{k + 1}", kind=kinds[k % 3], site=f"s{k + 1}") for k in range(N_OUT)
-    ]
+    sensors = [Sensor(name=f"y{k + 1}", kind=kinds[k % 3], site=f"s{k + 1}") for k in range(N_OUT)]
     return ModalPlant(modes=modes, sites=sites, actuators=actuators, sensors=sensors)
 
 

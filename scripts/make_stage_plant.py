@@ -161,8 +161,10 @@ def build() -> ModalPlant:
         )
         for s in ("x1", "y1")
     ]
-    pairs = [Pair(name=f"v{s}", actuator=f"coil_{s}", sensor=f"vel_{s}") for s in
-             ("x1", "x2", "y1", "y2")]
+    pairs = [
+        Pair(name=f"v{s}", actuator=f"coil_{s}", sensor=f"vel_{s}")
+        for s in ("x1", "x2", "y1", "y2")
+    ]
     pairs += [Pair(name=f"d{s}", actuator=f"coil_{s}", sensor=f"gap_{s}") for s in ("x1", "y1")]
     outputs = [
         Output(name="probe_x", kind="relative_displacement", between=("frame_x", "tool_x")),
@@ -199,8 +201,10 @@ def build() -> ModalPlant:
 def main() -> None:
     """Write ``plants/scanning_stage.toml`` and ``dampctl/data/scanning_stage.toml``."""
     text = HEADER + "\n" + dump_plant(build())
-    for path in (ROOT / "plants" / "scanning_stage.toml", ROOT / "dampctl" / "data" /
-                 "scanning_stage.toml"):
+    for path in (
+        ROOT / "plants" / "scanning_stage.toml",
+        ROOT / "dampctl" / "data" / "scanning_stage.toml",
+    ):
         path.parent.mkdir(parents=True, exist_ok=True)
         path.write_text(text, encoding="utf-8")
         print(f"wrote {path.relative_to(ROOT)}")

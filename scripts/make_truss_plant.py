@@ -144,8 +144,9 @@ def build() -> ModalPlant:
         )
         for name in struts
     ]
-    pairs = [Pair(name=f"iff_{name[-1]}", actuator=name, sensor=f"load_{name[-1]}") for name in
-             struts]
+    pairs = [
+        Pair(name=f"iff_{name[-1]}", actuator=name, sensor=f"load_{name[-1]}") for name in struts
+    ]
     outputs = [
         Output(name="tip_y", kind="displacement", site="tip_y"),
         Output(name="tip_x", kind="displacement", site="tip_x"),
