@@ -156,7 +156,8 @@ def pair_rows(plant: ModalPlant, pairs: list[str]) -> tuple[np.ndarray, np.ndarr
         b_rows.append(plant.input_row(pair.actuator))
         row, order = plant.output_row(pair.sensor)
         c_rows.append(row * w ** (order - 1))
-    return np.array(b_rows).reshape(len(pairs), -1), np.array(c_rows).reshape(len(pairs), -1)
+    n = plant.n_modes
+    return np.array(b_rows).reshape(len(pairs), n), np.array(c_rows).reshape(len(pairs), n)
 
 
 def cluster_rank(b_rows: np.ndarray, c_rows: np.ndarray, modes: list[int]) -> int:
