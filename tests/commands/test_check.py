@@ -49,6 +49,7 @@ def test_json_keys(name):
 def test_stage_findings():
     # the stage has a near-repeated x/y pair (0.8 % apart), six collocated pairs and a probe
     code, out, _ = run(str(PLANTS / "scanning_stage.toml"), "--json")
+    assert code == 0
     data = json.loads(out)
     assert len(data["pairs"]) == 6
     assert all(p["collocated"] for p in data["pairs"])
@@ -80,6 +81,7 @@ def test_human_output():
     assert "output probe_x: motion dominated by mode" in out
     assert "near-repeated" in out
     code, out, _ = run(str(PLANTS / "oscillator.toml"))
+    assert code == 0
     assert "1 mode, 1 actuator, 2 sensors, 2 candidate pairs" in out
 
 
