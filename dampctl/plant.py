@@ -279,23 +279,73 @@ class ModalPlant:
         return np.array([m.modal_mass_kg for m in self.modes])
 
     def actuator(self, name: str) -> Actuator:
-        """The actuator called ``name``."""
+        """The actuator called ``name``.
+
+        Parameters
+        ----------
+        name : str
+            Actuator name.
+
+        Returns
+        -------
+        Actuator
+        """
         return _lookup(self.actuators, name, "actuator")
 
     def sensor(self, name: str) -> Sensor:
-        """The sensor called ``name``."""
+        """The sensor called ``name``.
+
+        Parameters
+        ----------
+        name : str
+            Sensor name.
+
+        Returns
+        -------
+        Sensor
+        """
         return _lookup(self.sensors, name, "sensor")
 
     def pair(self, name: str) -> Pair:
-        """The pair called ``name``."""
+        """The pair called ``name``.
+
+        Parameters
+        ----------
+        name : str
+            Pair name.
+
+        Returns
+        -------
+        Pair
+        """
         return _lookup(self.pairs, name, "pair")
 
     def output(self, name: str) -> Output:
-        """The performance output called ``name``."""
+        """The performance output called ``name``.
+
+        Parameters
+        ----------
+        name : str
+            Output name.
+
+        Returns
+        -------
+        Output
+        """
         return _lookup(self.outputs, name, "output")
 
     def disturbance(self, name: str) -> Disturbance:
-        """The disturbance called ``name``."""
+        """The disturbance called ``name``.
+
+        Parameters
+        ----------
+        name : str
+            Disturbance name.
+
+        Returns
+        -------
+        Disturbance
+        """
         return _lookup(self.disturbances, name, "disturbance")
 
     @property
@@ -371,6 +421,11 @@ class ModalPlant:
 
     def output_row(self, name: str) -> tuple[np.ndarray, int]:
         """Modal output row c and derivative order of a sensor or performance output.
+
+        Parameters
+        ----------
+        name : str
+            A sensor or performance-output name.
 
         Returns
         -------

@@ -148,7 +148,21 @@ def find_clusters(freqs_hz: np.ndarray, cluster_tol: float = 0.02) -> list[list[
 
 
 def pair_rows(plant: ModalPlant, pairs: list[str]) -> tuple[np.ndarray, np.ndarray]:
-    """Actuator rows b (n_pairs × n_modes) and balanced sensor rows c̃ of the given pairs."""
+    """Actuator rows b and balanced sensor rows c̃ of the given pairs.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant.
+    pairs : list of str
+        Pair names.
+
+    Returns
+    -------
+    b_rows, c_rows : ndarray, shape (n_pairs, n_modes)
+        Modal input rows (per unit input, divided by modal mass) and sensor rows on the
+        balanced states (c/ω displacement-like, c velocity, ω c acceleration).
+    """
     b_rows, c_rows = [], []
     w = plant.omegas
     for name in pairs:
@@ -161,7 +175,23 @@ def pair_rows(plant: ModalPlant, pairs: list[str]) -> tuple[np.ndarray, np.ndarr
 
 
 def cluster_rank(b_rows: np.ndarray, c_rows: np.ndarray, modes: list[int]) -> int:
-    """min(rank of actuator rows, rank of sensor rows) on the cluster's modes (0-based)."""
+    """min(rank of actuator rows, rank of sensor rows) on a cluster's modes.
+
+    Rows are normalized before the SVD; singular values below 1e-6 of the largest count as
+    zero.
+
+    Parameters
+    ----------
+    b_rows, c_rows : ndarray, shape (n_pairs, n_modes)
+        Actuator and sensor rows, as from :func:`pair_rows`.
+    modes : list of int
+        The cluster's modes (0-based indices).
+
+    Returns
+    -------
+    int
+        The rank (0 when there are no pairs).
+    """
     ranks = []
     for rows in (b_rows, c_rows):
         sub = rows[:, modes] if rows.size else np.zeros((0, len(modes)))

@@ -15,7 +15,13 @@ HELP = "read a plant file, list its modes and what each candidate pair can see"
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    """Options of ``dampctl check``."""
+    """Options of ``dampctl check``.
+
+    Parameters
+    ----------
+    parser : argparse.ArgumentParser
+        The subcommand's parser.
+    """
     parser.add_argument("plant", help="plant file (TOML)")
     parser.add_argument(
         "--cluster-tol",
@@ -29,7 +35,21 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def check_payload(plant, survey) -> dict:
-    """The JSON form of a plant check (also used in reports)."""
+    """The JSON form of a plant check (also used in reports).
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant checked.
+    survey : PlantSurvey
+        Its survey (:func:`dampctl.survey.survey_plant`).
+
+    Returns
+    -------
+    dict
+        JSON-ready mapping with keys ``plant``, ``fingerprint``, ``modes``, ``first_freq_hz``,
+        ``pairs``, ``unseen_modes``, ``clusters``, ``dominant_modes`` and ``warnings``.
+    """
     return {
         "plant": plant.title,
         "fingerprint": plant.fingerprint,
@@ -72,7 +92,20 @@ def _count(n: int, word: str) -> str:
 
 
 def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
-    """Run ``dampctl check``; exit 0."""
+    """Run ``dampctl check``.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        Parsed options.
+    out, err : file-like
+        Streams for results and for messages.
+
+    Returns
+    -------
+    int
+        Exit code 0 (bad input raises a DampctlError, turned into exit 2 by the CLI).
+    """
     if not 0.0 < args.cluster_tol < 1.0:
         raise UsageError(f"--cluster-tol: expected a fraction in (0, 1), got {args.cluster_tol}")
     plant = load_plant(args.plant)
