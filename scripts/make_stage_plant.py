@@ -104,7 +104,9 @@ def build() -> ModalPlant:
     phi = np.array([base.sites[d] for d in DOFS])
     lever = np.array([RIM_M.get(d, 1.0) for d in DOFS])[:, None]
     scale = np.max(np.abs(phi * lever), axis=0)
-    shapes = {d: phi[j] / scale for j, d in enumerate(DOFS)}
+    phi = phi / scale
+    phi[np.abs(phi) < 1e-12 * np.max(np.abs(phi))] = 0.0  # eigensolver round-off: exact zeros
+    shapes = {d: phi[j] for j, d in enumerate(DOFS)}
     sites = {
         "frame_x": shapes["frame_x"],
         "frame_y": shapes["frame_y"],

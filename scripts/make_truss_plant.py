@@ -104,6 +104,7 @@ def build() -> ModalPlant:
     # scale each shape so that its largest nodal translation is 1: modal mass 1/scale² (kg)
     scale = np.max(np.abs(phi), axis=0)
     phi = phi / scale
+    phi[np.abs(phi) < 1e-12] = 0.0  # eigensolver round-off: exact zeros
     sites = {}
     for name, (a, b, e) in struts.items():
         for end, node in (("a", a), ("b", b)):
