@@ -364,3 +364,28 @@ def test_example_plants_round_trip(name: str):
     again = parse_plant(dump_plant(plant))
     assert again.fingerprint == plant.fingerprint
     assert_plant_allclose(again, plant, rtol=1e-15)
+
+
+def readme_section() -> str:
+    text = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    start = text.index("## The plant file")
+    return text[start : text.index("\n## ", start + 1)]
+
+
+def test_readme_documents_every_key():
+    from dampctl import plantfile
+
+    section = readme_section()
+    keys = set(plantfile._TOP_KEYS) | set(plantfile._REQUIREMENT_KEYS)
+    for required, optional in plantfile._KEYS.values():
+        keys |= required | optional
+    missing = sorted(k for k in keys if f"`{k}`" not in section and f"[{k}]" not in section)
+    assert not missing, f"README 'The plant file' does not document: {missing}"
+
+
+def test_readme_example_is_a_valid_plant():
+    section = readme_section()
+    example = section.split("```toml\n", 1)[1].split("```", 1)[0]
+    plant = parse_plant(example, source="README example")
+    assert plant.n_modes == 1
+    assert plant.omegas[0] == pytest.approx(200.0, rel=1e-12)
