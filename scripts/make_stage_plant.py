@@ -49,7 +49,9 @@ HEADER = """\
 # Written by scripts/make_stage_plant.py from a lumped 8-DOF model (frame on floor mounts,
 # stage on nearly symmetric x/y flexures, tool on a short arm); see that script for the model.
 # Coil sites (coil_*) are the stroke directions of voice coils that push between frame and
-# stage: stage motion minus frame motion at the coil. SI units; frequencies in Hz.
+# stage: stage motion minus frame motion at the coil. In the frame rotation mode (mode 1) frame
+# and stage turn together, so the coils barely see it: `dampctl check` says so.
+# SI units; frequencies in Hz.
 """
 
 DOFS = ("frame_x", "frame_y", "frame_rz", "stage_x", "stage_y", "stage_rz", "tool_x", "tool_y")
