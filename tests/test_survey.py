@@ -35,6 +35,11 @@ def test_hsv_approximation_against_slycot(kind):
     hsv = np.asarray(control.hsvd(sys))
     assert ours == pytest.approx(np.sqrt(hsv[0] * hsv[1]), rel=2 * zeta)
     assert hsv.max() == pytest.approx(ours, rel=2 * zeta)
+    if kind == "displacement":
+        # REFERENCES §7: 0.8·1.5/(s² + 2ζωs + ω²) has HSVs 3.0702e-4 and 3.0094e-4, and the
+        # approximation b·c/(4ζω²) = 3.0396e-4
+        np.testing.assert_allclose(np.sort(hsv)[::-1], [3.0702e-4, 3.0094e-4], atol=1e-8)
+        assert ours == pytest.approx(3.0396e-4, abs=1e-8)
     if kind == "velocity":
         omega = 2 * np.pi * 50.0
         assert ours == pytest.approx(0.8 * 1.5 / (4 * zeta * omega), rel=1e-12)

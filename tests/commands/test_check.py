@@ -96,3 +96,15 @@ def test_bad_cluster_tolerance():
 def test_bundled_demo_is_the_example_plant():
     bundled = Path(__file__).resolve().parents[2] / "dampctl" / "data" / "scanning_stage.toml"
     assert bundled.read_bytes() == (PLANTS / "scanning_stage.toml").read_bytes()
+
+
+def test_plant_without_pairs(tmp_path):
+    path = tmp_path / "bare.toml"
+    path.write_text('[[modes]]\nfreq_hz = 10.0\ndamping = 0.01\n[sites]\na = [1.0]\n')
+    code, out, err = run(str(path), "--json")
+    assert code == 0, err
+    data = json.loads(out)
+    assert data["pairs"] == [] and data["unseen_modes"] == [1]
+    assert any("no candidate pairs" in w for w in data["warnings"])
+    code, out, _ = run(str(path))
+    assert code == 0 and "0 candidate pairs" in out
