@@ -587,18 +587,22 @@ class ModalPlant:
         w = 2.0 * np.pi * freq
         n_modes, n_f = w_i.size, w.size
         residues = (c[:, None, :] * b.T[None, :, :]).reshape(n_out * n_in, n_modes)
-        w2_i, two_zw = w_i * w_i, 2.0 * z_i * w_i
+        w2_i, minus_two_zw = w_i * w_i, -2.0 * z_i * w_i
         h = np.empty((n_out * n_in, n_f), dtype=complex)
         # frequencies in blocks small enough for the modal basis to stay in cache
         for lo in range(0, n_f, _FRF_BLOCK):
             wb = w[lo : lo + _FRF_BLOCK]
-            # modal basis 1/(ω_i² − ω² + 2jζ_iω_iω); its complex entries seen as (re, im)
-            # pairs of reals make the sum over modes one real GEMM whose result, read back as
-            # complex, is the response
+            # modal basis 1/(ω_i² − ω² + 2jζ_iω_iω) = (re − j im)/(re² + im²), in real
+            # arithmetic; its complex entries seen as (re, im) pairs of reals make the sum over
+            # modes one real GEMM whose result, read back as complex, is the response
             basis = np.empty((n_modes, wb.size), dtype=complex)
-            np.subtract.outer(w2_i, wb * wb, out=basis.real)
-            np.multiply.outer(two_zw, wb, out=basis.imag)
-            np.reciprocal(basis, out=basis)
+            re = np.subtract.outer(w2_i, wb * wb)
+            im = np.multiply.outer(minus_two_zw, wb)
+            inv_mag = re * re
+            inv_mag += im * im
+            np.reciprocal(inv_mag, out=inv_mag)
+            np.multiply(re, inv_mag, out=basis.real)
+            np.multiply(im, inv_mag, out=basis.imag)
             h[:, lo : lo + wb.size] = (residues @ basis.view(float)).view(complex)
         h = h.reshape(n_out, n_in, n_f)
         for o, order in enumerate(orders):
