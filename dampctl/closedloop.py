@@ -366,7 +366,20 @@ def match_modes(open_poles: np.ndarray, closed_poles: np.ndarray) -> MatchedMode
 
 
 def open_loop_poles(omegas: np.ndarray, dampings: np.ndarray) -> np.ndarray:
-    """Upper-half-plane poles −ζω + jω√(1−ζ²) (rad/s) of modes."""
+    """Upper-half-plane poles −ζω + jω√(1−ζ²) (rad/s) of modes.
+
+    Parameters
+    ----------
+    omegas : array_like
+        Natural frequencies ω (rad/s).
+    dampings : array_like
+        Damping ratios ζ, 0 <= ζ < 1.
+
+    Returns
+    -------
+    ndarray of complex
+        One pole per mode (rad/s).
+    """
     omegas, dampings = np.asarray(omegas, float), np.asarray(dampings, float)
     return -dampings * omegas + 1j * omegas * np.sqrt(1.0 - dampings**2)
 
@@ -377,12 +390,33 @@ def sampling_delay_s(sample_rate_hz: float | None) -> float:
     The ZOH lags by exactly ωT/2 and one sample of latency by ωT (Franklin, Powell & Workman,
     *Digital Control of Dynamic Systems*, 3rd ed. 1998, discrete equivalents); zero when no
     sample rate is given.
+
+    Parameters
+    ----------
+    sample_rate_hz : float or None
+        Sample rate f_s (Hz) of the real-time target; None or 0 for a continuous loop.
+
+    Returns
+    -------
+    float
+        Equivalent delay (s).
     """
     return 0.0 if not sample_rate_hz else 1.5 / float(sample_rate_hz)
 
 
 def plant_loop_delay_s(plant) -> float:
-    """Loop delay (s) the plant file states: ``loop_delay_s`` plus ZOH and one sample."""
+    """Loop delay (s) the plant file states: ``loop_delay_s`` plus ZOH and one sample.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        Its requirements give ``loop_delay_s`` and ``sample_rate_hz``.
+
+    Returns
+    -------
+    float
+        Total loop delay (s).
+    """
     req = plant.requirements
     return float(req.loop_delay_s or 0.0) + sampling_delay_s(req.sample_rate_hz)
 

@@ -370,7 +370,18 @@ class Disturbance:
         object.__setattr__(self, "psd", _readonly(table))
 
     def psd_at(self, freq_hz: np.ndarray) -> np.ndarray:
-        """One-sided force PSD (N²/Hz) at the given frequencies (Hz)."""
+        """One-sided force PSD (N²/Hz) at the given frequencies.
+
+        Parameters
+        ----------
+        freq_hz : array_like
+            Frequencies (Hz).
+
+        Returns
+        -------
+        ndarray
+            PSD (N²/Hz), same shape as ``freq_hz``; zero outside a table's range.
+        """
         freq_hz = np.asarray(freq_hz, dtype=float)
         if np.ndim(self.psd) == 0:
             return np.full(freq_hz.shape, float(self.psd))

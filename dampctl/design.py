@@ -72,7 +72,18 @@ class Section:
         object.__setattr__(self, "den", den)
 
     def response(self, s: np.ndarray) -> np.ndarray:
-        """Value at the complex frequencies ``s`` (rad/s)."""
+        """Value at complex frequencies.
+
+        Parameters
+        ----------
+        s : array_like of complex
+            Laplace variable values (rad/s), e.g. ``2j·π·f``.
+
+        Returns
+        -------
+        ndarray of complex
+            num(s)/den(s).
+        """
         return np.polyval(self.num, s) / np.polyval(self.den, s)
 
 
@@ -102,7 +113,18 @@ class Branch:
         object.__setattr__(self, "sections", tuple(self.sections))
 
     def response(self, s: np.ndarray) -> np.ndarray:
-        """Value at the complex frequencies ``s`` (rad/s)."""
+        """Value at complex frequencies.
+
+        Parameters
+        ----------
+        s : array_like of complex
+            Laplace variable values (rad/s), e.g. ``2j·π·f``.
+
+        Returns
+        -------
+        ndarray of complex
+            gain · Π sections(s).
+        """
         out = np.full(np.shape(s), self.gain, dtype=complex)
         for section in self.sections:
             out = out * section.response(s)
@@ -137,7 +159,18 @@ class Loop:
             raise DesignError(f"loop {self.pair!r} has no controller branches")
 
     def response(self, freq_hz: np.ndarray) -> np.ndarray:
-        """K(j 2π f) of the loop at ``freq_hz`` (Hz)."""
+        """K(j 2π f) of the loop.
+
+        Parameters
+        ----------
+        freq_hz : array_like
+            Frequencies (Hz).
+
+        Returns
+        -------
+        ndarray of complex
+            Sum of the branches at each frequency (actuator unit per sensor unit).
+        """
         s = 2j * np.pi * np.asarray(freq_hz, dtype=float)
         return sum(branch.response(s) for branch in self.branches)
 
@@ -255,7 +288,18 @@ class Design:
         )
 
     def response(self, freq_hz: np.ndarray) -> np.ndarray:
-        """Controller frequency response K(j 2π f), shape (n_act, n_sens, n_freq)."""
+        """Controller frequency response K(j 2π f).
+
+        Parameters
+        ----------
+        freq_hz : array_like
+            Frequencies (Hz).
+
+        Returns
+        -------
+        ndarray of complex, shape (n_act, n_sens, n_freq)
+            K from each sensor to each actuator (u = −K y).
+        """
         freq_hz = np.asarray(freq_hz, dtype=float).ravel()
         if self.loops:
             out = np.zeros((len(self.actuators), len(self.sensors), freq_hz.size), complex)

@@ -49,7 +49,13 @@ class Progress:
         self._drawn = False
 
     def advance(self, steps: int = 1) -> None:
-        """Record ``steps`` more finished steps and redraw when due."""
+        """Record finished steps and redraw when due.
+
+        Parameters
+        ----------
+        steps : int, optional
+            Number of steps finished since the last call.
+        """
         self.done = min(self.done + steps, self.total)
         if not self.enabled or time.monotonic() - self._start < self.delay_s:
             return

@@ -7,8 +7,10 @@ This is what ``dampctl check`` prints. Measures used:
   γ_ip = |b_ip| |c̃_ip| / (4 ζ_i ω_i) (Gawronski, *Dynamics and Control of Structures: A Modal
   Approach*, 1998), where c̃ is the sensor row on the balanced states (c/ω for a
   displacement-like sensor, c for velocity, ω c for acceleration). The share is
-  γ_ip / Σ_q γ_iq, so the shares of one mode sum to 1 over the pairs; compare pairs of like
-  physical kind. Damping is floored at 1e-6 for undamped modes.
+  γ_ip / Σ_q γ_iq, the sum running over the pairs of the same physical kind (same actuator
+  kind and sensor kind, e.g. all force/velocity pairs), so the shares of one mode sum to 1 over
+  the pairs of each kind; HSVs of pairs of different units are not compared. Damping is
+  floored at 1e-6 for undamped modes.
 * **Visibility**: a mode is seen by a pair when γ_ip ≥ ``visibility_tol`` × the pair's largest
   γ over all modes (default 1e-3); a mode seen by no pair cannot be damped by any of them.
 * **Clusters**: modes whose natural frequencies lie within ``cluster_tol`` (relative, default
@@ -57,7 +59,8 @@ class PairSurvey:
     description : str
         Actuator and sensor kinds, e.g. ``force/velocity``.
     participation : ndarray, shape (n_modes,)
-        Share of each mode's Hankel singular value (0..1, sums to 1 over pairs).
+        Share of each mode's Hankel singular value (0..1, sums to 1 over the pairs of the
+        same kind).
     hsv : ndarray, shape (n_modes,)
         Approximate Hankel singular value γ_ip of the pair alone, per mode.
     """
@@ -145,7 +148,21 @@ def find_clusters(freqs_hz: np.ndarray, cluster_tol: float = 0.02) -> list[list[
 
 
 def pair_rows(plant: ModalPlant, pairs: list[str]) -> tuple[np.ndarray, np.ndarray]:
-    """Actuator rows b (n_pairs × n_modes) and balanced sensor rows c̃ of the given pairs."""
+    """Actuator rows b and balanced sensor rows c̃ of the given pairs.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant.
+    pairs : list of str
+        Pair names.
+
+    Returns
+    -------
+    b_rows, c_rows : ndarray, shape (n_pairs, n_modes)
+        Modal input rows (per unit input, divided by modal mass) and sensor rows on the
+        balanced states (c/ω displacement-like, c velocity, ω c acceleration).
+    """
     b_rows, c_rows = [], []
     w = plant.omegas
     for name in pairs:
@@ -153,11 +170,28 @@ def pair_rows(plant: ModalPlant, pairs: list[str]) -> tuple[np.ndarray, np.ndarr
         b_rows.append(plant.input_row(pair.actuator))
         row, order = plant.output_row(pair.sensor)
         c_rows.append(row * w ** (order - 1))
-    return np.array(b_rows).reshape(len(pairs), -1), np.array(c_rows).reshape(len(pairs), -1)
+    n = plant.n_modes
+    return np.array(b_rows).reshape(len(pairs), n), np.array(c_rows).reshape(len(pairs), n)
 
 
 def cluster_rank(b_rows: np.ndarray, c_rows: np.ndarray, modes: list[int]) -> int:
-    """min(rank of actuator rows, rank of sensor rows) on the cluster's modes (0-based)."""
+    """min(rank of actuator rows, rank of sensor rows) on a cluster's modes.
+
+    Rows are normalized before the SVD; singular values below 1e-6 of the largest count as
+    zero.
+
+    Parameters
+    ----------
+    b_rows, c_rows : ndarray, shape (n_pairs, n_modes)
+        Actuator and sensor rows, as from :func:`pair_rows`.
+    modes : list of int
+        The cluster's modes (0-based indices).
+
+    Returns
+    -------
+    int
+        The rank (0 when there are no pairs).
+    """
     ranks = []
     for rows in (b_rows, c_rows):
         sub = rows[:, modes] if rows.size else np.zeros((0, len(modes)))
@@ -199,17 +233,26 @@ def survey_plant(
     w = plant.omegas
     b_rows, c_rows = pair_rows(plant, names)
     hsv = np.abs(b_rows) * np.abs(c_rows) / (4.0 * zeta * w)
-    totals = hsv.sum(axis=0)
-    shares = np.divide(hsv, totals, out=np.zeros_like(hsv), where=totals > 0)
+    kinds = []
+    for name in names:
+        pair = plant.pair(name)
+        kinds.append(f"{plant.actuator(pair.actuator).kind}/{plant.sensor(pair.sensor).kind}")
+    shares = np.zeros_like(hsv)
+    for kind in set(kinds):
+        group = [k for k, other in enumerate(kinds) if other == kind]
+        totals = hsv[group].sum(axis=0)
+        shares[group] = np.divide(
+            hsv[group], totals, out=np.zeros_like(hsv[group]), where=totals > 0
+        )
     surveys = []
     for k, name in enumerate(names):
         pair = plant.pair(name)
-        actuator, sensor = plant.actuator(pair.actuator), plant.sensor(pair.sensor)
+        raw_row = plant.output_row(pair.sensor)[0]
         surveys.append(
             PairSurvey(
                 pair=name,
-                collocated=_collocated(b_rows[k] * plant.modal_masses, c_rows[k]),
-                description=f"{actuator.kind}/{sensor.kind}",
+                collocated=_collocated(b_rows[k] * plant.modal_masses, raw_row),
+                description=kinds[k],
                 participation=shares[k],
                 hsv=hsv[k],
             )

@@ -6,6 +6,7 @@ import argparse
 from typing import TextIO
 
 from dampctl.commands._common import print_json, table
+from dampctl.errors import UsageError
 from dampctl.plantfile import load_plant
 from dampctl.survey import survey_plant
 
@@ -14,20 +15,41 @@ HELP = "read a plant file, list its modes and what each candidate pair can see"
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    """Options of ``dampctl check``."""
+    """Options of ``dampctl check``.
+
+    Parameters
+    ----------
+    parser : argparse.ArgumentParser
+        The subcommand's parser.
+    """
     parser.add_argument("plant", help="plant file (TOML)")
     parser.add_argument(
         "--cluster-tol",
         type=float,
         default=0.02,
         metavar="FRACTION",
-        help="relative frequency spacing of near-repeated modes (default 0.02)",
+        help="relative frequency spacing (fraction) below which modes count as near-repeated "
+        "(default 0.02)",
     )
     parser.add_argument("--json", action="store_true", help="print JSON on stdout")
 
 
 def check_payload(plant, survey) -> dict:
-    """The JSON form of a plant check (also used in reports)."""
+    """The JSON form of a plant check (also used in reports).
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant checked.
+    survey : PlantSurvey
+        Its survey (:func:`dampctl.survey.survey_plant`).
+
+    Returns
+    -------
+    dict
+        JSON-ready mapping with keys ``plant``, ``fingerprint``, ``modes``, ``first_freq_hz``,
+        ``pairs``, ``unseen_modes``, ``clusters``, ``dominant_modes`` and ``warnings``.
+    """
     return {
         "plant": plant.title,
         "fingerprint": plant.fingerprint,
@@ -65,17 +87,42 @@ def check_payload(plant, survey) -> dict:
     }
 
 
+def _count(n: int, word: str) -> str:
+    return f"{n} {word}" if n == 1 else f"{n} {word}s"
+
+
 def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
-    """Run ``dampctl check``; exit 0."""
+    """Run ``dampctl check``.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        Parsed options.
+    out, err : file-like
+        Streams for results and for messages.
+
+    Returns
+    -------
+    int
+        Exit code 0 (bad input raises a DampctlError, turned into exit 2 by the CLI).
+    """
+    if not 0.0 < args.cluster_tol < 1.0:
+        raise UsageError(f"--cluster-tol: expected a fraction in (0, 1), got {args.cluster_tol}")
     plant = load_plant(args.plant)
     survey = survey_plant(plant, cluster_tol=args.cluster_tol)
     if args.json:
         print_json(check_payload(plant, survey), out)
         return 0
-    out.write(
-        f"{plant.title or args.plant}: {plant.n_modes} modes, {len(plant.actuators)} "
-        f"actuators, {len(plant.sensors)} sensors, {len(plant.pairs)} candidate pairs\n\n"
+    counts = ", ".join(
+        _count(n, word)
+        for n, word in (
+            (plant.n_modes, "mode"),
+            (len(plant.actuators), "actuator"),
+            (len(plant.sensors), "sensor"),
+            (len(plant.pairs), "candidate pair"),
+        )
     )
+    out.write(f"{plant.title or args.plant}: {counts}\n\n")
     rows = [
         (k + 1, m.label, m.freq_hz, m.damping, m.modal_mass_kg) for k, m in enumerate(plant.modes)
     ]

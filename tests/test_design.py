@@ -1,0 +1,147 @@
+"""The Design value: file round trip, state space vs branch responses, plant fingerprint."""
+
+import json
+
+import control
+import numpy as np
+import pytest
+
+from dampctl.design import Branch, Design, Loop, Section, design_from_dict, load_design
+from dampctl.errors import DesignError
+from dampctl.testing import chain_plant
+
+
+def loop_design(plant) -> Design:
+    w = 2 * np.pi * 300.0
+    loops = (
+        Loop(
+            pair="p1",
+            actuator="f1",
+            sensor="v1",
+            gain=40.0,
+            branches=(Branch(40.0, sections=(Section((w,), (1.0, w)),), label="roll-off"),),
+        ),
+        Loop(
+            pair="q2",
+            actuator="f2",
+            sensor="x2",
+            gain=-0.5,
+            branches=(
+                Branch(-5e3, sections=(Section((1.0,), (1.0, 2 * 0.3 * 60.0, 60.0**2)),)),
+                Branch(
+                    2.0, sections=(Section((1.0, 0.0), (1.0, 10.0)), Section((3.0,), (1.0, 3.0)))
+                ),
+            ),
+        ),
+    )
+    return Design(
+        law="ppf",
+        plant_fingerprint=plant.fingerprint,
+        actuators=("f1", "f2"),
+        sensors=("v1", "x2"),
+        target_modes=(1, 2),
+        loops=loops,
+        pairs=("p1", "q2"),
+        plant_title=plant.title,
+        info={"target_damping": 0.05, "freqs": np.array([1.0, 2.0]), "none": float("inf")},
+    )
+
+
+def lqg_design(plant) -> Design:
+    rng = np.random.default_rng(3)
+    A = -np.eye(3) * 50.0 + rng.normal(size=(3, 3))
+    return Design(
+        law="lqg",
+        plant_fingerprint=plant.fingerprint,
+        actuators=("f1",),
+        sensors=("x1", "x2"),
+        target_modes=(1,),
+        controller=(A, rng.normal(size=(3, 2)), rng.normal(size=(1, 3)), np.zeros((1, 2))),
+    )
+
+
+@pytest.fixture(scope="module")
+def plant():
+    return chain_plant([1.0, 0.5], [5e5, 2e5], damping=0.01)
+
+
+def test_json_round_trip(tmp_path, plant):
+    for design in (loop_design(plant), lqg_design(plant)):
+        path = tmp_path / f"{design.law}.json"
+        path.write_text(design.to_json(), encoding="utf-8")
+        again = load_design(path)
+        assert again.to_json() == design.to_json()
+        assert again.loops == design.loops
+        f = np.geomspace(1.0, 1e4, 50)
+        np.testing.assert_array_equal(again.response(f), design.response(f))
+        data = json.loads(path.read_text())
+        assert data["sign_convention"] == "u = -K(s) y"
+    info = json.loads(loop_design(plant).to_json())["info"]
+    assert info == {"target_damping": 0.05, "freqs": [1.0, 2.0], "none": None}
+
+
+def test_loop_state_space_matches_branch_responses(plant):
+    # The state-space realization of each loop (our code) against python-control's frequency
+    # response of it, and against the sum of the branches' rational functions evaluated directly.
+    design = loop_design(plant)
+    f = np.geomspace(0.5, 5e3, 200)
+    s = 2j * np.pi * f
+    for loop in design.loops:
+        A, B, C, D = loop.statespace_matrices()
+        direct = sum(
+            b.gain
+            * np.prod([np.polyval(x.num, s) / np.polyval(x.den, s) for x in b.sections], axis=0)
+            for b in loop.branches
+        )
+        np.testing.assert_allclose(loop.response(f), direct, rtol=1e-12)
+        ref = control.frequency_response(control.ss(A, B, C, D), 2 * np.pi * f).complex
+        np.testing.assert_allclose(np.ravel(ref), direct, rtol=1e-10)
+    whole = control.frequency_response(design.statespace(), 2 * np.pi * f).complex
+    np.testing.assert_allclose(
+        np.asarray(whole).reshape(2, 2, -1), design.response(f), rtol=1e-10, atol=1e-14
+    )
+    lqg = lqg_design(plant)
+    ref = control.frequency_response(lqg.statespace(), 2 * np.pi * f).complex
+    np.testing.assert_allclose(np.asarray(ref).reshape(1, 2, -1), lqg.response(f), rtol=1e-10)
+
+
+def test_fingerprint_mismatch(plant):
+    design = loop_design(plant)
+    design.check_plant(plant)
+    other = chain_plant([1.0, 0.5], [5e5, 2.1e5], damping=0.01)
+    with pytest.raises(DesignError, match=r"d\.json: plant_fingerprint: was designed for a plant"):
+        design.check_plant(other, source="d.json")
+
+
+def test_fingerprint_ignores_outputs_and_requirements(plant):
+    from dataclasses import replace
+
+    from dampctl.components import Requirements
+
+    assert replace(plant, requirements=Requirements(modes=(1,)), title="x").fingerprint == (
+        plant.fingerprint
+    )
+
+
+def test_invalid_designs(plant, tmp_path):
+    with pytest.raises(DesignError, match="law must be one of"):
+        Design(law="pid", plant_fingerprint="x", actuators=(), sensors=(), target_modes=())
+    with pytest.raises(DesignError, match="either loops"):
+        Design(law="dvf", plant_fingerprint="x", actuators=(), sensors=(), target_modes=())
+    with pytest.raises(DesignError, match="proper"):
+        Section((1.0, 0.0, 0.0), (1.0, 1.0))
+    with pytest.raises(DesignError, match="degree <= 2"):
+        Section((1.0,), (1.0, 1.0, 1.0, 1.0))
+    with pytest.raises(DesignError, match="no controller branches"):
+        Loop(pair="p", actuator="a", sensor="s", gain=1.0, branches=())
+    data = json.loads(loop_design(plant).to_json())
+    del data["law"]
+    with pytest.raises(DesignError, match=r"f\.json: law: missing required key"):
+        design_from_dict(data, source="f.json")
+    bad = tmp_path / "bad.json"
+    bad.write_text("{not json", encoding="utf-8")
+    with pytest.raises(DesignError, match="not a JSON design file"):
+        load_design(bad)
+    bad.write_text('{"format": "other"}', encoding="utf-8")
+    with pytest.raises(DesignError, match="format: not a dampctl design"):
+        load_design(bad)
