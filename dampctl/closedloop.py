@@ -193,6 +193,16 @@ def reference_omega(plant) -> float:
 
     Every closed-loop computation of poles with a delay (tuning, sizing, tables, assessment)
     uses this reference, so their damping figures agree.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant.
+
+    Returns
+    -------
+    float
+        1.5 × its highest natural frequency (rad/s).
     """
     return 1.5 * float(np.max(plant.omegas))
 

@@ -64,6 +64,7 @@ __all__ = [
     "DiscreteLoop",
     "DiscretePath",
     "ParallelForm",
+    "centre_frequency",
     "discretize",
     "sos_response",
     "transmission_zeros",

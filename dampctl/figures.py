@@ -18,6 +18,7 @@ import numpy as np
 
 __all__ = [
     "Drawn",
+    "assessment_limit",
     "assessment_pngs",
     "plot_cumulative_rms",
     "plot_damping",
@@ -312,7 +313,19 @@ def plot_third_octave(assessment, output: int = 0, *, ax=None) -> Drawn:
 
 
 def assessment_limit(assessment, output: str) -> float | None:
-    """The max_rms requirement on an output, if any."""
+    """The max_rms requirement (SI unit of the output) on an output, if any.
+
+    Parameters
+    ----------
+    assessment : Assessment
+        The assessment.
+    output : str
+        Performance-output name.
+
+    Returns
+    -------
+    float or None
+    """
     for r in assessment.requirements:
         if r.name == f"max_rms.{output}":
             return float(r.required)

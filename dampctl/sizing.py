@@ -207,6 +207,8 @@ class SizingResult:
         Candidate pairs the law refused, with the reason.
     evaluations : int
         Closed-loop eigenvalue problems solved by the batched search.
+    rank_rule : str
+        The rank rule stated in the output (near-repeated clusters need as many pairs).
     seconds : float
         Wall time of the whole sizing (s).
     """

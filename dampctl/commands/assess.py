@@ -18,7 +18,13 @@ HELP = "assess a design on its plant: damping, margins, robustness, RMS response
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    """Options of ``dampctl assess``."""
+    """Options of ``dampctl assess``.
+
+    Parameters
+    ----------
+    parser : argparse.ArgumentParser
+        The subcommand's parser.
+    """
     parser.add_argument("plant", help="plant file (TOML)")
     parser.add_argument("design", help="design file (JSON) written by dampctl tune")
     parser.add_argument(
@@ -62,7 +68,20 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
-    """Run ``dampctl assess``; exit 0 all requirements met, 1 one is not."""
+    """Run ``dampctl assess``; exit 0 all requirements met, 1 one is not.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        Parsed options.
+    out, err : file-like
+        Streams for results and for messages.
+
+    Returns
+    -------
+    int
+        Exit code (bad input raises a DampctlError, turned into exit 2 by the CLI).
+    """
     if not math.isfinite(args.drift) or not 0.0 <= args.drift < 1.0:
         raise UsageError(f"--drift: expected a fraction in [0, 1), got {args.drift}")
     if args.delay_s is not None and (not math.isfinite(args.delay_s) or args.delay_s < 0):

@@ -32,7 +32,13 @@ LAWS = ("dvf", "iff", "ppf")
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    """Options of ``dampctl demo``."""
+    """Options of ``dampctl demo``.
+
+    Parameters
+    ----------
+    parser : argparse.ArgumentParser
+        The subcommand's parser.
+    """
     parser.add_argument("-o", "--output", default="dampctl-demo", metavar="DIR",
                         help="folder to create for every file (default ./dampctl-demo)")
     parser.add_argument("--force", action="store_true",
@@ -47,7 +53,20 @@ def _say(err: TextIO, quiet: bool, text: str) -> None:
 
 
 def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
-    """Run ``dampctl demo``; exit 0 when the design meets every requirement, 1 otherwise."""
+    """Run ``dampctl demo``; exit 0 when the design meets every requirement, 1 otherwise.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        Parsed options.
+    out, err : file-like
+        Streams for results and for messages.
+
+    Returns
+    -------
+    int
+        Exit code (bad input raises a DampctlError, turned into exit 2 by the CLI).
+    """
     from dampctl.export import export_design
     from dampctl.figures import assessment_pngs
     from dampctl.figures_sizing import sizing_pngs

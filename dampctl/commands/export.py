@@ -20,7 +20,13 @@ HELP = "discretize a design into second-order sections, verify the sampled loop,
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    """Options of ``dampctl export``."""
+    """Options of ``dampctl export``.
+
+    Parameters
+    ----------
+    parser : argparse.ArgumentParser
+        The subcommand's parser.
+    """
     parser.add_argument("plant", help="plant file (TOML)")
     parser.add_argument("design", help="design file (JSON, from tuning)")
     parser.add_argument(
@@ -93,7 +99,20 @@ def _formats(text: str) -> list[str]:
 
 
 def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
-    """Run ``dampctl export``; exit 0 done, 1 refused or unstable or requirement unmet."""
+    """Run ``dampctl export``; exit 0 done, 1 refused or unstable or requirement unmet.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        Parsed options.
+    out, err : file-like
+        Streams for results and for messages.
+
+    Returns
+    -------
+    int
+        Exit code (bad input raises a DampctlError, turned into exit 2 by the CLI).
+    """
     formats = _formats(args.format)
     prewarp = _prewarp(args.prewarp)
     if Path(args.output).exists() and not Path(args.output).is_dir():

@@ -25,7 +25,13 @@ HELP = "write a self-contained HTML report of a design on its plant"
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    """Options of ``dampctl report``."""
+    """Options of ``dampctl report``.
+
+    Parameters
+    ----------
+    parser : argparse.ArgumentParser
+        The subcommand's parser.
+    """
     parser.add_argument("plant", help="plant file (TOML)")
     parser.add_argument("design", help="design file written by dampctl tune (JSON)")
     parser.add_argument("-o", "--output", required=True, metavar="FILE",
@@ -110,7 +116,20 @@ def report_html(
 
 
 def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
-    """Run ``dampctl report``; exit 0 when every requirement is met, 1 otherwise."""
+    """Run ``dampctl report``; exit 0 when every requirement is met, 1 otherwise.
+
+    Parameters
+    ----------
+    args : argparse.Namespace
+        Parsed options.
+    out, err : file-like
+        Streams for results and for messages.
+
+    Returns
+    -------
+    int
+        Exit code (bad input raises a DampctlError, turned into exit 2 by the CLI).
+    """
     plant = load_plant(args.plant)
     design = load_design(args.design)
     design.check_plant(plant, source=args.design)

@@ -20,3 +20,5 @@ Model-based (MIMO)
 Sign convention for all laws: u = −K(s) y (negative feedback). Import the law modules
 directly (``from dampctl.laws import dvf``); nothing is imported here at package import.
 """
+
+__all__: list[str] = []

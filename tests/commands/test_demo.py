@@ -48,7 +48,7 @@ def test_demo_runs_the_whole_job_inside_its_folder(tmp_path):
 def test_demo_refuses_an_existing_folder(tmp_path):
     folder = tmp_path / "taken"
     folder.mkdir()
-    code, out, err = _run(["demo", "-o", str(folder)])
+    code, _out, err = _run(["demo", "-o", str(folder)])
     assert code == 2
     assert "already exists" in err and err.count("\n") == 1
     assert list(folder.iterdir()) == []
