@@ -174,7 +174,7 @@ def build() -> ModalPlant:
         Output(name="probe_x", kind="relative_displacement", between=("frame_x", "tool_x")),
         Output(name="probe_y", kind="relative_displacement", between=("frame_y", "tool_y")),
     ]
-    floor_psd = np.array([[5.0, 4e-2], [80.0, 4e-2], [400.0, 4e-3], [3000.0, 1e-5]])
+    floor_psd = np.array([[5.0, 4e-6], [80.0, 4e-6], [400.0, 4e-7], [3000.0, 1e-9]])
     disturbances = [
         Disturbance(name="floor_x", site="frame_x", psd=floor_psd),
         Disturbance(name="floor_y", site="frame_y", psd=floor_psd),
@@ -187,7 +187,7 @@ def build() -> ModalPlant:
         loop_delay_s=2e-5,
         min_gain_margin_db=6.0,
         min_phase_margin_deg=35.0,
-        max_rms={"probe_x": 2e-9, "probe_y": 2e-9},
+        max_rms={"probe_x": 6e-9, "probe_y": 6e-9},
     )
     return ModalPlant(
         modes=modes,
