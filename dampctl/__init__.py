@@ -18,12 +18,21 @@ Assessment
     assess, Assessment
         closed-loop modes, margins, robustness, RMS response, effort, requirements
 
+Discrete time
+    discretize, export_design
+        second-order sections / state space at a sample rate, fixed point, verified in the
+        sampled loop (dampctl.discrete, dampctl.export)
+
+Damping laws
+    dampctl.laws.dvf, .iff, .ppf, .lqg: ``design(plant, ...) -> Design``
+
 Errors
     DampctlError and its subclasses (see :mod:`dampctl.errors`)
 """
 
 from dampctl.assess import Assessment, assess
 from dampctl.design import Branch, Design, Loop, Section, load_design
+from dampctl.discrete import discretize
 from dampctl.errors import (
     DampctlError,
     DesignError,
@@ -34,6 +43,7 @@ from dampctl.errors import (
     PlantFileError,
     UsageError,
 )
+from dampctl.export import export_design
 from dampctl.plant import (
     Actuator,
     Disturbance,
@@ -74,7 +84,9 @@ __all__ = [
     "SizingResult",
     "UsageError",
     "assess",
+    "discretize",
     "dump_plant",
+    "export_design",
     "load_design",
     "load_plant",
     "parse_plant",
