@@ -575,8 +575,11 @@ class ModalPlant:
         Evaluates H = Σ_i c_i (jω)^order b_i / (ω_i² − ω² + 2jζ_iω_iω) + D as one real matrix
         product of the (real) rank-one residues c_i b_i with the modal basis
         1/(ω_i² − ω² + 2jζ_iω_iω), its complex entries read as pairs of reals, so the cost is
-        one (n_out·n_in) × n_modes × (2 n_freq) real product, done in blocks of frequencies
-        so that the basis stays in cache; (jω)^order is applied per output afterwards.
+        one (n_out·n_in) × n_modes × (2 n_freq) real product. The frequencies go in blocks:
+        each block's basis is built in scratch arrays allocated once per call (so they stay
+        in cache and no memory is touched afresh per block), the product is written straight
+        into the result, and (jω)^order and D are applied to the block while it is in cache.
+        All in float64; nothing is kept between calls.
         """
         freq = np.asarray(freq_hz, dtype=float).ravel()
         if not np.all(np.isfinite(freq)) or np.any(freq < 0):
@@ -587,34 +590,45 @@ class ModalPlant:
         w = 2.0 * np.pi * freq
         n_modes, n_f = w_i.size, w.size
         residues = (c[:, None, :] * b.T[None, :, :]).reshape(n_out * n_in, n_modes)
-        w2_i, minus_two_zw = w_i * w_i, -2.0 * z_i * w_i
-        h = np.empty((n_out * n_in, n_f), dtype=complex)
-        # frequencies in blocks small enough for the modal basis to stay in cache
-        for lo in range(0, n_f, _FRF_BLOCK):
-            wb = w[lo : lo + _FRF_BLOCK]
-            # modal basis 1/(ω_i² − ω² + 2jζ_iω_iω) = (re − j im)/(re² + im²), in real
-            # arithmetic; its complex entries seen as (re, im) pairs of reals make the sum over
-            # modes one real GEMM whose result, read back as complex, is the response
-            basis = np.empty((n_modes, wb.size), dtype=complex)
-            re = np.subtract.outer(w2_i, wb * wb)
-            im = np.multiply.outer(minus_two_zw, wb)
-            inv_mag = re * re
-            inv_mag += im * im
-            np.reciprocal(inv_mag, out=inv_mag)
-            np.multiply(re, inv_mag, out=basis.real)
-            np.multiply(im, inv_mag, out=basis.imag)
-            h[:, lo : lo + wb.size] = (residues @ basis.view(float)).view(complex)
-        h = h.reshape(n_out, n_in, n_f)
-        for o, order in enumerate(orders):
-            if order == 1:
-                h[o] *= 1j * w
-            elif order == 2:
-                h[o] *= -(w * w)
-        h.real += D[:, :, None]
+        w2_i = (w_i * w_i)[:, None]
+        minus_two_zw = (-2.0 * z_i * w_i)[:, None]
+        h = np.empty((n_out, n_in, n_f), dtype=complex)
+        h_pairs = h.reshape(n_out * n_in, n_f).view(float)  # (re, im) pairs of reals
+        velocity, acceleration = np.flatnonzero(orders == 1), np.flatnonzero(orders == 2)
+        constant = bool(np.any(D != 0.0))
+        size = max(1, min(_FRF_BLOCK, n_f))
+        re, im, mag2, square = (np.empty((n_modes, size)) for _ in range(4))
+        basis = np.empty((n_modes, size), dtype=complex)
+        for lo in range(0, n_f, size):
+            hi = min(lo + size, n_f)
+            wb, m = w[lo:hi], hi - lo
+            # modal basis 1/(ω_i² − ω² + 2jζ_iω_iω) = (re + j im)/(re² + im²), re = ω_i² − ω²,
+            # im = −2ζ_iω_iω, in real arithmetic (one rounded division per part); its complex
+            # entries seen as (re, im) pairs of reals make the sum over modes one real GEMM
+            # whose result, read as complex, is the response
+            r, i, g, z = re[:, :m], im[:, :m], mag2[:, :m], basis[:, :m]
+            np.subtract(w2_i, wb * wb, out=r)
+            np.multiply(minus_two_zw, wb, out=i)
+            np.multiply(r, r, out=g)
+            g += np.multiply(i, i, out=square[:, :m])
+            np.divide(r, g, out=z.real)
+            np.divide(i, g, out=z.imag)
+            np.matmul(residues, z.view(float), out=h_pairs[:, 2 * lo : 2 * hi])
+            block = h[:, :, lo:hi]
+            if velocity.size:
+                jw = 1j * wb
+                for o in velocity:
+                    block[o] *= jw
+            if acceleration.size:
+                minus_w2 = -(wb * wb)
+                for o in acceleration:
+                    block[o] *= minus_w2
+            if constant:
+                block.real += D[:, :, None]
         return h
 
 
-_FRF_BLOCK = 1024  # frequencies per block in ModalPlant.frf (basis: n_modes × 16 kB)
+_FRF_BLOCK = 512  # frequencies per block in ModalPlant.frf (scratch: 6 rows of 4 kB per mode)
 
 
 def _readonly(array: np.ndarray) -> np.ndarray:
