@@ -100,12 +100,19 @@ def write_files(
     """
     folder = Path(folder)
     inputs = list(inputs)
+    if folder.exists() and not folder.is_dir():
+        raise OutputError("exists and is not a folder (choose a folder)", source=str(folder))
     targets = [folder / name for name in files]
     for target in targets:
         check_not_input(target, inputs)
         if target.exists() and not replace:
             raise OutputError("already exists (use --force to replace)", source=str(target))
-    folder.mkdir(parents=True, exist_ok=True)
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise OutputError(
+            f"cannot create the folder ({exc.strerror or exc})", source=str(folder)
+        ) from None
     staging = Path(tempfile.mkdtemp(prefix=".dampctl-", dir=folder))
     try:
         for name, content in files.items():

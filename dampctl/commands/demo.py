@@ -74,6 +74,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     from dampctl.writers import export_files, payload
 
     folder = Path(args.output)
+    if folder.exists() and not folder.is_dir():
+        raise OutputError("exists and is not a folder (choose another -o DIR)", source=str(folder))
     if folder.exists() and not args.force:
         raise OutputError("already exists (choose another -o DIR, or --force to write into it)",
                           source=str(folder))

@@ -1,0 +1,21 @@
+"""Safe output: a folder target that is a file, or cannot be made, is a clear OutputError."""
+
+import pytest
+
+from dampctl.errors import OutputError
+from dampctl.fileio import write_files
+
+
+def test_write_files_refuses_a_file_as_folder(tmp_path):
+    path = tmp_path / "plant.toml"
+    path.write_text("x")
+    with pytest.raises(OutputError, match="is not a folder"):
+        write_files(path, {"a.png": b"1"})
+    assert path.read_text() == "x"
+
+
+def test_write_files_reports_a_folder_it_cannot_create(tmp_path):
+    blocker = tmp_path / "file"
+    blocker.write_text("x")
+    with pytest.raises(OutputError, match="cannot create the folder"):
+        write_files(blocker / "sub", {"a.png": b"1"})
