@@ -163,7 +163,7 @@ def _print_human(a, out: TextIO, *, plant_name: str) -> None:
     out.write(table(headers, rows) + "\n")
     out.write(f"(peak reduction: worst over outputs {', '.join(a.curves.frf_outputs)})\n")
     if len(a.controller_poles):
-        out.write("\ncontroller, roll-off and delay (Pade) poles:\n")
+        out.write(f"\n{d['controller_poles_note']}:\n")
         rows = [(p["freq_hz"], p["damping"]) for p in d["controller_poles"]]
         out.write(table(["freq (Hz)", "damping"], rows) + "\n")
     out.write("\nmargins (each loop broken at the plant input, the others closed):\n")

@@ -192,7 +192,8 @@ def tune_payload(plant, design, modes, *, design_file: str | None = None) -> dic
         Keys ``law``, ``plant``, ``plant_fingerprint``, ``pairs``, ``actuators``, ``sensors``,
         ``loops``, ``stable``, ``max_real``, ``delay_s``, ``note``, ``target_modes``,
         ``target_damping``, ``target_met``, ``min_damping``, ``modes``, ``controller_poles``,
-        ``info``, ``design_file``, ``warnings``.
+        ``controller_poles_note``, ``overdamped_modes``, ``info``, ``design_file``,
+        ``warnings``.
     """
     info = dict(design.info)
     units = list(info.get("gain_units", []))
@@ -243,6 +244,8 @@ def tune_payload(plant, design, modes, *, design_file: str | None = None) -> dic
         "min_damping": smallest,
         "modes": table_dict["modes"],
         "controller_poles": table_dict["controller_poles"],
+        "controller_poles_note": table_dict["controller_poles_note"],
+        "overdamped_modes": table_dict["overdamped_modes"],
         "info": info,
         "design_file": design_file,
         "warnings": warnings,
@@ -275,8 +278,9 @@ def _print_human(payload: dict, modes, out: TextIO) -> None:
     out.write(table(list(TABLE_HEADERS), modes.table_rows()) + "\n")
     poles = payload["controller_poles"]
     if poles:
-        listing = ", ".join(f"{p['freq_hz']:.4g} Hz (damping {p['damping']:.3g})" for p in poles)
-        out.write(f"controller poles: {listing}\n")
+        out.write(f"\n{payload['controller_poles_note']}:\n")
+        out.write(table(["freq (Hz)", "damping"], [(p["freq_hz"], p["damping"]) for p in poles]))
+        out.write("\n")
     out.write(f"stable: {'yes' if payload['stable'] else 'NO'}\n")
     _print_law_facts(info, out)
     target = payload["target_damping"]
