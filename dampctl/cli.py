@@ -8,6 +8,7 @@ requirement met), 1 done but a requirement of the plant file is not met, 2 bad i
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 from collections.abc import Sequence
 from typing import TextIO
@@ -92,5 +93,17 @@ def main(
 
 
 def entry_point() -> None:
-    """Console-script entry: ``sys.exit(main())``."""
-    sys.exit(main())
+    """Console-script entry: ``sys.exit(main())``.
+
+    A reader that stops early (``dampctl check plant.toml | head``) ends the output quietly,
+    as other command-line tools do, instead of with a traceback.
+    """
+    try:
+        code = main()
+        sys.stdout.flush()
+    except BrokenPipeError:
+        # the reader closed the pipe: drop what is left of stdout without a second error
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        code = 1
+    sys.exit(code)

@@ -74,10 +74,19 @@ def print_json(payload: Any, out: TextIO) -> None:
 
 
 def table(headers: Sequence[str], rows: Sequence[Sequence[Any]]) -> str:
-    """Plain-text table with right-aligned columns."""
+    """Plain-text table: numbers right-aligned, columns of words (names, labels) left-aligned."""
     cells = [[str(h) for h in headers]] + [[_cell(v) for v in row] for row in rows]
     widths = [max(len(r[k]) for r in cells) for k in range(len(headers))]
-    lines = ["  ".join(c.rjust(w) for c, w in zip(r, widths, strict=True)) for r in cells]
+    words = [
+        bool(rows) and all(_is_word(row[k]) for row in rows) for k in range(len(headers))
+    ]
+    lines = [
+        "  ".join(
+            c.ljust(w) if left else c.rjust(w)
+            for c, w, left in zip(r, widths, words, strict=True)
+        ).rstrip()
+        for r in cells
+    ]
     lines.insert(1, "  ".join("-" * w for w in widths))
     return "\n".join(lines)
 
@@ -90,5 +99,18 @@ def _cell(value: Any) -> str:
     if isinstance(value, float | np.floating):
         if not math.isfinite(value):
             return "inf" if value > 0 else ("-inf" if value < 0 else "nan")
+        if 1e4 <= abs(value) < 1e6:
+            return f"{value:.0f}"  # 15014 rather than 1.501e+04
         return f"{value:.4g}"
     return str(value)
+
+
+def _is_word(value: Any) -> bool:
+    """A cell of text that is not a number (left-aligned); blanks and "-" do not decide."""
+    if not isinstance(value, str):
+        return False
+    try:
+        float(value)
+    except ValueError:
+        return True
+    return False

@@ -77,7 +77,7 @@ def test_human_output():
     assert f"first natural frequency: {min(plant.freqs_hz):.4g} Hz" in out
     assert "participation: share of each mode's Hankel singular value" in out
     for pair in plant.pairs:
-        assert f" {pair.name} " in out
+        assert f"\n{pair.name} " in out
     assert "output probe_x: motion dominated by mode" in out
     assert "near-repeated" in out
     code, out, _ = run(str(PLANTS / "oscillator.toml"))

@@ -1,0 +1,11 @@
+"""Text tables: names left-aligned, numbers right-aligned, no exponent below a million."""
+
+from dampctl.commands._common import table
+
+
+def test_words_left_numbers_right_and_plain_large_numbers():
+    text = table(["pair", "freq (Hz)"], [["vx1", 15014.2], ["long_name", 2.5]])
+    lines = text.splitlines()
+    assert lines[2] == "vx1            15014"
+    assert lines[3] == "long_name        2.5"
+    assert "e+04" not in text
