@@ -267,6 +267,12 @@ def integration_grid(plant, design, closed_poles: np.ndarray = ()) -> np.ndarray
     """
     parts = [default_grid(plant, design)]
     offsets = np.linspace(-8.0, 8.0, 81)
+    # 0.05 ζ steps over each mode's half-power band ±2 ζ, where the loop's resonance circle
+    # turns: the Nyquist curve drawn from this grid reads as a circle, not a polygon
+    fine = np.linspace(-2.0, 2.0, 81)
+    for f, z in zip(plant.freqs_hz, plant.dampings, strict=True):
+        if z > 0:  # an undamped mode's own frequency stays out of the grid (infinite response)
+            parts.append(f * np.exp(z * fine))
     for p in np.asarray(closed_poles, dtype=complex):
         if abs(p) > 0 and p.imag >= 0:
             zeta = min(max(-p.real / abs(p), 1e-4), 1.0)
