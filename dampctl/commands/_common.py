@@ -77,9 +77,10 @@ def table(headers: Sequence[str], rows: Sequence[Sequence[Any]]) -> str:
     """Plain-text table: numbers right-aligned, columns of words (names, labels) left-aligned."""
     cells = [[str(h) for h in headers]] + [[_cell(v) for v in row] for row in rows]
     widths = [max(len(r[k]) for r in cells) for k in range(len(headers))]
-    words = [
-        bool(rows) and all(_is_word(row[k]) for row in rows) for k in range(len(headers))
-    ]
+    words = []
+    for k in range(len(headers)):
+        kinds = [_is_word(row[k]) for row in rows]
+        words.append(True in kinds and False not in kinds)
     lines = [
         "  ".join(
             c.ljust(w) if left else c.rjust(w)
@@ -105,8 +106,11 @@ def _cell(value: Any) -> str:
     return str(value)
 
 
-def _is_word(value: Any) -> bool:
-    """A cell of text that is not a number (left-aligned); blanks and "-" do not decide."""
+def _is_word(value: Any) -> bool | None:
+    """True for text that is not a number (left-aligned), None for blanks and "-" (they do not
+    decide a column's alignment), False otherwise."""
+    if value is None or (isinstance(value, str) and value.strip() in ("", "-")):
+        return None
     if not isinstance(value, str):
         return False
     try:
