@@ -13,4 +13,4 @@ def test_words_left_numbers_right_and_plain_large_numbers():
 
 def test_dashes_and_blanks_do_not_turn_a_number_column_left():
     text = table(["pair", "m1"], [["vx1", "-"], ["vx2", "0.25"], ["dx1", ""]])
-    assert text.splitlines()[2] == "vx1     -"
+    assert text.splitlines()[2] == "vx1      -"
