@@ -320,9 +320,11 @@ def _print_law_facts(info: dict, out: TextIO) -> None:
             f"gain {info['dc_loop_gain']:.4g} (must be < 1)\n"
         )
         rows = [
-            [f["pair"], f["mode"], f["freq_hz"], f["damping"], f["gain"]] for f in info["filters"]
+            [f["pair"], f["mode"], f["freq_hz"], f["damping"], f["gain"], f.get("gain_unit", "")]
+            for f in info["filters"]
         ]
-        out.write(table(["pair", "mode", "filter (Hz)", "filter damping", "gain"], rows) + "\n")
+        headers = ["pair", "mode", "filter (Hz)", "filter damping", "gain k", "unit"]
+        out.write(table(headers, rows) + "\n")
     if info.get("roll_off_hz"):
         out.write(f"\nroll-off corner {info['roll_off_hz']:.4g} Hz ({info['roll_off_rule']})\n")
 
