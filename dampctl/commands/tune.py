@@ -254,11 +254,14 @@ def tune_payload(plant, design, modes, *, design_file: str | None = None) -> dic
 
 def _print_human(payload: dict, modes, out: TextIO) -> None:
     title = payload["plant"] or "plant"
-    pairs = ", ".join(payload["pairs"]) or "-"
-    out.write(
-        f"{title}: {payload['law']} on {len(payload['pairs']) or len(payload['actuators'])} "
-        f"loop(s) ({pairs}); design written to {payload['design_file']}\n"
-    )
+    if payload["pairs"]:
+        what = f"{len(payload['pairs'])} loop(s) ({', '.join(payload['pairs'])})"
+    else:  # a model-based controller: actuators and sensors, no pairs
+        what = (
+            f"actuator(s) {', '.join(payload['actuators'])} from sensor(s) "
+            f"{', '.join(payload['sensors'])}"
+        )
+    out.write(f"{title}: {payload['law']} on {what}; design written to {payload['design_file']}\n")
     info = payload["info"]
     if payload["loops"]:
         out.write(f"\ntuning: {info.get('tuning', '-')}\n")
@@ -302,6 +305,33 @@ def _print_human(payload: dict, modes, out: TextIO) -> None:
 
 
 def _print_law_facts(info: dict, out: TextIO) -> None:
+    model = info.get("design_model")
+    if isinstance(model, dict) and "modes" in model:
+        listed = ", ".join(str(m) for m in model["modes"])
+        order = info.get("controller_order")
+        full = info.get("full_order")
+        reduced = f" (reduced from {full})" if full and order and full != order else ""
+        out.write(
+            f"\nLQG design model: modes {listed} (targets "
+            f"{', '.join(str(m) for m in model.get('targets', [])) or '-'}; neighbours "
+            f"{', '.join(str(m) for m in model.get('neighbours', [])) or '-'}); "
+            f"controller order {order}{reduced}\n"
+        )
+        estimator = info.get("estimator") or {}
+        if estimator.get("estimator_damping"):
+            regulator = (info.get("regulator") or {}).get("regulator_damping")
+            regulator = regulator or [None] * len(model["modes"])
+            rows = [
+                [m, r, e]
+                for m, r, e in zip(
+                    model["modes"], regulator, estimator["estimator_damping"], strict=False
+                )
+            ]
+            out.write(table(["mode", "regulator damping", "estimator damping"], rows) + "\n")
+            out.write(
+                "(on the design model the closed-loop poles are the regulator's and the "
+                "estimator's (separation principle): each mode keeps the less damped of the two)\n"
+            )
     if "achievable" in info:
         out.write(
             f"\nIFF leak {info['leak_hz']:.4g} Hz; achievable damping per target mode "

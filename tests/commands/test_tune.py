@@ -247,3 +247,13 @@ def test_lqg_gets_actuators_and_sensors_from_pairs(strut_file, tmp_path, monkeyp
     )
     assert code in (0, 1), err
     assert calls == {"actuators": ["f2"], "sensors": ["v2"], "order": 4, "modes": [2]}
+
+
+def test_lqg_human_output_names_hardware_and_design_model(chain_file, tmp_path):
+    code, out, err = _run(
+        chain_file, "--law", "lqg", "--actuators", "f1", "--sensors", "v1", "--modes", "1",
+        "--target-damping", "0.02", "-o", tmp_path / "d.json",
+    )  # fmt: skip
+    assert code in (0, 1), err
+    assert "lqg on actuator(s) f1 from sensor(s) v1" in out and "(-)" not in out
+    assert "LQG design model: modes" in out and "estimator damping" in out
