@@ -226,7 +226,7 @@ def _print_human(a, out: TextIO, *, plant_name: str) -> None:
                 o["closed_rms"],
                 o["noise_rms"],
                 o["reduction_db"],
-                (o.get("vc_closed") or {}).get("curve", ""),
+                (o.get("vc_closed") or {}).get("curve") or "-",
             )
             for o in d["rms"]
         ]
