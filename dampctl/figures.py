@@ -281,7 +281,7 @@ def plot_nyquist(assessment, loop: int = 0, *, ax=None) -> Drawn:
     clipped = " (view clipped at |L| = 20)" if largest > reach * 1.05 else ""
     ax.set_title(f"Nyquist, loop {assessment.pairs[loop]}{clipped}")
     ax.grid(True, alpha=0.3)
-    ax.legend(frameon=False, loc="upper right")
+    ax.legend(loc="best", framealpha=0.85, fontsize="small")
     return Drawn(figure, ax, (*line, *mirror, *crit, *circle))
 
 
