@@ -253,11 +253,14 @@ def _human(result, failures, unmet, written, extra_notes, out: TextIO) -> None:
     v, fv = result.verification, result.fixed_verification
     out.write(
         "\nsampled closed loop (ZOH plant, one sample of computation delay) beside the "
-        "continuous design\n"
+        "continuous design with the plant's loop_delay_s only (no sampling delay; tune and "
+        "assess add 1.5 samples to it)\n"
     )
-    headers = ["mode", "target", "sampled f (Hz)", "continuous damping", "sampled damping"]
+    headers = [
+        "mode", "target", "sampled f (Hz)", "continuous damping (no sampling)", "sampled damping"
+    ]  # fmt: skip
     if fv is not None:
-        headers.append(result.fixed)
+        headers.append(f"sampled, {result.fixed} coefficients")
     rows = []
     for k, mode in enumerate(v.modes):
         row = [
