@@ -64,6 +64,7 @@ def write_text(target: str | Path, text: str | bytes, *, inputs: Iterable[str | 
     try:
         with os.fdopen(fd, "wb") as handle:
             handle.write(data)
+        os.chmod(tmp, _file_mode())  # mkstemp makes it private (0600); give the usual mode
         os.replace(tmp, target)
     except BaseException:
         if os.path.exists(tmp):
@@ -118,8 +119,16 @@ def write_files(
         for name, content in files.items():
             data = content.encode("utf-8") if isinstance(content, str) else content
             (staging / name).write_bytes(data)
+            os.chmod(staging / name, _file_mode())
         for name in files:
             os.replace(staging / name, folder / name)
     finally:
         shutil.rmtree(staging, ignore_errors=True)
     return targets
+
+
+def _file_mode() -> int:
+    """Mode of a new file under the process umask (0644 under the common umask 022)."""
+    mask = os.umask(0)
+    os.umask(mask)
+    return 0o666 & ~mask

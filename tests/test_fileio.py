@@ -19,3 +19,18 @@ def test_write_files_reports_a_folder_it_cannot_create(tmp_path):
     blocker.write_text("x")
     with pytest.raises(OutputError, match="cannot create the folder"):
         write_files(blocker / "sub", {"a.png": b"1"})
+
+
+def test_written_files_get_the_umask_mode_not_private(tmp_path):
+    import os
+
+    from dampctl.fileio import write_text
+
+    mask = os.umask(0o022)
+    try:
+        one = write_text(tmp_path / "report.html", "x")
+        (two,) = write_files(tmp_path / "out", {"a.csv": "1"})
+    finally:
+        os.umask(mask)
+    assert one.stat().st_mode & 0o777 == 0o644
+    assert two.stat().st_mode & 0o777 == 0o644
