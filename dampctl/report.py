@@ -151,12 +151,16 @@ def _plant_section(check: Mapping[str, Any]) -> str:
         out.append("<h3>Candidate pairs</h3><p class='note'>Participation: share of each mode's "
                    "Hankel singular value.</p>")
         n = len(modes)
+        unseen = set(check.get("unseen_modes", []))
+        if unseen:
+            out.append("<p class='note'>– : no pair sees the mode (response below 1e-3 of "
+                       "each pair's strongest mode), so its shares say nothing.</p>")
         rows = []
         for p in pairs:
             row = {"pair": p.get("pair"), "kind": p.get("kind", ""),
                    "collocated": p.get("collocated")}
             for k, share in enumerate(p.get("participation", [])[:n]):
-                row[f"m{k + 1}"] = share
+                row[f"m{k + 1}"] = None if k + 1 in unseen else share
             rows.append(row)
         cols = [("pair", "Pair", "text"), ("kind", "Kind", "text"),
                 ("collocated", "Collocated", "text")]

@@ -95,3 +95,12 @@ def test_report_renders_in_headless_chromium(tmp_path):
     assert match, result.stderr[-2000:]
     loaded, total = int(match.group(1)), int(match.group(2))
     assert total >= 1 and loaded == total
+
+
+def test_unseen_mode_shares_are_not_shown():
+    inputs = _inputs()
+    check = dict(inputs.check, unseen_modes=[1])
+    check["pairs"] = [dict(check["pairs"][0], participation=[0.25])]
+    text = render_report(ReportInputs(check=check, design=inputs.design,
+                                      assessment=inputs.assessment, figures={}))
+    assert "no pair sees the mode" in text and "0.25" not in text
