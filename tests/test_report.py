@@ -100,7 +100,7 @@ def test_report_renders_in_headless_chromium(tmp_path):
 def test_unseen_mode_shares_are_not_shown():
     inputs = _inputs()
     check = dict(inputs.check, unseen_modes=[1])
-    check["pairs"] = [dict(check["pairs"][0], participation=[0.25])]
+    check["pairs"] = [dict(check["pairs"][0], participation=[0.4321])]
     text = render_report(ReportInputs(check=check, design=inputs.design,
                                       assessment=inputs.assessment, figures={}))
-    assert "no pair sees the mode" in text and "0.25" not in text
+    assert "no pair sees the mode" in text and "0.4321" not in text
