@@ -137,6 +137,11 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     export = _read_json(args.export, "--export") if args.export else None
     if sizing is not None and "rows" not in sizing:
         raise UsageError(f"--sizing: {args.sizing} is not a sizing result (no 'rows')")
+    if export is not None and not {"rate_hz", "method"} <= set(export):
+        raise UsageError(
+            f"--export: {args.export} is not an export summary (no 'rate_hz'/'method'; give "
+            "the controller.json written by dampctl export)"
+        )
     html, result = report_html(plant, design, sizing=sizing, export=export, delay_s=args.delay_s)
     inputs = [p for p in (args.plant, args.design, args.sizing, args.export) if p]
     path = write_text(args.output, html, inputs=inputs)
