@@ -262,9 +262,11 @@ def _export_section(export: Mapping[str, Any]) -> str:
     verification = (export.get("verification") or {}).get("modes") or []
     if verification:
         out.append("<h3>Verified in discrete time</h3>")
-        out.append(_table(verification, [("mode", "Mode"),
-                                         ("continuous_damping", "Continuous damping"),
-                                         ("discrete_damping", "Discrete damping")]))
+        out.append(_table(verification, [
+            ("mode", "Mode"),
+            ("continuous_damping", "Continuous damping (no sampling delay)"),
+            ("discrete_damping", "Sampled damping (hold + one sample)"),
+        ]))
     files = export.get("files") or []
     if files:
         out.append(_list("Files", [str(f) for f in files]))
@@ -379,6 +381,8 @@ def _num(value: Any) -> str:
         return "0"
     if isinstance(value, int):
         return str(value)
+    if 1e4 <= abs(value) < 1e6:
+        return f"{value:.0f}"  # 20000 Hz, not 2e+04
     return f"{value:.4g}"
 
 

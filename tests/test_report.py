@@ -104,3 +104,11 @@ def test_unseen_mode_shares_are_not_shown():
     text = render_report(ReportInputs(check=check, design=inputs.design,
                                       assessment=inputs.assessment, figures={}))
     assert "no pair sees the mode" in text and "0.4321" not in text
+
+
+def test_export_rate_is_printed_plainly():
+    inputs = _inputs()
+    text = render_report(ReportInputs(check=inputs.check, design=inputs.design,
+                                      assessment=inputs.assessment, figures={},
+                                      export={"rate_hz": 20000.0, "method": "tustin"}))
+    assert "20000 Hz, method tustin" in text and "2e+04" not in text

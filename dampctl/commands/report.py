@@ -101,8 +101,14 @@ def report_html(
         figures[f"{captions.get(key, stem)}{' — ' + detail if detail else ''}"] = png
     if sizing is not None:
         pngs = sizing_figures if sizing_figures is not None else _sizing_pngs(sizing)
+        sizing_captions = {
+            "sizing_damping_cost": "Sizing: smallest damping and cost against the number of pairs",
+            "sizing_mode_damping": "Sizing: damping of each target mode for the best set of "
+            "each size",
+        }
         for name, png in pngs.items():
-            figures[f"Sizing: {Path(name).stem.replace('_', ' ')}"] = png
+            stem = Path(name).stem
+            figures[sizing_captions.get(stem, f"Sizing: {stem.replace('_', ' ')}")] = png
     check = check_payload(plant, survey_plant(plant))
     inputs = ReportInputs(
         check=check,
