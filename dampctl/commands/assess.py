@@ -161,7 +161,10 @@ def _print_human(a, out: TextIO, *, plant_name: str) -> None:
         "target",
     ]
     out.write(table(headers, rows) + "\n")
-    out.write(f"(peak reduction: worst over outputs {', '.join(a.curves.frf_outputs)})\n")
+    out.write(
+        f"(peak reduction: worst over the outputs {', '.join(a.curves.frf_outputs)} whose "
+        "response peaks on the mode; -: on none of them, the mode's peak is not what they show)\n"
+    )
     if len(a.controller_poles):
         out.write(f"\n{d['controller_poles_note']}:\n")
         rows = [(p["freq_hz"], p["damping"]) for p in d["controller_poles"]]
