@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import math
+from dataclasses import replace
 from typing import TextIO
 
 from dampctl.commands._common import SAFETY_LINES, mode_list, name_list, print_json, table
@@ -53,10 +54,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument(
         "--target-damping",
-        type=float,
+        type=_target,
         metavar="Z",
         help="damping ratio to reach on the target modes with the smallest gains (default the "
-        "plant's min_damping; none: maximize the smallest damping)",
+        "plant's min_damping; 'none': dvf/iff/ppf maximize the smallest damping instead)",
     )
     parser.add_argument(
         "--gain",
@@ -134,6 +135,10 @@ def make_design(plant, args: argparse.Namespace):
     law = args.law
     pairs = name_list(args.pairs, "--pairs")
     modes = mode_list(args.modes) or None
+    if args.target_damping == NO_TARGET:
+        # no target even where the plant file states one: the laws then maximize
+        plant = replace(plant, requirements=replace(plant.requirements, min_damping=None))
+        args = argparse.Namespace(**{**vars(args), "target_damping": None})
     if args.target_damping is not None and not 0.0 < args.target_damping < 1.0:
         raise UsageError(f"--target-damping must be in (0, 1), got {args.target_damping}")
     gain = _gains(args.gain)
@@ -357,6 +362,22 @@ def _print_law_facts(info: dict, out: TextIO) -> None:
         out.write(table(headers, rows) + "\n")
     if info.get("roll_off_hz"):
         out.write(f"\nroll-off corner {info['roll_off_hz']:.4g} Hz ({info['roll_off_rule']})\n")
+
+
+#: ``--target-damping none``: tune without a target (maximize the smallest damping)
+NO_TARGET = "none"
+
+
+def _target(text: str):
+    """``--target-damping`` value: a number, or ``none``."""
+    if text.strip().lower() == NO_TARGET:
+        return NO_TARGET
+    try:
+        return float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(
+            f"expected a damping ratio or 'none', got {text!r}"
+        ) from None
 
 
 def _gains(text: str | None):
