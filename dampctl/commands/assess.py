@@ -109,12 +109,25 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         written = write_assessment_pngs(
             result, args.plots, inputs=(args.plant, args.design), replace=args.force
         )
+    tuned = design.info.get("delay_s")
+    note = None
+    if isinstance(tuned, int | float) and not math.isclose(tuned, result.delay_s, rel_tol=1e-6,
+                                                           abs_tol=1e-12):
+        note = (
+            f"the design was tuned for a loop delay of {tuned * 1e6:.4g} us but is assessed with "
+            f"{result.delay_s * 1e6:.4g} us (give --delay-s {tuned:g} to assess it at its "
+            "tuning delay)"
+        )
     if args.json:
         payload = result.to_dict()
+        payload["tuned_delay_s"] = tuned if isinstance(tuned, int | float) else None
+        payload["delay_note"] = note
         payload["plots"] = [str(p) for p in written]
         payload["safety"] = list(SAFETY_LINES)
         print_json(payload, out)
     else:
+        if note:
+            out.write(f"note: {note}\n\n")
         _print_human(result, out, plant_name=plant.title or args.plant)
         for path in written:
             out.write(f"wrote {path}\n")
