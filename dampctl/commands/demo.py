@@ -42,7 +42,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("-o", "--output", default="dampctl-demo", metavar="DIR",
                         help="folder to create for every file (default ./dampctl-demo)")
     parser.add_argument("--force", action="store_true",
-                        help="write into DIR even if it exists (replacing the demo's files)")
+                        help="write into DIR even if it exists, replacing the demo's files "
+                        "(default: refuse)")
     parser.add_argument("--json", action="store_true", help="print a JSON summary on stdout")
 
 

@@ -71,7 +71,9 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument("-o", "--output", required=True, metavar="DIR", help="output folder")
     parser.add_argument(
-        "--force", action="store_true", help="replace files of the same names in DIR"
+        "--force",
+        action="store_true",
+        help="replace files of the same names in DIR (default: refuse)",
     )
     parser.add_argument("--json", action="store_true", help="print JSON on stdout")
 
