@@ -57,6 +57,8 @@ def write_text(target: str | Path, text: str | bytes, *, inputs: Iterable[str | 
     """
     target = Path(target)
     check_not_input(target, inputs)
+    if target.is_dir():
+        raise OutputError("is a folder; give a file name", source=str(target))
     if not target.parent.is_dir():
         raise OutputError(f"folder {target.parent} does not exist", source=str(target))
     data = text.encode("utf-8") if isinstance(text, str) else text

@@ -34,3 +34,11 @@ def test_written_files_get_the_umask_mode_not_private(tmp_path):
         os.umask(mask)
     assert one.stat().st_mode & 0o777 == 0o644
     assert two.stat().st_mode & 0o777 == 0o644
+
+
+def test_write_text_refuses_a_folder_as_file(tmp_path):
+    from dampctl.fileio import write_text
+
+    with pytest.raises(OutputError, match="is a folder"):
+        write_text(tmp_path, "x")
+    assert not list(tmp_path.parent.glob(f".{tmp_path.name}.*.tmp"))

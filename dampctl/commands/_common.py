@@ -34,6 +34,7 @@ def mode_list(text: str | None, option: str = "--modes") -> list[int]:
     if text is None:
         return []
     modes: list[int] = []
+    backwards: list[str] = []
     try:
         for part in text.split(","):
             part = part.strip()
@@ -41,11 +42,15 @@ def mode_list(text: str | None, option: str = "--modes") -> list[int]:
                 continue
             if "-" in part:
                 lo, hi = (int(x) for x in part.split("-", 1))
+                if hi < lo:
+                    backwards.append(part)
                 modes.extend(range(lo, hi + 1))
             else:
                 modes.append(int(part))
     except ValueError:
         raise UsageError(f"{option}: expected mode numbers like 1,2 or 1-4, got {text!r}") from None
+    if backwards:
+        raise UsageError(f"{option}: range {backwards[0]!r} runs backwards (low-high, e.g. 1-4)")
     if any(m < 1 for m in modes):
         raise UsageError(f"{option}: mode numbers start at 1, got {text!r}")
     return sorted(set(modes))

@@ -117,6 +117,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     """
     formats = _formats(args.format)
     prewarp = _prewarp(args.prewarp)
+    if not (math.isfinite(args.tolerance) and args.tolerance > 0):
+        raise UsageError(f"--tolerance: expected a fraction > 0, got {args.tolerance}")
     if Path(args.output).exists() and not Path(args.output).is_dir():
         raise UsageError(f"-o: {args.output} exists and is not a folder")
     plant = load_plant(args.plant)
