@@ -90,6 +90,12 @@ def main(
     except DampctlError as exc:
         err.write(f"dampctl {args.command}: error: {exc}\n")
         return 2
+    except BrokenPipeError:
+        raise  # the reader went away: entry_point ends quietly
+    except OSError as exc:  # a file the system refuses (permissions, full disk ...)
+        where = f"{exc.filename}: " if exc.filename else ""
+        err.write(f"dampctl {args.command}: error: {where}{exc.strerror or exc}\n")
+        return 2
 
 
 def entry_point() -> None:
