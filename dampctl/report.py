@@ -250,9 +250,11 @@ def _assessment_section(assessment: Mapping[str, Any]) -> str:
 
 
 def _export_section(export: Mapping[str, Any]) -> str:
+    fixed = export.get("fixed")
+    fixed_text = f", fixed point {_e(str(fixed))}" if fixed not in (None, "", "none") else ""
     out = ["<h2>Discrete-time export</h2>",
            f"<p>{_num(export.get('rate_hz'))} Hz, method {_e(str(export.get('method', '')))}"
-           f"{', fixed point ' + _e(str(export['fixed'])) if export.get('fixed') else ''}.</p>"]
+           f"{fixed_text}.</p>"]
     loops = export.get("loops") or []
     rows = [{"pair": lp.get("pair"), "gain": lp.get("gain"),
              "sections": len(lp.get("sos") or [])} for lp in loops]
@@ -321,7 +323,7 @@ def _any(value: Any) -> str:
         keys: list[str] = []
         for v in value:
             keys += [k for k in v if k not in keys and not isinstance(v[k], list | Mapping)]
-        return _table(value, [(k, k.replace("_", " "), "text" if _is_text(value, k) else "")
+        return _table(value, [(k, _label(k), "text" if _is_text(value, k) else "")
                               for k in keys])
     return f"<p>{_e(_plain(value))}</p>"
 
@@ -330,12 +332,25 @@ def _mapping(value: Mapping[str, Any]) -> str:
     rows = []
     for key, item in value.items():
         if isinstance(item, Mapping | list) and item and _nested(item):
-            rows.append(f"<tr><th class='text'>{_e(key.replace('_', ' '))}</th>"
+            rows.append(f"<tr><th class='text'>{_e(_label(key))}</th>"
                         f"<td class='text'>{_any(item)}</td></tr>")
         else:
-            rows.append(f"<tr><th class='text'>{_e(key.replace('_', ' '))}</th>"
+            rows.append(f"<tr><th class='text'>{_e(_label(key))}</th>"
                         f"<td class='text'>{_e(_plain(item))}</td></tr>")
     return "<table>" + "".join(rows) + "</table>"
+
+
+#: unit suffixes of JSON keys and how a heading shows them
+_UNITS = {"s": "s", "hz": "Hz", "db": "dB", "deg": "deg", "n": "N", "m": "m", "kg": "kg",
+          "per_s": "1/s"}
+
+
+def _label(key: str) -> str:
+    """Heading for a JSON key: ``delay_margin_s`` -> ``delay margin (s)``, ``rms`` as is."""
+    for suffix in sorted(_UNITS, key=len, reverse=True):
+        if key.endswith("_" + suffix) and len(key) > len(suffix) + 1:
+            return f"{key[: -len(suffix) - 1].replace('_', ' ')} ({_UNITS[suffix]})"
+    return key.replace("_", " ")
 
 
 def _nested(item: Any) -> bool:

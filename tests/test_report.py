@@ -112,3 +112,22 @@ def test_export_rate_is_printed_plainly():
                                       assessment=inputs.assessment, figures={},
                                       export={"rate_hz": 20000.0, "method": "tustin"}))
     assert "20000 Hz, method tustin" in text and "2e+04" not in text
+
+
+def test_json_key_headings_show_units():
+    from dampctl.report import _label
+
+    assert _label("delay_margin_s") == "delay margin (s)"
+    assert _label("min_stable_hz") == "min stable (Hz)"
+    assert _label("reduction_db") == "reduction (dB)"
+    assert _label("max_real_per_s") == "max real (1/s)"
+    assert _label("rms") == "rms" and _label("cases") == "cases"
+
+
+def test_export_without_fixed_point_does_not_say_none():
+    inputs = _inputs()
+    text = render_report(ReportInputs(check=inputs.check, design=inputs.design,
+                                      assessment=inputs.assessment, figures={},
+                                      export={"rate_hz": 1000.0, "method": "zoh",
+                                              "fixed": "none"}))
+    assert "method zoh." in text and "fixed point none" not in text
