@@ -11,6 +11,7 @@ from typing import Any
 
 import numpy as np
 
+from dampctl.modetable import REAL_POLE_DAMPING, other_poles_heading
 from dampctl.vc import third_octave_centres_hz
 
 
@@ -170,6 +171,8 @@ def assessment_dict(a) -> dict[str, Any]:
             "outputs": list(a.curves.frf_outputs),
         },
         "controller_poles": _poles(a.controller_poles),
+        "controller_poles_note": other_poles_heading(_overdamped(a)),
+        "overdamped_modes": list(_overdamped(a)),
         "loops": loops,
         "phase_margin_convention": (
             "smallest phase lag that brings L(jw) to -180 deg at a gain crossover"
@@ -229,3 +232,7 @@ def assessment_dict(a) -> dict[str, Any]:
             "valid": bool(a.stable),
         }
     return out
+
+
+def _overdamped(a) -> tuple[int, ...]:
+    return tuple(m.mode for m in a.modes if m.closed_damping >= REAL_POLE_DAMPING)

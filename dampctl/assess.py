@@ -77,10 +77,14 @@ class ModeRow:
     closed_freq_hz, closed_damping : float
         |p|/2π (Hz) and −Re p/|p| of the matched closed-loop pole.
     peak_reduction_db : float or None
-        Smallest reduction (dB) over the performance outputs of the response peak near the
-        mode (positive = lower peak); None without outputs.
+        Smallest reduction (dB), over the performance outputs that show the mode, of the
+        response peak near the mode (positive = lower peak). An output shows the mode when
+        its open-loop peak between the neighbouring modes lies within ±max(3ζ, 1 %) of the
+        mode's frequency; None when no output does (the figure would measure a neighbour's
+        flank).
     peak_reduction_by_output_db : dict of str to float
-        The reduction at each output.
+        The reduction of the largest response between the neighbouring modes, at each output
+        (shown or not).
     """
 
     mode: int
@@ -412,14 +416,21 @@ def _mode_rows(plant, matched, grid, outputs, mag_open, mag_closed) -> tuple[Mod
     rows = []
     for rank, k in enumerate(order):
         window = (grid >= lower[rank]) & (grid <= upper[rank])
-        by_output = {}
+        by_output, showing = {}, []
+        # an output shows the mode when its open-loop peak in the window lies on the mode's
+        # resonance (within ±max(3 ζ, 1 %) of its frequency), not on a neighbour's flank
+        band = max(3.0 * float(plant.dampings[k]), 0.01)
+        f_window = grid[window]
         if np.any(window):
             for o, name in enumerate(outputs):
                 peak_open = np.max(mag_open[o, window])
                 peak_closed = np.max(mag_closed[o, window])
                 if peak_open > 0 and peak_closed > 0:
                     by_output[name] = float(20 * np.log10(peak_open / peak_closed))
-        rows.append((k, by_output))
+                    at = f_window[int(np.argmax(mag_open[o, window]))]
+                    if abs(at / freqs[k] - 1.0) <= band:
+                        showing.append(name)
+        rows.append((k, by_output, showing))
     rows.sort(key=lambda r: r[0])
     _, dampings = modal_damping(matched.poles)
     return tuple(
@@ -429,10 +440,10 @@ def _mode_rows(plant, matched, grid, outputs, mag_open, mag_closed) -> tuple[Mod
             open_damping=float(plant.dampings[k]),
             closed_freq_hz=float(matched.freq_hz[k]),
             closed_damping=float(dampings[k]),
-            peak_reduction_db=min(by.values()) if by else None,
+            peak_reduction_db=min(by[n] for n in showing) if showing else None,
             peak_reduction_by_output_db=by,
         )
-        for k, by in rows
+        for k, by, showing in rows
     )
 
 

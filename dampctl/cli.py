@@ -8,6 +8,7 @@ requirement met), 1 done but a requirement of the plant file is not met, 2 bad i
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 from collections.abc import Sequence
 from typing import TextIO
@@ -89,8 +90,26 @@ def main(
     except DampctlError as exc:
         err.write(f"dampctl {args.command}: error: {exc}\n")
         return 2
+    except BrokenPipeError:
+        raise  # the reader went away: entry_point ends quietly
+    except OSError as exc:  # a file the system refuses (permissions, full disk ...)
+        where = f"{exc.filename}: " if exc.filename else ""
+        err.write(f"dampctl {args.command}: error: {where}{exc.strerror or exc}\n")
+        return 2
 
 
 def entry_point() -> None:
-    """Console-script entry: ``sys.exit(main())``."""
-    sys.exit(main())
+    """Console-script entry: ``sys.exit(main())``.
+
+    A reader that stops early (``dampctl check plant.toml | head``) ends the output quietly,
+    as other command-line tools do, instead of with a traceback.
+    """
+    try:
+        code = main()
+        sys.stdout.flush()
+    except BrokenPipeError:
+        # the reader closed the pipe: drop what is left of stdout without a second error
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        code = 1
+    sys.exit(code)

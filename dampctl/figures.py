@@ -61,6 +61,43 @@ def _axes(ax, *, right: float = 0.96):
     return ax.figure, ax
 
 
+def _hz(freq_hz: float) -> str:
+    """A frequency for a tick label: 86.6 Hz, 462 Hz, 1632 Hz, 12.5 kHz (no exponents)."""
+    if freq_hz >= 1e4:
+        return f"{freq_hz / 1e3:.3g} kHz"
+    if freq_hz >= 100:
+        return f"{freq_hz:.0f} Hz"
+    return f"{freq_hz:.3g} Hz"
+
+
+def _plain_ticks(*, minor: bool = False):
+    """Log-axis tick labels as plain numbers (0.003, 0.05) instead of 3 × 10⁻³."""
+    from matplotlib.ticker import FuncFormatter
+
+    def label(value, _pos):
+        if value <= 0:
+            return ""
+        if minor and round(value / 10 ** np.floor(np.log10(value))) not in (2, 3, 5):
+            return ""
+        return f"{value:g}"
+
+    return FuncFormatter(label)
+
+
+#: SI prefixes for plot axes (a nm-scale RMS reads as 5.3 nm, not 0.53 × 1e-8 m)
+_PREFIXES = ((1e-9, "n"), (1e-6, "µ"), (1e-3, "m"), (1.0, ""))
+
+
+def _prefixed(value: float, unit: str) -> tuple[float, str]:
+    """Scale and prefixed unit so that ``value`` reads between 1 and 1000 (SI units only)."""
+    if unit not in ("m", "m/s", "m/s^2", "m/s²", "rad", "N") or not value > 0:
+        return 1.0, unit
+    for scale, prefix in _PREFIXES:
+        if value < scale * 1e3:
+            return scale, prefix + unit
+    return 1.0, unit
+
+
 def _band(assessment) -> tuple[float, float]:
     """Frequency range (Hz) shown: a decade and a half around the modes."""
     freqs = [m.open_freq_hz for m in assessment.modes]
@@ -147,7 +184,8 @@ def plot_root_locus(assessment, *, ax=None, span: float = 3.0) -> Drawn:
     # would otherwise squash the lightly damped branches against the axis
     w_top = 2 * np.pi * max(m.open_freq_hz for m in assessment.modes)
     ax.set_ylim(0.0, 1.25 * w_top)
-    ax.set_xlim(-0.6 * w_top, 0.08 * w_top)
+    left = _locus_left(poles, w_top)
+    ax.set_xlim(left, -0.12 * left)
     ax.set_xlabel("real part (1/s)")
     ax.set_ylabel("imaginary part (rad/s)")
     ax.set_title("closed-loop poles, controller scaled 0 to 3x (modes' region)")
@@ -155,6 +193,22 @@ def plot_root_locus(assessment, *, ax=None, span: float = 3.0) -> Drawn:
     ax.legend(frameon=False, loc="upper left")
     figure.colorbar(dots, ax=ax, label="gain factor k")
     return Drawn(figure, ax, (dots, star, ring))
+
+
+def _locus_left(poles: np.ndarray, w_top: float) -> float:
+    """Left edge (1/s) of the root-locus view: just past the oscillating branches in view.
+
+    Poles with damping below 0.71 (|Re| < Im), an imaginary part above 2 % of the top mode and
+    inside the view's height are the structural branches; the view reaches 15 % beyond the
+    leftmost of them (at most 0.6 × the top mode, at least 2 % of it), so real-axis roll-off
+    and delay poles far to the left do not squash the lightly damped branches against the
+    imaginary axis.
+    """
+    p = np.asarray(poles).ravel()
+    oscillating = (p.imag > 0.02 * w_top) & (p.imag <= 1.25 * w_top) & (-p.real < p.imag)
+    branch = p[oscillating & np.isfinite(p)]
+    reach = float(-np.min(branch.real)) if branch.size else 0.6 * w_top
+    return -min(max(1.15 * reach, 0.02 * w_top), 0.6 * w_top)
 
 
 def plot_damping(assessment, *, ax=None) -> Drawn:
@@ -179,7 +233,9 @@ def plot_damping(assessment, *, ax=None) -> Drawn:
     b1 = ax.bar(x - 0.2, before, width=0.4, color="0.7", label="open loop")
     b2 = ax.bar(x + 0.2, after, width=0.4, color=CLOSED["color"], label="closed loop")
     ax.set_yscale("log")
-    ax.set_xticks(x, [f"{m.mode}\n{m.open_freq_hz:.3g} Hz" for m in modes])
+    ax.set_xticks(x, [f"{m.mode}\n{_hz(m.open_freq_hz)}" for m in modes])
+    ax.yaxis.set_major_formatter(_plain_ticks())
+    ax.yaxis.set_minor_formatter(_plain_ticks(minor=True))
     ax.set_xlabel("mode")
     ax.set_ylabel("damping ratio")
     ax.set_title("damping per mode")
@@ -207,21 +263,25 @@ def plot_nyquist(assessment, loop: int = 0, *, ax=None) -> Drawn:
     figure, ax = _axes(ax)
     L = assessment.curves.loops[loop]
     line = ax.plot(L.real, L.imag, **CLOSED, label="L(jw), w > 0")
-    mirror = ax.plot(L.real, -L.imag, color=CLOSED["color"], linewidth=0.6, alpha=0.4)
+    mirror = ax.plot(
+        L.real, -L.imag, color=CLOSED["color"], linewidth=0.6, alpha=0.4, label="w < 0 (mirror)"
+    )
     crit = ax.plot(
         [-1.0], [0.0], marker="+", color=MARK, markersize=12, mew=2, linestyle="none", label="-1"
     )
     theta = np.linspace(0, 2 * np.pi, 200)
-    circle = ax.plot(np.cos(theta), np.sin(theta), color="0.7", linewidth=0.8)
-    reach = max(2.0, min(float(np.max(np.abs(L))), 20.0))
+    circle = ax.plot(np.cos(theta), np.sin(theta), color="0.7", linewidth=0.8, label="|L| = 1")
+    largest = float(np.max(np.abs(L)))
+    reach = max(2.0, min(largest, 20.0))
     ax.set_xlim(-reach, reach)
     ax.set_ylim(-reach, reach)
     ax.set_aspect("equal")
     ax.set_xlabel("real")
     ax.set_ylabel("imaginary")
-    ax.set_title(f"Nyquist, loop {assessment.pairs[loop]} (view clipped)")
+    clipped = " (view clipped at |L| = 20)" if largest > reach * 1.05 else ""
+    ax.set_title(f"Nyquist, loop {assessment.pairs[loop]}{clipped}")
     ax.grid(True, alpha=0.3)
-    ax.legend(frameon=False, loc="upper right")
+    ax.legend(loc="best", framealpha=0.85, fontsize="small")
     return Drawn(figure, ax, (*line, *mirror, *crit, *circle))
 
 
@@ -244,16 +304,30 @@ def plot_cumulative_rms(assessment, output: int = 0, *, ax=None) -> Drawn:
     figure, ax = _axes(ax)
     o = assessment.response.outputs[output]
     f = assessment.response.freq_hz
-    a = ax.semilogx(f, o.cumulative_open, label=f"open loop ({o.open_rms:.3g} {o.unit})", **OPEN)
+    limit = assessment_limit(assessment, o.output)
+    top = max(o.open_rms, o.closed_rms, limit or 0.0)
+    scale, unit = _prefixed(top, o.unit)
+    a = ax.semilogx(
+        f, o.cumulative_open / scale, label=f"open loop ({o.open_rms / scale:.3g} {unit})", **OPEN
+    )
     b = ax.semilogx(
-        f, o.cumulative_closed, label=f"closed loop ({o.closed_rms:.3g} {o.unit})", **CLOSED
+        f,
+        o.cumulative_closed / scale,
+        label=f"closed loop ({o.closed_rms / scale:.3g} {unit})",
+        **CLOSED,
     )
     artists = [*a, *b]
-    limit = assessment_limit(assessment, o.output)
     if limit is not None:
-        artists.append(ax.axhline(limit, color=MARK, linewidth=1.0, label="max_rms"))
+        artists.append(
+            ax.axhline(
+                limit / scale,
+                color=MARK,
+                linewidth=1.0,
+                label=f"required max_rms ({limit / scale:.3g} {unit})",
+            )
+        )
     ax.set_xlabel("frequency (Hz)")
-    ax.set_ylabel(f"cumulative RMS ({o.unit})")
+    ax.set_ylabel(f"cumulative RMS ({unit})")
     ax.set_title(f"{o.output}: cumulative RMS")
     ax.set_xlim(*_band(assessment))
     ax.grid(True, alpha=0.3)

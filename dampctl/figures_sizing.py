@@ -47,15 +47,23 @@ def plot_damping_and_cost(result, ax=None) -> dict:
     target = None
     if result.target_damping is not None:
         target = ax.axhline(result.target_damping, color="0.4", lw=1, ls=":", label="target")
+    chosen = None
     if result.recommended is not None:
-        ax.axvline(result.recommended, color="0.7", lw=6, alpha=0.4, zorder=0)
+        chosen = ax.axvline(
+            result.recommended, color="0.7", lw=6, alpha=0.4, zorder=0, label="recommended"
+        )
     ax.set_xlabel("number of pairs")
     ax.set_ylabel("smallest damping ratio over target modes")
     ax.set_xticks(k)
     twin = ax.twinx()
     cost = twin.plot(k, [r.cost for r in result.rows], "^-", color="tab:red", label="cost")
     twin.set_ylabel("total cost of actuators and sensors")
-    handles = design + best + cost + ([target] if target is not None else [])
+    # both axes from zero: a single row or a flat curve is not blown up to fill the frame
+    damping_top = max([r.achievable_min_damping for r in result.rows]
+                      + [r.min_damping for r in result.rows] + [result.target_damping or 0.0])
+    ax.set_ylim(0.0, 1.5 * max(damping_top, 1e-3))  # headroom: the legend sits above
+    twin.set_ylim(0.0, 1.5 * max(max(r.cost for r in result.rows), 1.0))
+    handles = design + best + cost + [h for h in (target, chosen) if h is not None]
     ax.legend(handles=handles, loc="upper left", fontsize="small")
     ax.set_title(f"{result.law.upper()}: damping and cost against pair count")
     return {

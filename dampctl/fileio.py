@@ -57,6 +57,8 @@ def write_text(target: str | Path, text: str | bytes, *, inputs: Iterable[str | 
     """
     target = Path(target)
     check_not_input(target, inputs)
+    if target.is_dir():
+        raise OutputError("is a folder; give a file name", source=str(target))
     if not target.parent.is_dir():
         raise OutputError(f"folder {target.parent} does not exist", source=str(target))
     data = text.encode("utf-8") if isinstance(text, str) else text
@@ -64,6 +66,7 @@ def write_text(target: str | Path, text: str | bytes, *, inputs: Iterable[str | 
     try:
         with os.fdopen(fd, "wb") as handle:
             handle.write(data)
+        os.chmod(tmp, _file_mode())  # mkstemp makes it private (0600); give the usual mode
         os.replace(tmp, target)
     except BaseException:
         if os.path.exists(tmp):
@@ -100,19 +103,34 @@ def write_files(
     """
     folder = Path(folder)
     inputs = list(inputs)
+    if folder.exists() and not folder.is_dir():
+        raise OutputError("exists and is not a folder (choose a folder)", source=str(folder))
     targets = [folder / name for name in files]
     for target in targets:
         check_not_input(target, inputs)
         if target.exists() and not replace:
             raise OutputError("already exists (use --force to replace)", source=str(target))
-    folder.mkdir(parents=True, exist_ok=True)
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise OutputError(
+            f"cannot create the folder ({exc.strerror or exc})", source=str(folder)
+        ) from None
     staging = Path(tempfile.mkdtemp(prefix=".dampctl-", dir=folder))
     try:
         for name, content in files.items():
             data = content.encode("utf-8") if isinstance(content, str) else content
             (staging / name).write_bytes(data)
+            os.chmod(staging / name, _file_mode())
         for name in files:
             os.replace(staging / name, folder / name)
     finally:
         shutil.rmtree(staging, ignore_errors=True)
     return targets
+
+
+def _file_mode() -> int:
+    """Mode of a new file under the process umask (0644 under the common umask 022)."""
+    mask = os.umask(0)
+    os.umask(mask)
+    return 0o666 & ~mask

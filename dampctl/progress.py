@@ -59,6 +59,9 @@ class Progress:
         self.done = min(self.done + steps, self.total)
         if not self.enabled or time.monotonic() - self._start < self.delay_s:
             return
+        self._draw()
+
+    def _draw(self) -> None:
         width = 30
         filled = int(width * self.done / self.total)
         bar = "#" * filled + "-" * (width - filled)
@@ -75,5 +78,9 @@ class Progress:
     def __enter__(self) -> Progress:
         return self
 
-    def __exit__(self, *exc) -> None:
+    def __exit__(self, exc_type, *exc) -> None:
+        if exc_type is None and self._drawn and self.done < self.total:
+            # the work ended early (a search stopped once it had its answer): show it finished
+            self.done = self.total
+            self._draw()
         self.close()

@@ -151,12 +151,16 @@ def _plant_section(check: Mapping[str, Any]) -> str:
         out.append("<h3>Candidate pairs</h3><p class='note'>Participation: share of each mode's "
                    "Hankel singular value.</p>")
         n = len(modes)
+        unseen = set(check.get("unseen_modes", []))
+        if unseen:
+            out.append("<p class='note'>– : no pair sees the mode (response below 1e-3 of "
+                       "each pair's strongest mode), so its shares say nothing.</p>")
         rows = []
         for p in pairs:
             row = {"pair": p.get("pair"), "kind": p.get("kind", ""),
                    "collocated": p.get("collocated")}
             for k, share in enumerate(p.get("participation", [])[:n]):
-                row[f"m{k + 1}"] = share
+                row[f"m{k + 1}"] = None if k + 1 in unseen else share
             rows.append(row)
         cols = [("pair", "Pair", "text"), ("kind", "Kind", "text"),
                 ("collocated", "Collocated", "text")]
@@ -246,9 +250,11 @@ def _assessment_section(assessment: Mapping[str, Any]) -> str:
 
 
 def _export_section(export: Mapping[str, Any]) -> str:
+    fixed = export.get("fixed")
+    fixed_text = f", fixed point {_e(str(fixed))}" if fixed not in (None, "", "none") else ""
     out = ["<h2>Discrete-time export</h2>",
            f"<p>{_num(export.get('rate_hz'))} Hz, method {_e(str(export.get('method', '')))}"
-           f"{', fixed point ' + _e(str(export['fixed'])) if export.get('fixed') else ''}.</p>"]
+           f"{fixed_text}.</p>"]
     loops = export.get("loops") or []
     rows = [{"pair": lp.get("pair"), "gain": lp.get("gain"),
              "sections": len(lp.get("sos") or [])} for lp in loops]
@@ -258,9 +264,11 @@ def _export_section(export: Mapping[str, Any]) -> str:
     verification = (export.get("verification") or {}).get("modes") or []
     if verification:
         out.append("<h3>Verified in discrete time</h3>")
-        out.append(_table(verification, [("mode", "Mode"),
-                                         ("continuous_damping", "Continuous damping"),
-                                         ("discrete_damping", "Discrete damping")]))
+        out.append(_table(verification, [
+            ("mode", "Mode"),
+            ("continuous_damping", "Continuous damping (no sampling delay)"),
+            ("discrete_damping", "Sampled damping (hold + one sample)"),
+        ]))
     files = export.get("files") or []
     if files:
         out.append(_list("Files", [str(f) for f in files]))
@@ -315,7 +323,7 @@ def _any(value: Any) -> str:
         keys: list[str] = []
         for v in value:
             keys += [k for k in v if k not in keys and not isinstance(v[k], list | Mapping)]
-        return _table(value, [(k, k.replace("_", " "), "text" if _is_text(value, k) else "")
+        return _table(value, [(k, _label(k), "text" if _is_text(value, k) else "")
                               for k in keys])
     return f"<p>{_e(_plain(value))}</p>"
 
@@ -324,12 +332,25 @@ def _mapping(value: Mapping[str, Any]) -> str:
     rows = []
     for key, item in value.items():
         if isinstance(item, Mapping | list) and item and _nested(item):
-            rows.append(f"<tr><th class='text'>{_e(key.replace('_', ' '))}</th>"
+            rows.append(f"<tr><th class='text'>{_e(_label(key))}</th>"
                         f"<td class='text'>{_any(item)}</td></tr>")
         else:
-            rows.append(f"<tr><th class='text'>{_e(key.replace('_', ' '))}</th>"
+            rows.append(f"<tr><th class='text'>{_e(_label(key))}</th>"
                         f"<td class='text'>{_e(_plain(item))}</td></tr>")
     return "<table>" + "".join(rows) + "</table>"
+
+
+#: unit suffixes of JSON keys and how a heading shows them
+_UNITS = {"s": "s", "hz": "Hz", "db": "dB", "deg": "deg", "n": "N", "m": "m", "kg": "kg",
+          "per_s": "1/s"}
+
+
+def _label(key: str) -> str:
+    """Heading for a JSON key: ``delay_margin_s`` -> ``delay margin (s)``, ``rms`` as is."""
+    for suffix in sorted(_UNITS, key=len, reverse=True):
+        if key.endswith("_" + suffix) and len(key) > len(suffix) + 1:
+            return f"{key[: -len(suffix) - 1].replace('_', ' ')} ({_UNITS[suffix]})"
+    return key.replace("_", " ")
 
 
 def _nested(item: Any) -> bool:
@@ -375,6 +396,8 @@ def _num(value: Any) -> str:
         return "0"
     if isinstance(value, int):
         return str(value)
+    if 1e4 <= abs(value) < 1e6:
+        return f"{value:.0f}"  # 20000 Hz, not 2e+04
     return f"{value:.4g}"
 
 

@@ -24,7 +24,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.linalg import solve_continuous_lyapunov
+from scipy.linalg import matrix_balance, solve_continuous_lyapunov
 
 from dampctl.margins import default_grid
 from dampctl.vc import VcRating, band_edges_hz, band_rms, third_octave_centres_hz, vc_rating
@@ -240,6 +240,12 @@ def h2_variances(system: Matrices, intensities: np.ndarray) -> np.ndarray:
     if A.size and np.max(np.linalg.eigvals(A).real) >= 0.0:
         return np.full(C.shape[0], np.inf)
     if A.size:
+        # diagonal similarity balancing first (T⁻¹ A T, T⁻¹ B, C T): a loop with a delay
+        # cascade and roll-offs can have entries from 1 to 1e10, where the unbalanced solve
+        # loses every digit (residual > 1) and scipy only warns
+        A, (scale, _perm) = matrix_balance(A, permute=False, separate=True)
+        B = B / scale[:, None]
+        C = C * scale[None, :]
         Q = (B * (w / 2.0)) @ B.T
         P = solve_continuous_lyapunov(A, -Q)
         P = 0.5 * (P + P.T)
@@ -267,6 +273,12 @@ def integration_grid(plant, design, closed_poles: np.ndarray = ()) -> np.ndarray
     """
     parts = [default_grid(plant, design)]
     offsets = np.linspace(-8.0, 8.0, 81)
+    # 0.05 ζ steps over each mode's half-power band ±2 ζ, where the loop's resonance circle
+    # turns: the Nyquist curve drawn from this grid reads as a circle, not a polygon
+    fine = np.linspace(-2.0, 2.0, 81)
+    for f, z in zip(plant.freqs_hz, plant.dampings, strict=True):
+        if z > 0:  # an undamped mode's own frequency stays out of the grid (infinite response)
+            parts.append(f * np.exp(z * fine))
     for p in np.asarray(closed_poles, dtype=complex):
         if abs(p) > 0 and p.imag >= 0:
             zeta = min(max(-p.real / abs(p), 1e-4), 1.0)

@@ -322,7 +322,7 @@ def size_pairs(
             continue
         templates.append(loop_template(plant, unit))
     if not templates:
-        raise UsageError(f"no candidate pair suits {law}: " + "; ".join(r for _, r in excluded))
+        raise UsageError(f"no candidate pair suits {law}: " + _grouped_reasons(excluded))
     evaluator = SetEvaluator(plant, templates, [i + 1 for i in targets])
     usable = [i for i in range(len(templates)) if evaluator.usable[i]]
     for i in range(len(templates)):
@@ -588,3 +588,18 @@ def _target_modes(plant: ModalPlant, modes) -> list[int]:
         if not 1 <= m <= plant.n_modes:
             raise UsageError(f"mode {m} does not exist (the plant has {plant.n_modes} modes)")
     return [m - 1 for m in out]
+
+
+def _grouped_reasons(excluded: list[tuple[str, str]]) -> str:
+    """One reason per kind of refusal: pairs refused for the same reason are named together."""
+    groups: dict[str, list[str]] = {}
+    for name, reason in excluded:
+        key = reason.replace(repr(name), "{pair}").replace(f"pairs.{name}", "pairs.{pair}")
+        groups.setdefault(key, []).append(name)
+    parts = []
+    for key, names in groups.items():
+        text = key.replace("{pair}", repr(names[0]))
+        if len(names) > 1:
+            text += f" (likewise {', '.join(names[1:])})"
+        parts.append(text)
+    return "; ".join(parts)

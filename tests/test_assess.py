@@ -252,3 +252,21 @@ def test_disk_margin_of_an_unstable_mimo_loop_is_zero():
     bad = assess(plant, _dvf(plant, [-100.0, -100.0], ["p1", "p2"]), delay_s=0.0, samples=0)
     assert not bad.stable and bad.disk.alpha == 0.0
     assert bad.to_dict()["disk_margin"]["valid"] is False
+
+
+def test_peak_reduction_left_out_where_no_output_shows_the_mode():
+    # the output site has no motion in mode 2: its peak between the modes is mode 1's flank,
+    # so no reduction is stated for mode 2; mode 1 still gets the closed-form figure's sign
+    plant = ModalPlant(
+        modes=[Mode(20.0, 0.01), Mode(60.0, 0.01)],
+        sites={"a": [1.0, 1.0], "x": [1.0, 0.0]},
+        actuators=[Actuator("f", "force", site="a")],
+        sensors=[Sensor("v", "velocity", site="a")],
+        pairs=[Pair("fv", "f", "v")],
+        disturbances=(Disturbance("w", "a", 1e-2),),
+        outputs=(Output("xo", "displacement", "x"),),
+    )
+    a = assess(plant, _dvf(plant, [5.0], ["fv"]), delay_s=0.0, samples=0)
+    assert a.modes[0].peak_reduction_db > 1.0
+    assert a.modes[1].peak_reduction_db is None
+    assert "xo" in a.modes[1].peak_reduction_by_output_db

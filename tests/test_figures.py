@@ -76,3 +76,29 @@ def test_pngs_written_atomically_and_valid(tmp_path, assessment):
         assert image.shape[0] > 100 and image.shape[1] > 100
     with pytest.raises(OutputError, match="already exists"):
         write_assessment_pngs(assessment, tmp_path / "figs")
+
+
+def test_cumulative_rms_reads_in_prefixed_units(assessment):
+    drawn = plot_cumulative_rms(assessment)
+    o = assessment.response.outputs[0]
+    label = drawn.ax.get_ylabel()
+    scale = {"cumulative RMS (nm)": 1e-9, "cumulative RMS (µm)": 1e-6,
+             "cumulative RMS (mm)": 1e-3, "cumulative RMS (m)": 1.0}[label]  # fmt: skip
+    np.testing.assert_allclose(drawn.artists[0].get_ydata(), o.cumulative_open / scale)
+    assert 1.0 <= o.open_rms / scale < 1000.0 or scale in (1e-9, 1.0)
+
+
+def test_damping_ticks_have_no_exponents(assessment):
+    drawn = plot_damping(assessment)
+    labels = [t.get_text() for t in drawn.ax.get_xticklabels()]
+    assert labels and all("e+" not in t and "Hz" in t for t in labels)
+
+
+def test_root_locus_view_holds_the_mode_branches_not_far_poles(assessment):
+    drawn = plot_root_locus(assessment)
+    left, right = drawn.ax.get_xlim()
+    poles = assessment.curves.locus.poles.ravel()
+    w_top = 2 * np.pi * assessment.modes[0].open_freq_hz
+    branch = poles[(poles.imag > 0.02 * w_top) & (-poles.real < poles.imag)]
+    assert left <= branch.real.min() and right > 0
+    assert left > -0.6 * w_top or branch.real.min() < -0.5 * w_top

@@ -24,3 +24,13 @@ def test_plots_use_the_given_axes_and_return_artists():
     assert bars["bars"][1][0].get_height() == result.rows[1].mode_damping[0][1]
     pngs = sizing_pngs(result)
     assert all(data[:4] == b"\x89PNG" for data in pngs.values())
+
+
+def test_damping_and_cost_axes_start_at_zero_with_headroom():
+    result = _result()
+    drawn = plot_damping_and_cost(result)
+    damping_ax, cost_ax = drawn["axes"][:2]
+    assert damping_ax.get_ylim()[0] == 0.0 and cost_ax.get_ylim()[0] == 0.0
+    top = max(r.achievable_min_damping for r in result.rows)
+    assert damping_ax.get_ylim()[1] > top
+    assert cost_ax.get_ylim()[1] > max(r.cost for r in result.rows)

@@ -95,3 +95,39 @@ def test_report_renders_in_headless_chromium(tmp_path):
     assert match, result.stderr[-2000:]
     loaded, total = int(match.group(1)), int(match.group(2))
     assert total >= 1 and loaded == total
+
+
+def test_unseen_mode_shares_are_not_shown():
+    inputs = _inputs()
+    check = dict(inputs.check, unseen_modes=[1])
+    check["pairs"] = [dict(check["pairs"][0], participation=[0.4321])]
+    text = render_report(ReportInputs(check=check, design=inputs.design,
+                                      assessment=inputs.assessment, figures={}))
+    assert "no pair sees the mode" in text and "0.4321" not in text
+
+
+def test_export_rate_is_printed_plainly():
+    inputs = _inputs()
+    text = render_report(ReportInputs(check=inputs.check, design=inputs.design,
+                                      assessment=inputs.assessment, figures={},
+                                      export={"rate_hz": 20000.0, "method": "tustin"}))
+    assert "20000 Hz, method tustin" in text and "2e+04" not in text
+
+
+def test_json_key_headings_show_units():
+    from dampctl.report import _label
+
+    assert _label("delay_margin_s") == "delay margin (s)"
+    assert _label("min_stable_hz") == "min stable (Hz)"
+    assert _label("reduction_db") == "reduction (dB)"
+    assert _label("max_real_per_s") == "max real (1/s)"
+    assert _label("rms") == "rms" and _label("cases") == "cases"
+
+
+def test_export_without_fixed_point_does_not_say_none():
+    inputs = _inputs()
+    text = render_report(ReportInputs(check=inputs.check, design=inputs.design,
+                                      assessment=inputs.assessment, figures={},
+                                      export={"rate_hz": 1000.0, "method": "zoh",
+                                              "fixed": "none"}))
+    assert "method zoh." in text and "fixed point none" not in text

@@ -181,3 +181,20 @@ def test_integration_grid_contains_band_edges_and_modes():
     for f in plant.freqs_hz:
         assert np.min(np.abs(grid / f - 1)) < 1e-12
     assert np.min(np.abs(grid - 10 ** (1 / 20))) < 1e-12
+
+
+@pytest.mark.parametrize("k", [1.0, 1e5, 1e9])
+def test_h2_variance_survives_bad_state_scaling(k):
+    # σ_x² = W₀ / (8 ζ ω³ m²) for m x'' + 2 m ζ ω x' + m ω² x = f, f white with one-sided
+    # PSD W₀ (Crandall & Mark, Random Vibration in Mechanical Systems, 1963; from memory).
+    # The same system under the similarity T = diag(1/k, k) has entries up to k²ω²: the
+    # unbalanced Lyapunov solve returned a negative variance for k >= 1e5.
+    m, w, z, w0 = 2.0, 2 * np.pi * 50.0, 0.01, 1e-2
+    A = np.array([[0.0, 1.0], [-w * w, -2 * z * w]])
+    B = np.array([[0.0], [1.0 / m]])
+    C = np.array([[1.0, 0.0]])
+    T = np.diag([1.0 / k, k])
+    Ti = np.linalg.inv(T)
+    system = (Ti @ A @ T, Ti @ B, C @ T, np.zeros((1, 1)))
+    exact = w0 / (8 * z * w**3 * m * m)
+    assert h2_variances(system, np.array([w0]))[0] == pytest.approx(exact, rel=1e-9)

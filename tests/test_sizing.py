@@ -165,8 +165,11 @@ def test_pairs_a_law_cannot_use_are_excluded_with_the_reason():
     result = size_pairs(plant, law="dvf", max_pairs=1, candidates=["p1", "p2", "cross"])
     reasons = dict(result.excluded)
     assert set(reasons) == {"cross"} and "collocated" in reasons["cross"]
-    with pytest.raises(UsageError, match="no candidate pair suits iff"):
+    with pytest.raises(UsageError, match="no candidate pair suits iff") as refused:
         size_pairs(plant, law="iff", max_pairs=1)
+    # pairs refused for the same reason are named together, the reason said once
+    assert "(likewise p2" in str(refused.value)
+    assert str(refused.value).count("IFF needs an active strut") == 2  # velocity, displacement
 
 
 def test_rows_stop_where_every_larger_set_would_share_hardware():

@@ -34,6 +34,7 @@ def mode_list(text: str | None, option: str = "--modes") -> list[int]:
     if text is None:
         return []
     modes: list[int] = []
+    backwards: list[str] = []
     try:
         for part in text.split(","):
             part = part.strip()
@@ -41,11 +42,15 @@ def mode_list(text: str | None, option: str = "--modes") -> list[int]:
                 continue
             if "-" in part:
                 lo, hi = (int(x) for x in part.split("-", 1))
+                if hi < lo:
+                    backwards.append(part)
                 modes.extend(range(lo, hi + 1))
             else:
                 modes.append(int(part))
     except ValueError:
         raise UsageError(f"{option}: expected mode numbers like 1,2 or 1-4, got {text!r}") from None
+    if backwards:
+        raise UsageError(f"{option}: range {backwards[0]!r} runs backwards (low-high, e.g. 1-4)")
     if any(m < 1 for m in modes):
         raise UsageError(f"{option}: mode numbers start at 1, got {text!r}")
     return sorted(set(modes))
@@ -74,10 +79,20 @@ def print_json(payload: Any, out: TextIO) -> None:
 
 
 def table(headers: Sequence[str], rows: Sequence[Sequence[Any]]) -> str:
-    """Plain-text table with right-aligned columns."""
+    """Plain-text table: numbers right-aligned, columns of words (names, labels) left-aligned."""
     cells = [[str(h) for h in headers]] + [[_cell(v) for v in row] for row in rows]
     widths = [max(len(r[k]) for r in cells) for k in range(len(headers))]
-    lines = ["  ".join(c.rjust(w) for c, w in zip(r, widths, strict=True)) for r in cells]
+    words = []
+    for k in range(len(headers)):
+        kinds = [_is_word(row[k]) for row in rows]
+        words.append(True in kinds and False not in kinds)
+    lines = [
+        "  ".join(
+            c.ljust(w) if left else c.rjust(w)
+            for c, w, left in zip(r, widths, words, strict=True)
+        ).rstrip()
+        for r in cells
+    ]
     lines.insert(1, "  ".join("-" * w for w in widths))
     return "\n".join(lines)
 
@@ -90,5 +105,21 @@ def _cell(value: Any) -> str:
     if isinstance(value, float | np.floating):
         if not math.isfinite(value):
             return "inf" if value > 0 else ("-inf" if value < 0 else "nan")
+        if 1e4 <= abs(value) < 1e6:
+            return f"{value:.0f}"  # 15014 rather than 1.501e+04
         return f"{value:.4g}"
     return str(value)
+
+
+def _is_word(value: Any) -> bool | None:
+    """True for text that is not a number (left-aligned), None for blanks and "-" (they do not
+    decide a column's alignment), False otherwise."""
+    if value is None or (isinstance(value, str) and value.strip() in ("", "-")):
+        return None
+    if not isinstance(value, str):
+        return False
+    try:
+        float(value)
+    except ValueError:
+        return True
+    return False

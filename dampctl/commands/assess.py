@@ -109,12 +109,25 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         written = write_assessment_pngs(
             result, args.plots, inputs=(args.plant, args.design), replace=args.force
         )
+    tuned = design.info.get("delay_s")
+    note = None
+    if isinstance(tuned, int | float) and not math.isclose(tuned, result.delay_s, rel_tol=1e-6,
+                                                           abs_tol=1e-12):
+        note = (
+            f"the design was tuned for a loop delay of {tuned * 1e6:.4g} us but is assessed with "
+            f"{result.delay_s * 1e6:.4g} us (give --delay-s {tuned:g} to assess it at its "
+            "tuning delay)"
+        )
     if args.json:
         payload = result.to_dict()
+        payload["tuned_delay_s"] = tuned if isinstance(tuned, int | float) else None
+        payload["delay_note"] = note
         payload["plots"] = [str(p) for p in written]
         payload["safety"] = list(SAFETY_LINES)
         print_json(payload, out)
     else:
+        if note:
+            out.write(f"note: {note}\n\n")
         _print_human(result, out, plant_name=plant.title or args.plant)
         for path in written:
             out.write(f"wrote {path}\n")
@@ -161,9 +174,12 @@ def _print_human(a, out: TextIO, *, plant_name: str) -> None:
         "target",
     ]
     out.write(table(headers, rows) + "\n")
-    out.write(f"(peak reduction: worst over outputs {', '.join(a.curves.frf_outputs)})\n")
+    out.write(
+        f"(peak reduction: worst over the outputs {', '.join(a.curves.frf_outputs)} whose "
+        "response peaks on the mode; -: on none of them, the mode's peak is not what they show)\n"
+    )
     if len(a.controller_poles):
-        out.write("\ncontroller, roll-off and delay (Pade) poles:\n")
+        out.write(f"\n{d['controller_poles_note']}:\n")
         rows = [(p["freq_hz"], p["damping"]) for p in d["controller_poles"]]
         out.write(table(["freq (Hz)", "damping"], rows) + "\n")
     out.write("\nmargins (each loop broken at the plant input, the others closed):\n")
@@ -226,7 +242,7 @@ def _print_human(a, out: TextIO, *, plant_name: str) -> None:
                 o["closed_rms"],
                 o["noise_rms"],
                 o["reduction_db"],
-                (o.get("vc_closed") or {}).get("curve", ""),
+                (o.get("vc_closed") or {}).get("curve") or "-",
             )
             for o in d["rms"]
         ]

@@ -131,11 +131,18 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if survey.pairs:
         out.write("\nparticipation: share of each mode's Hankel singular value per pair\n")
         headers = ["pair", "kind", "collocated"] + [f"m{k + 1}" for k in range(plant.n_modes)]
+        unseen = set(survey.unseen_modes)
         rows = [
-            [p.pair, p.description, p.collocated] + [f"{x:.2f}" for x in p.participation]
+            [p.pair, p.description, p.collocated]
+            + ["-" if k + 1 in unseen else f"{x:.2f}" for k, x in enumerate(p.participation)]
             for p in survey.pairs
         ]
         out.write(table(headers, rows) + "\n")
+        if unseen:
+            out.write(
+                "(-: no pair sees the mode: its response at every pair is below 1e-3 of the "
+                "pair's strongest mode, so the shares say nothing)\n"
+            )
     for name, items in survey.dominant_modes.items():
         listing = ", ".join(f"mode {m} ({s:.0%})" for m, s in items) or "none"
         out.write(f"\noutput {name}: motion dominated by {listing}\n")

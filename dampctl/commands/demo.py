@@ -42,7 +42,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("-o", "--output", default="dampctl-demo", metavar="DIR",
                         help="folder to create for every file (default ./dampctl-demo)")
     parser.add_argument("--force", action="store_true",
-                        help="write into DIR even if it exists (replacing the demo's files)")
+                        help="write into DIR even if it exists, replacing the demo's files "
+                        "(default: refuse)")
     parser.add_argument("--json", action="store_true", help="print a JSON summary on stdout")
 
 
@@ -74,6 +75,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     from dampctl.writers import export_files, payload
 
     folder = Path(args.output)
+    if folder.exists() and not folder.is_dir():
+        raise OutputError("exists and is not a folder (choose another -o DIR)", source=str(folder))
     if folder.exists() and not args.force:
         raise OutputError("already exists (choose another -o DIR, or --force to write into it)",
                           source=str(folder))

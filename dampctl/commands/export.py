@@ -71,7 +71,9 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument("-o", "--output", required=True, metavar="DIR", help="output folder")
     parser.add_argument(
-        "--force", action="store_true", help="replace files of the same names in DIR"
+        "--force",
+        action="store_true",
+        help="replace files of the same names in DIR (default: refuse)",
     )
     parser.add_argument("--json", action="store_true", help="print JSON on stdout")
 
@@ -115,6 +117,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     """
     formats = _formats(args.format)
     prewarp = _prewarp(args.prewarp)
+    if not (math.isfinite(args.tolerance) and args.tolerance > 0):
+        raise UsageError(f"--tolerance: expected a fraction > 0, got {args.tolerance}")
     if Path(args.output).exists() and not Path(args.output).is_dir():
         raise UsageError(f"-o: {args.output} exists and is not a folder")
     plant = load_plant(args.plant)
@@ -253,11 +257,14 @@ def _human(result, failures, unmet, written, extra_notes, out: TextIO) -> None:
     v, fv = result.verification, result.fixed_verification
     out.write(
         "\nsampled closed loop (ZOH plant, one sample of computation delay) beside the "
-        "continuous design\n"
+        "continuous design with the plant's loop_delay_s only (no sampling delay; tune and "
+        "assess add 1.5 samples to it)\n"
     )
-    headers = ["mode", "target", "sampled f (Hz)", "continuous damping", "sampled damping"]
+    headers = [
+        "mode", "target", "sampled f (Hz)", "continuous damping (no sampling)", "sampled damping"
+    ]  # fmt: skip
     if fv is not None:
-        headers.append(result.fixed)
+        headers.append(f"sampled, {result.fixed} coefficients")
     rows = []
     for k, mode in enumerate(v.modes):
         row = [

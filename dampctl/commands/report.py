@@ -101,8 +101,14 @@ def report_html(
         figures[f"{captions.get(key, stem)}{' — ' + detail if detail else ''}"] = png
     if sizing is not None:
         pngs = sizing_figures if sizing_figures is not None else _sizing_pngs(sizing)
+        sizing_captions = {
+            "sizing_damping_cost": "Sizing: smallest damping and cost against the number of pairs",
+            "sizing_mode_damping": "Sizing: damping of each target mode for the best set of "
+            "each size",
+        }
         for name, png in pngs.items():
-            figures[f"Sizing: {Path(name).stem.replace('_', ' ')}"] = png
+            stem = Path(name).stem
+            figures[sizing_captions.get(stem, f"Sizing: {stem.replace('_', ' ')}")] = png
     check = check_payload(plant, survey_plant(plant))
     inputs = ReportInputs(
         check=check,
@@ -137,6 +143,11 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     export = _read_json(args.export, "--export") if args.export else None
     if sizing is not None and "rows" not in sizing:
         raise UsageError(f"--sizing: {args.sizing} is not a sizing result (no 'rows')")
+    if export is not None and not {"rate_hz", "method"} <= set(export):
+        raise UsageError(
+            f"--export: {args.export} is not an export summary (no 'rate_hz'/'method'; give "
+            "the controller.json written by dampctl export)"
+        )
     html, result = report_html(plant, design, sizing=sizing, export=export, delay_s=args.delay_s)
     inputs = [p for p in (args.plant, args.design, args.sizing, args.export) if p]
     path = write_text(args.output, html, inputs=inputs)

@@ -145,9 +145,11 @@ def _print_human(plant, result, files, out: TextIO) -> None:
                 "yes" if r.acceptable else "no",
             ]
         )
+    kinds = {plant.actuator(a.actuator).kind for a in plant.pairs}
+    unit = "N" if kinds <= {"force"} else ("m" if kinds == {"strut"} else "N or m")
     headers = [
         "k", "pairs", "search", "min damping", "maximized", "limiting mode", "cost",
-        "gain/cost", "max RMS effort", "GM (dB)", "PM (deg)", "acceptable",
+        "Δmaximized/cost", f"max RMS command ({unit})", "GM (dB)", "PM (deg)", "acceptable",
     ]  # fmt: skip
     out.write(table(headers, rows) + "\n\n")
     out.write(f"rank rule: {result.rank_rule}\n")
@@ -167,7 +169,8 @@ def _print_human(plant, result, files, out: TextIO) -> None:
     out.write(f"\n{result.statement}\n")
     out.write(
         "min damping: the law's design for the set (as dampctl tune gives it), with the stated "
-        "delay; maximized: the same law tuned for the largest smallest damping\n"
+        "delay; maximized: the same law tuned for the largest smallest damping; "
+        "Δmaximized/cost: gain in 'maximized' over the row above per unit of extra cost\n"
     )
     for f in files:
         out.write(f"wrote {f}\n")

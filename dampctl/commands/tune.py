@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import math
+from dataclasses import replace
 from typing import TextIO
 
 from dampctl.commands._common import SAFETY_LINES, mode_list, name_list, print_json, table
@@ -53,10 +54,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument(
         "--target-damping",
-        type=float,
+        type=_target,
         metavar="Z",
         help="damping ratio to reach on the target modes with the smallest gains (default the "
-        "plant's min_damping; none: maximize the smallest damping)",
+        "plant's min_damping; 'none': dvf/iff/ppf maximize the smallest damping instead)",
     )
     parser.add_argument(
         "--gain",
@@ -134,6 +135,10 @@ def make_design(plant, args: argparse.Namespace):
     law = args.law
     pairs = name_list(args.pairs, "--pairs")
     modes = mode_list(args.modes) or None
+    if args.target_damping == NO_TARGET:
+        # no target even where the plant file states one: the laws then maximize
+        plant = replace(plant, requirements=replace(plant.requirements, min_damping=None))
+        args = argparse.Namespace(**{**vars(args), "target_damping": None})
     if args.target_damping is not None and not 0.0 < args.target_damping < 1.0:
         raise UsageError(f"--target-damping must be in (0, 1), got {args.target_damping}")
     gain = _gains(args.gain)
@@ -192,7 +197,8 @@ def tune_payload(plant, design, modes, *, design_file: str | None = None) -> dic
         Keys ``law``, ``plant``, ``plant_fingerprint``, ``pairs``, ``actuators``, ``sensors``,
         ``loops``, ``stable``, ``max_real``, ``delay_s``, ``note``, ``target_modes``,
         ``target_damping``, ``target_met``, ``min_damping``, ``modes``, ``controller_poles``,
-        ``info``, ``design_file``, ``warnings``.
+        ``controller_poles_note``, ``overdamped_modes``, ``info``, ``design_file``,
+        ``warnings``.
     """
     info = dict(design.info)
     units = list(info.get("gain_units", []))
@@ -243,6 +249,8 @@ def tune_payload(plant, design, modes, *, design_file: str | None = None) -> dic
         "min_damping": smallest,
         "modes": table_dict["modes"],
         "controller_poles": table_dict["controller_poles"],
+        "controller_poles_note": table_dict["controller_poles_note"],
+        "overdamped_modes": table_dict["overdamped_modes"],
         "info": info,
         "design_file": design_file,
         "warnings": warnings,
@@ -251,11 +259,14 @@ def tune_payload(plant, design, modes, *, design_file: str | None = None) -> dic
 
 def _print_human(payload: dict, modes, out: TextIO) -> None:
     title = payload["plant"] or "plant"
-    pairs = ", ".join(payload["pairs"]) or "-"
-    out.write(
-        f"{title}: {payload['law']} on {len(payload['pairs']) or len(payload['actuators'])} "
-        f"loop(s) ({pairs}); design written to {payload['design_file']}\n"
-    )
+    if payload["pairs"]:
+        what = f"{len(payload['pairs'])} loop(s) ({', '.join(payload['pairs'])})"
+    else:  # a model-based controller: actuators and sensors, no pairs
+        what = (
+            f"actuator(s) {', '.join(payload['actuators'])} from sensor(s) "
+            f"{', '.join(payload['sensors'])}"
+        )
+    out.write(f"{title}: {payload['law']} on {what}; design written to {payload['design_file']}\n")
     info = payload["info"]
     if payload["loops"]:
         out.write(f"\ntuning: {info.get('tuning', '-')}\n")
@@ -275,8 +286,9 @@ def _print_human(payload: dict, modes, out: TextIO) -> None:
     out.write(table(list(TABLE_HEADERS), modes.table_rows()) + "\n")
     poles = payload["controller_poles"]
     if poles:
-        listing = ", ".join(f"{p['freq_hz']:.4g} Hz (damping {p['damping']:.3g})" for p in poles)
-        out.write(f"controller poles: {listing}\n")
+        out.write(f"\n{payload['controller_poles_note']}:\n")
+        out.write(table(["freq (Hz)", "damping"], [(p["freq_hz"], p["damping"]) for p in poles]))
+        out.write("\n")
     out.write(f"stable: {'yes' if payload['stable'] else 'NO'}\n")
     _print_law_facts(info, out)
     target = payload["target_damping"]
@@ -298,6 +310,33 @@ def _print_human(payload: dict, modes, out: TextIO) -> None:
 
 
 def _print_law_facts(info: dict, out: TextIO) -> None:
+    model = info.get("design_model")
+    if isinstance(model, dict) and "modes" in model:
+        listed = ", ".join(str(m) for m in model["modes"])
+        order = info.get("controller_order")
+        full = info.get("full_order")
+        reduced = f" (reduced from {full})" if full and order and full != order else ""
+        out.write(
+            f"\nLQG design model: modes {listed} (targets "
+            f"{', '.join(str(m) for m in model.get('targets', [])) or '-'}; neighbours "
+            f"{', '.join(str(m) for m in model.get('neighbours', [])) or '-'}); "
+            f"controller order {order}{reduced}\n"
+        )
+        estimator = info.get("estimator") or {}
+        if estimator.get("estimator_damping"):
+            regulator = (info.get("regulator") or {}).get("regulator_damping")
+            regulator = regulator or [None] * len(model["modes"])
+            rows = [
+                [m, r, e]
+                for m, r, e in zip(
+                    model["modes"], regulator, estimator["estimator_damping"], strict=False
+                )
+            ]
+            out.write(table(["mode", "regulator damping", "estimator damping"], rows) + "\n")
+            out.write(
+                "(on the design model the closed-loop poles are the regulator's and the "
+                "estimator's (separation principle): each mode keeps the less damped of the two)\n"
+            )
     if "achievable" in info:
         out.write(
             f"\nIFF leak {info['leak_hz']:.4g} Hz; achievable damping per target mode "
@@ -316,11 +355,29 @@ def _print_law_facts(info: dict, out: TextIO) -> None:
             f"gain {info['dc_loop_gain']:.4g} (must be < 1)\n"
         )
         rows = [
-            [f["pair"], f["mode"], f["freq_hz"], f["damping"], f["gain"]] for f in info["filters"]
+            [f["pair"], f["mode"], f["freq_hz"], f["damping"], f["gain"], f.get("gain_unit", "")]
+            for f in info["filters"]
         ]
-        out.write(table(["pair", "mode", "filter (Hz)", "filter damping", "gain"], rows) + "\n")
+        headers = ["pair", "mode", "filter (Hz)", "filter damping", "gain k", "unit"]
+        out.write(table(headers, rows) + "\n")
     if info.get("roll_off_hz"):
         out.write(f"\nroll-off corner {info['roll_off_hz']:.4g} Hz ({info['roll_off_rule']})\n")
+
+
+#: ``--target-damping none``: tune without a target (maximize the smallest damping)
+NO_TARGET = "none"
+
+
+def _target(text: str):
+    """``--target-damping`` value: a number, or ``none``."""
+    if text.strip().lower() == NO_TARGET:
+        return NO_TARGET
+    try:
+        return float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(
+            f"expected a damping ratio or 'none', got {text!r}"
+        ) from None
 
 
 def _gains(text: str | None):

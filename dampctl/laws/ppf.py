@@ -210,6 +210,7 @@ def design(
             "freq_hz": math.sqrt(b.sections[0].den[2]) / (2.0 * math.pi),
             "damping": b.sections[0].den[1] / (2.0 * math.sqrt(b.sections[0].den[2])),
             "gain": -b.gain,
+            "gain_unit": _filter_unit(plant, lp),
         }
         for lp in loops
         for b in lp.branches
@@ -381,3 +382,9 @@ def _check_pair(plant: ModalPlant, pair: Pair) -> None:
 def _gain_unit(plant: ModalPlant, pair: Pair) -> str:
     actuator = plant.actuator(pair.actuator)
     return "N/m" if actuator.kind == "force" else "m/m"
+
+
+def _filter_unit(plant: ModalPlant, loop) -> str:
+    """Unit of a filter's physical gain k: actuator unit per sensor unit (e.g. N/m)."""
+    actuator = "N" if plant.actuator(loop.actuator).kind == "force" else "m"
+    return f"{actuator}/{plant.sensor(loop.sensor).unit}"

@@ -115,3 +115,15 @@ def test_effort_over_the_force_limit_is_warned(tmp_path):
     code, out, err = _run(plant_path, design_path, "--samples", "0")
     assert code == 0, err
     assert "WARNING: f: 3 x RMS exceeds its force limit" in out
+
+
+def test_a_design_tuned_for_another_delay_is_pointed_out(tmp_path):
+    plant_path, design_path = _files(tmp_path)
+    data = json.loads(open(design_path).read())
+    data["info"] = {"delay_s": 3e-4}
+    open(design_path, "w").write(json.dumps(data))
+    code, out, err = _run(plant_path, design_path, "--samples", "0")
+    assert code in (0, 1), err
+    assert "tuned for a loop delay of 300 us" in out and "--delay-s 0.0003" in out
+    code, out, _ = _run(plant_path, design_path, "--samples", "0", "--delay-s", "3e-4")
+    assert code in (0, 1) and "tuned for a loop delay" not in out

@@ -77,9 +77,13 @@ def test_human_output():
     assert f"first natural frequency: {min(plant.freqs_hz):.4g} Hz" in out
     assert "participation: share of each mode's Hankel singular value" in out
     for pair in plant.pairs:
-        assert f" {pair.name} " in out
+        assert f"\n{pair.name} " in out
     assert "output probe_x: motion dominated by mode" in out
     assert "near-repeated" in out
+    # mode 1 (frame rz) is seen by no pair: its column shows no misleading shares
+    assert "no pair sees mode(s) 1" in out
+    vx1 = next(line for line in out.splitlines() if line.startswith("vx1 "))
+    assert vx1.split()[3] == "-" and "(-: no pair sees the mode" in out
     code, out, _ = run(str(PLANTS / "oscillator.toml"))
     assert code == 0
     assert "1 mode, 1 actuator, 2 sensors, 2 candidate pairs" in out

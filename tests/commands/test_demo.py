@@ -84,3 +84,16 @@ def test_report_refuses_to_overwrite_its_input(tmp_path):
     code, _, err = _run(["report", str(plant_file), str(design_file), "-o", str(design_file)])
     assert code == 2 and "input" in err
     assert design_file.read_bytes() == before
+
+
+def test_report_refuses_a_design_file_as_export_summary(tmp_path):
+    plant = chain_plant([1.0, 0.5], [5e5, 2e5], damping=0.01)
+    plant_file = tmp_path / "chain.toml"
+    plant_file.write_text(dump_plant(plant))
+    design_file = tmp_path / "design.json"
+    assert _run(["tune", str(plant_file), "--law", "dvf", "--pairs", "p1", "--gain", "5",
+                 "-o", str(design_file)])[0] in (0, 1)
+    code, _, err = _run(["report", str(plant_file), str(design_file), "-o",
+                         str(tmp_path / "r.html"), "--export", str(design_file)])
+    assert code == 2 and "is not an export summary" in err
+    assert not (tmp_path / "r.html").exists()

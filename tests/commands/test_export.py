@@ -131,6 +131,7 @@ def test_fingerprint_mismatch_exits_2(tmp_path, plant):
         (["--prewarp", "fast"], "--prewarp: expected auto, none or a frequency"),
         (["--format", "json,xml"], "--format: expected some of json, csv, c"),
         (["--method", "zoh", "--prewarp", "100"], "Tustin only"),
+        (["--tolerance", "-1"], "--tolerance: expected a fraction > 0"),
     ],
 )
 def test_bad_options_exit_2(tmp_path, plant, extra, message):

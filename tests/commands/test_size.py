@@ -80,3 +80,10 @@ def test_plots_are_written(tmp_path):
         ["size", str(_plant_file(tmp_path)), "--max-pairs", "1", "--plots", str(folder)]
     )
     assert code == 2 and "already exists" in err
+
+
+def test_human_table_states_the_command_unit(tmp_path):
+    # force actuators only: the RMS command is a force in N
+    code, out, _ = _run(["size", str(_plant_file(tmp_path)), "--max-pairs", "1"])
+    assert code == 0
+    assert "max RMS command (N)" in out and "Δmaximized/cost" in out

@@ -247,3 +247,25 @@ def test_lqg_gets_actuators_and_sensors_from_pairs(strut_file, tmp_path, monkeyp
     )
     assert code in (0, 1), err
     assert calls == {"actuators": ["f2"], "sensors": ["v2"], "order": 4, "modes": [2]}
+
+
+def test_lqg_human_output_names_hardware_and_design_model(chain_file, tmp_path):
+    code, out, err = _run(
+        chain_file, "--law", "lqg", "--actuators", "f1", "--sensors", "v1", "--modes", "1",
+        "--target-damping", "0.02", "-o", tmp_path / "d.json",
+    )  # fmt: skip
+    assert code in (0, 1), err
+    assert "lqg on actuator(s) f1 from sensor(s) v1" in out and "(-)" not in out
+    assert "LQG design model: modes" in out and "estimator damping" in out
+
+
+def test_target_none_maximizes_even_when_the_plant_states_one(strut_file, tmp_path):
+    # strut_file states min_damping 0.01; 'none' asks for the largest smallest damping instead
+    code, out, err = _run(strut_file, "--law", "dvf", "--pairs", "dvf1", "--target-damping",
+                          "none", "-o", tmp_path / "d.json", "--json")  # fmt: skip
+    assert code == 0, err
+    payload = json.loads(out)
+    assert payload["target_damping"] is None and payload["info"]["tuning"].startswith("maximize")
+    code, _, err = _run(strut_file, "--law", "dvf", "--pairs", "dvf1", "--target-damping",
+                        "lots", "-o", tmp_path / "e.json")  # fmt: skip
+    assert code == 2 and "'none'" in err

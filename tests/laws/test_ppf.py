@@ -140,3 +140,9 @@ def test_strain_sensor_on_a_strut_and_refusals():
     )
     with pytest.raises(DesignRefused, match="--law lqg"):
         ppf.design(noncollocated, ["x"])
+
+
+def test_filter_gain_carries_its_unit():
+    design = ppf.design(sdof_plant(1.0, W**2, 2 * 0.01 * W), ["fx"], target_damping=0.05)
+    # force actuator on a displacement sensor: k in N per m
+    assert [f["gain_unit"] for f in design.info["filters"]] == ["N/m"]
