@@ -17,10 +17,12 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
+from scipy.linalg import block_diag
 from scipy.optimize import linear_sum_assignment
 
 __all__ = [
     "MatchedModes",
+    "block_diagonal",
     "closed_loop_matrix",
     "closed_loop_modes",
     "delay_matrices",
@@ -263,24 +265,27 @@ def _diagonal_lowpass(corners_hz: Sequence[float | None], n: int) -> Matrices:
         else:
             w = 2.0 * np.pi * corner
             blocks.append((np.array([[-w]]), np.array([[w]]), np.ones((1, 1)), np.zeros((1, 1))))
-    return _blockdiag(blocks)
+    return block_diagonal(blocks)
 
 
 def _repeat(system: Matrices, n: int) -> Matrices:
-    return _blockdiag([system] * n)
+    return block_diagonal([system] * n)
 
 
-def _blockdiag(systems) -> Matrices:
-    parts = []
-    for k in range(4):
-        mats = [s[k] for s in systems]
-        out = np.zeros((sum(m.shape[0] for m in mats), sum(m.shape[1] for m in mats)))
-        r = c = 0
-        for m in mats:
-            out[r : r + m.shape[0], c : c + m.shape[1]] = m
-            r, c = r + m.shape[0], c + m.shape[1]
-        parts.append(out)
-    return tuple(parts)
+def block_diagonal(systems) -> Matrices:
+    """Block-diagonal connection of state spaces (system k: inputs k, outputs k).
+
+    Parameters
+    ----------
+    systems : sequence of tuple of ndarray
+        (A, B, C, D) of each system; empty (zero-state) systems allowed.
+
+    Returns
+    -------
+    tuple of ndarray
+        (A, B, C, D) of the side-by-side systems, states in order.
+    """
+    return tuple(block_diag(*[np.atleast_2d(s[k]) for s in systems]) for k in range(4))
 
 
 def modal_damping(poles: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

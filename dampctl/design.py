@@ -26,6 +26,7 @@ from types import MappingProxyType
 from typing import Any
 
 import numpy as np
+from scipy.linalg import block_diag
 
 from dampctl.errors import DesignError
 from dampctl.plant import ModalPlant
@@ -547,20 +548,9 @@ def _parallel(blocks):
 
 
 def _block_diagonal(systems):
-    A = _blkdiag([s[0] for s in systems])
-    B = _blkdiag([s[1] for s in systems])
-    C = _blkdiag([s[2] for s in systems])
-    D = _blkdiag([s[3] for s in systems])
-    return A, B, C, D
+    return tuple(block_diag(*[np.atleast_2d(s[k]) for s in systems]) for k in range(4))
 
 
 def _blkdiag(mats):
-    rows = sum(m.shape[0] for m in mats)
-    cols = sum(m.shape[1] for m in mats)
-    out = np.zeros((rows, cols))
-    r = c = 0
-    for m in mats:
-        out[r : r + m.shape[0], c : c + m.shape[1]] = m
-        r += m.shape[0]
-        c += m.shape[1]
-    return out
+    return block_diag(*mats)
+

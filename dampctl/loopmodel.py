@@ -11,6 +11,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from scipy.linalg import block_diag
 
 from dampctl.closedloop import (
     MAX_DELAY_SECTIONS,
@@ -84,18 +85,9 @@ def loop_controller(
     if delay_sections(delay_s, omega_ref):
         chain = delay_matrices(delay_s, omega_ref)
         n_out = D.shape[0]
-        blocks = [_blockdiag([chain[k]] * n_out) for k in range(4)]
+        blocks = [block_diag(*[chain[k]] * n_out) for k in range(4)]
         ctrl = series_matrices(ctrl, tuple(blocks))
     return ctrl
-
-
-def _blockdiag(mats):
-    out = np.zeros((sum(m.shape[0] for m in mats), sum(m.shape[1] for m in mats)))
-    r = c = 0
-    for m in mats:
-        out[r : r + m.shape[0], c : c + m.shape[1]] = m
-        r, c = r + m.shape[0], c + m.shape[1]
-    return out
 
 
 def loop_poles(plant, design, controller: Matrices) -> np.ndarray:

@@ -292,14 +292,14 @@ class SetEvaluator:
         return out
 
     def _set_controller(self, s: np.ndarray, gamma: float) -> Matrices:
-        from dampctl.design import _block_diagonal
+        from dampctl.closedloop import block_diagonal
 
         blocks = []
         for p in s:
             Ac, Bc, Cc, Dc = self.templates[p].matrices
             scale = gamma * self.kappa[p] / self.templates[p].unit_gain
             blocks.append((Ac, Bc, Cc * scale, Dc * scale))
-        return _block_diagonal(blocks)
+        return block_diagonal(blocks)
 
     def score(self, sets: np.ndarray, gammas: np.ndarray) -> np.ndarray:
         """Smallest closed-loop damping over the target modes, per (set, γ).

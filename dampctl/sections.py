@@ -16,7 +16,7 @@ import numpy as np
 import scipy.linalg
 import scipy.signal
 
-from dampctl.closedloop import series_matrices
+from dampctl.closedloop import block_diagonal, series_matrices
 from dampctl.errors import UsageError
 
 __all__ = [
@@ -179,28 +179,10 @@ class ParallelForm:
 
 def _blkdiag(mats) -> np.ndarray:
     """Block-diagonal matrix of 2-D blocks (empty blocks allowed)."""
-    mats = [np.atleast_2d(np.asarray(m, dtype=float)) for m in mats]
-    rows, cols = sum(m.shape[0] for m in mats), sum(m.shape[1] for m in mats)
-    out = np.zeros((rows, cols))
-    r = c = 0
-    for m in mats:
-        out[r : r + m.shape[0], c : c + m.shape[1]] = m
-        r, c = r + m.shape[0], c + m.shape[1]
-    return out
+    return scipy.linalg.block_diag(*[np.atleast_2d(np.asarray(m, dtype=float)) for m in mats])
 
 
-def _block_diagonal(systems) -> Matrices:
-    out = []
-    for k in range(4):
-        mats = [np.atleast_2d(s[k]) for s in systems]
-        rows, cols = sum(m.shape[0] for m in mats), sum(m.shape[1] for m in mats)
-        full = np.zeros((rows, cols))
-        r = c = 0
-        for m in mats:
-            full[r : r + m.shape[0], c : c + m.shape[1]] = m
-            r, c = r + m.shape[0], c + m.shape[1]
-        out.append(full)
-    return tuple(out)
+_block_diagonal = block_diagonal
 
 
 def _bilinear(mats: Matrices, sample_time_s: float, prewarp_rad_s: float | None) -> Matrices:

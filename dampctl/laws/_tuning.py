@@ -24,6 +24,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from dampctl.closedloop import (
+    block_diagonal,
     closed_loop_matrix,
     lag_elements,
     match_modes,
@@ -306,14 +307,5 @@ def _reduce_loops(run, gains: np.ndarray, target: float) -> np.ndarray:
 
 def stack_loops(loops) -> Matrices:
     """Block-diagonal (A, B, C, D) of decentralized loops (loop k: input k, output k)."""
-    systems = [lp.statespace_matrices() for lp in loops]
-    parts = []
-    for k in range(4):
-        mats = [s[k] for s in systems]
-        out = np.zeros((sum(m.shape[0] for m in mats), sum(m.shape[1] for m in mats)))
-        r = c = 0
-        for m in mats:
-            out[r : r + m.shape[0], c : c + m.shape[1]] = m
-            r, c = r + m.shape[0], c + m.shape[1]
-        parts.append(out)
-    return tuple(parts)
+    return block_diagonal([lp.statespace_matrices() for lp in loops])
+
