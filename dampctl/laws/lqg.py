@@ -535,6 +535,15 @@ def _estimator_noise(plant, model, kept, sensors, rule, goals) -> dict:
         for d in plant.disturbances:
             b = plant.input_row(d.name)[kept]
             W += 0.5 * b**2 * d.psd_at(plant.freqs_hz[kept])
+        # A target mode the disturbances barely excite would keep an undamped estimator pole
+        # (the closed-loop poles are the regulator's and the estimator's): give it at least the
+        # intensity that damps its estimator pole to the target (plus headroom).
+        target_goal = np.where(
+            goals > FLOOR_DAMPING,
+            np.minimum(goals / ESTIMATOR_FACTOR * (1.0 + GOAL_HEADROOM), MAX_ESTIMATOR_DAMPING),
+            FLOOR_DAMPING,
+        )
+        W = np.maximum(W, damping_weights(w, z, target_goal, gamma))
     else:
         W = damping_weights(w, z, goals, gamma)
     return {
