@@ -235,6 +235,16 @@ def search_gains(
         return SearchResult(gains, score, best_seen, True, count)
     if target is not None:
         reached = False
+    if refine_loops and base.size > 1:
+        # Multi-start: the same scan with each loop nearly off, so that adding a loop can never
+        # leave the result below what the other loops reach without it (a max-min objective
+        # has local optima the per-loop refinement cannot leave).
+        for k in range(base.size):
+            alt = base * np.where(np.arange(base.size) == k, 1e-3, 1.0)
+            alt_scores = run(scales[:, None] * alt[None, :])
+            if np.max(alt_scores) > np.max(scores):
+                base, scores = alt, alt_scores
+        best_seen = max(best_seen, float(np.max(scores)))
     k = _smallest_best(scores)
     scale, score = scales[k], float(scores[k])
     lo, hi = scales[max(k - 1, 0)], scales[min(k + 1, n - 1)]
