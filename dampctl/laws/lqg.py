@@ -296,7 +296,7 @@ def design(
     noise = _estimator_noise(plant, model, kept, sensors, process_noise, est_goals)
     if noise["relative_sensor_noise"]:
         warnings.append("some sensors have no noise_density: estimator noise is in relative units")
-    L = _estimator_gain(model, noise["W"], noise["V"])
+    noise["W"], L = _estimator(model, noise["W"], noise["V"], w, z, goals, is_target)
     controller = lqg_controller(*model, K, L)
 
     info: dict[str, Any] = {
@@ -612,6 +612,29 @@ def _estimator_gain(model, W, V) -> np.ndarray:
     c_e = np.sqrt(_positive_median(W) / _positive_median(gamma))
     L, _, _ = control.lqe(A, G, C, np.diag(W) / c_e, V / c_e)
     return np.asarray(L)
+
+
+def _estimator(model, W, V, w, z, goals, is_target):
+    """Kalman gain, with the process noise of under-damped target modes raised.
+
+    The closed-loop poles are the regulator's and the estimator's, so a target mode whose
+    estimator pole stays below the aimed damping (weakly excited or weakly observed, with the
+    modes coupled through the sensors) keeps a lightly damped closed-loop pole. Up to
+    ``GOAL_ITERATIONS`` times its intensity is scaled by (goal² − ζ²)/(reached² − ζ²), the
+    single-mode relation, until every target estimator pole reaches the goal within
+    ``GOAL_TOL``. Returns the intensities used and the gain.
+    """
+    W = np.array(W, dtype=float)
+    need = np.where(is_target, goals, 0.0)
+    for attempt in range(GOAL_ITERATIONS + 1):
+        L = _estimator_gain(model, W, V)
+        reached = np.array(_pole_damping(model[0] - L @ model[2], w, z))
+        short = is_target & (reached < need * (1.0 - GOAL_TOL)) & (reached > 0)
+        if not np.any(short) or attempt == GOAL_ITERATIONS:
+            break
+        ratio = (need**2 - z**2) / np.maximum(reached**2 - z**2, 1e-12)
+        W = np.where(short, W * np.clip(ratio, 1.0, 1e6), W)
+    return W, L
 
 
 def _pole_damping(Acl: np.ndarray, w: np.ndarray, z: np.ndarray) -> list[float]:
