@@ -235,16 +235,29 @@ def search_gains(
         return SearchResult(gains, score, best_seen, True, count)
     if target is not None:
         reached = False
+    starts = [(base, scores)]
     if refine_loops and base.size > 1:
         # Multi-start: the same scan with each loop nearly off, so that adding a loop can never
         # leave the result below what the other loops reach without it (a max-min objective
-        # has local optima the per-loop refinement cannot leave).
+        # has local optima the per-loop refinement cannot leave). The best such start is
+        # refined too, and the better of the two results kept.
+        alts = []
         for k in range(base.size):
             alt = base * np.where(np.arange(base.size) == k, 1e-3, 1.0)
-            alt_scores = run(scales[:, None] * alt[None, :])
-            if np.max(alt_scores) > np.max(scores):
-                base, scores = alt, alt_scores
-        best_seen = max(best_seen, float(np.max(scores)))
+            alts.append((alt, run(scales[:, None] * alt[None, :])))
+        best_alt = max(alts, key=lambda item: float(np.max(item[1])))
+        if np.max(best_alt[1]) > np.max(scores):
+            starts.append(best_alt)
+    results = [_zoom_and_refine(run, start, start_scores, scales, refine_loops)
+               for start, start_scores in starts]
+    gains, score = max(results, key=lambda item: item[1])
+    best_seen = max(best_seen, score)
+    return SearchResult(gains, score, best_seen, reached, count)
+
+
+def _zoom_and_refine(run, base, scores, scales, refine_loops):
+    """Zoom the common scale around the best scan point, then refine loop by loop."""
+    n = scales.size
     k = _smallest_best(scores)
     scale, score = scales[k], float(scores[k])
     lo, hi = scales[max(k - 1, 0)], scales[min(k + 1, n - 1)]
@@ -260,8 +273,7 @@ def search_gains(
     gains = scale * base
     if refine_loops and base.size > 1 and np.isfinite(score):
         gains, score = _refine_loops(run, gains, score)
-    best_seen = max(best_seen, score)
-    return SearchResult(gains, score, best_seen, reached, count)
+    return gains, score
 
 
 def _smallest_best(scores: np.ndarray) -> int:
