@@ -12,10 +12,9 @@ line prints the ratio of wall times and the agreement. Run from the repository r
 
 from __future__ import annotations
 
-import time
-
 import control as ct
 import numpy as np
+from benchtiming import compare_times  # scripts/ is on sys.path when run as a script
 
 from dampctl.components import Actuator, Mode, Pair, Sensor
 from dampctl.design import Branch, Design, Loop
@@ -61,7 +60,7 @@ def main(n_modes: int = 40, n_pairs: int = 4, samples: int = 40) -> None:
             worst = max(worst, float(np.max(poles.real)))
         return worst
 
-    t_ours, t_ct, result, worst = compare_times(ours, theirs)
+    t_ours, t_ct, result, worst = compare_times(ours, theirs, ROUNDS)
     gap = abs(worst - result.max_real) / abs(worst)
     if gap > 1e-6:
         raise SystemExit(f"largest real parts disagree: {result.max_real!r} vs {worst!r}")
@@ -74,26 +73,6 @@ def main(n_modes: int = 40, n_pairs: int = 4, samples: int = 40) -> None:
         f"ratio python-control/dampctl {t_ct / t_ours:.2f}x; largest real part "
         f"{worst:.6g} 1/s, relative difference {gap:.1e}"
     )
-
-
-def compare_times(first, second, rounds: int = ROUNDS):
-    """Best wall times (s) of ``first()`` and ``second()`` over interleaved rounds.
-
-    One untimed warm-up call of each, then per round one timed call of each, the one that goes
-    first alternating. Returns both best times and the results of the last calls.
-    """
-    result_a, result_b = first(), second()
-    best_a = best_b = np.inf
-    for k in range(rounds):
-        for which in (0, 1) if k % 2 == 0 else (1, 0):
-            start = time.perf_counter()
-            if which == 0:
-                result_a = first()
-                best_a = min(best_a, time.perf_counter() - start)
-            else:
-                result_b = second()
-                best_b = min(best_b, time.perf_counter() - start)
-    return best_a, best_b, result_a, result_b
 
 
 if __name__ == "__main__":

@@ -8,10 +8,9 @@ between the two sets of closed-loop poles.
 
 from __future__ import annotations
 
-import time
-
 import control
 import numpy as np
+from benchtiming import compare_times  # scripts/ is on sys.path when run as a script
 
 from dampctl.design import Branch, Design, Loop, Section
 from dampctl.discrete import discretize
@@ -47,33 +46,13 @@ def main() -> None:
         delay = control.ss([[0.0]], [[1.0]], [[1.0]], [[0.0]], T)
         return control.feedback(P, delay * control.ss(*ctrl, T), sign=-1).poles()
 
-    t_ours, t_theirs, poles_ours, poles_theirs = compare_times(ours, theirs)
+    t_ours, t_theirs, poles_ours, poles_theirs = compare_times(ours, theirs, ROUNDS)
     gap = max(np.min(np.abs(poles_ours - p)) for p in poles_theirs)
     print(f"{poles_ours.size} closed-loop poles, sampled at {rate:g} Hz; best of {ROUNDS}")
     print(
         f"dampctl sampled loop: {t_ours * 1e3:.1f} ms; python-control: {t_theirs * 1e3:.1f} ms;"
         f" ratio python-control/dampctl {t_theirs / t_ours:.2f}x; largest pole distance {gap:.2e}"
     )
-
-
-def compare_times(first, second, rounds: int = ROUNDS):
-    """Best wall times (s) of ``first()`` and ``second()`` over interleaved rounds.
-
-    One untimed warm-up call of each, then per round one timed call of each, the one that goes
-    first alternating. Returns both best times and the results of the last calls.
-    """
-    result_a, result_b = first(), second()
-    best_a = best_b = np.inf
-    for k in range(rounds):
-        for which in (0, 1) if k % 2 == 0 else (1, 0):
-            start = time.perf_counter()
-            if which == 0:
-                result_a = first()
-                best_a = min(best_a, time.perf_counter() - start)
-            else:
-                result_b = second()
-                best_b = min(best_b, time.perf_counter() - start)
-    return best_a, best_b, result_a, result_b
 
 
 if __name__ == "__main__":

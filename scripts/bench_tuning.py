@@ -18,32 +18,13 @@ import time
 
 import control
 import numpy as np
+from benchtiming import compare_times  # scripts/ is on sys.path when run as a script
 
 from dampctl.closedloop import closed_loop_matrix, effective_controller
 from dampctl.laws import dvf
 from dampctl.testing import chain_plant
 
 ROUNDS = 5
-
-
-def compare_times(first, second, rounds: int = ROUNDS):
-    """Best wall times (s) of ``first()`` and ``second()`` over interleaved rounds.
-
-    One untimed warm-up call of each, then per round one timed call of each, the one that goes
-    first alternating. Returns both best times and the results of the last calls.
-    """
-    result_a, result_b = first(), second()
-    best_a = best_b = np.inf
-    for k in range(rounds):
-        for which in (0, 1) if k % 2 == 0 else (1, 0):
-            start = time.perf_counter()
-            if which == 0:
-                result_a = first()
-                best_a = min(best_a, time.perf_counter() - start)
-            else:
-                result_b = second()
-                best_b = min(best_b, time.perf_counter() - start)
-    return best_a, best_b, result_a, result_b
 
 
 def main() -> None:
@@ -68,7 +49,7 @@ def main() -> None:
             poles.append(control.feedback(sys_plant, controller, sign=-1).poles())
         return poles
 
-    ours_s, theirs_s, poles_ours, poles_theirs = compare_times(ours, theirs)
+    ours_s, theirs_s, poles_ours, poles_theirs = compare_times(ours, theirs, ROUNDS)
 
     worst = 0.0
     for a, b in zip(poles_ours, poles_theirs, strict=True):
