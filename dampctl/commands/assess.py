@@ -114,8 +114,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if isinstance(tuned, int | float) and not math.isclose(tuned, result.delay_s, rel_tol=1e-6,
                                                            abs_tol=1e-12):
         note = (
-            f"the design was tuned for a loop delay of {tuned * 1e6:.4g} us but is assessed with "
-            f"{result.delay_s * 1e6:.4g} us (give --delay-s {tuned:g} to assess it at its "
+            f"the design was tuned for a loop delay of {tuned * 1e6:.4g} µs but is assessed with "
+            f"{result.delay_s * 1e6:.4g} µs (give --delay-s {tuned:g} to assess it at its "
             "tuning delay)"
         )
     if args.json:
@@ -148,8 +148,8 @@ def _print_human(a, out: TextIO, *, plant_name: str) -> None:
         f"{'STABLE' if a.stable else 'UNSTABLE'} (largest real part {a.max_real:.4g} 1/s)\n"
     )
     out.write(
-        f"loop delay {a.delay_s * 1e6:.4g} us: exact in frequency responses, "
-        f"{a.pade_sections} Pade [2/2] section(s) for poles; roll-offs "
+        f"loop delay {a.delay_s * 1e6:.4g} µs: exact in frequency responses, "
+        f"{a.pade_sections} Padé [2/2] section(s) for poles; roll-offs "
         f"{'included' if a.roll_off else 'left out'}\n\n"
     )
     rows = [

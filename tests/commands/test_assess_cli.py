@@ -124,6 +124,6 @@ def test_a_design_tuned_for_another_delay_is_pointed_out(tmp_path):
     open(design_path, "w").write(json.dumps(data))
     code, out, err = _run(plant_path, design_path, "--samples", "0")
     assert code in (0, 1), err
-    assert "tuned for a loop delay of 300 us" in out and "--delay-s 0.0003" in out
+    assert "tuned for a loop delay of 300 µs" in out and "--delay-s 0.0003" in out
     code, out, _ = _run(plant_path, design_path, "--samples", "0", "--delay-s", "3e-4")
     assert code in (0, 1) and "tuned for a loop delay" not in out
