@@ -45,6 +45,7 @@ from dampctl.components import (
     Sensor,
 )
 from dampctl.errors import PlantError
+from dampctl.modalbasis import BasisFiller, Engine, block_frequencies, resolve_engine
 
 __all__ = [
     "Actuator",
@@ -551,7 +552,12 @@ class ModalPlant:
         )
 
     def frf(
-        self, freq_hz: np.ndarray, actuators: Sequence[str], sensors: Sequence[str]
+        self,
+        freq_hz: np.ndarray,
+        actuators: Sequence[str],
+        sensors: Sequence[str],
+        *,
+        engine: Engine = "auto",
     ) -> np.ndarray:
         """Frequency response from the modal sum.
 
@@ -563,6 +569,10 @@ class ModalPlant:
             Input names (actuators or disturbances).
         sensors : sequence of str
             Output names (sensors or performance outputs).
+        engine : {"auto", "numpy", "compiled"}, optional
+            How the modal basis is computed (:mod:`dampctl.modalbasis`): ``"compiled"`` needs
+            numba (the ``fast`` extra); ``"auto"`` (default) uses it for large problems when
+            it is installed. Both give the same response to rounding.
 
         Returns
         -------
@@ -576,59 +586,41 @@ class ModalPlant:
         product of the (real) rank-one residues c_i b_i with the modal basis
         1/(ω_i² − ω² + 2jζ_iω_iω), its complex entries read as pairs of reals, so the cost is
         one (n_out·n_in) × n_modes × (2 n_freq) real product. The frequencies go in blocks:
-        each block's basis is built in scratch arrays allocated once per call (so they stay
-        in cache and no memory is touched afresh per block), the product is written straight
-        into the result, and (jω)^order and D are applied to the block while it is in cache.
-        All in float64; nothing is kept between calls.
+        each block's basis is written into one scratch array allocated once per call and the
+        product goes straight into the result; (jω)^order and D are applied at the end, output
+        by output. All in float64; nothing is kept between calls.
         """
         freq = np.asarray(freq_hz, dtype=float).ravel()
         if not np.all(np.isfinite(freq)) or np.any(freq < 0):
             raise PlantError("frequencies must be finite and >= 0", field="freq_hz")
         b, c, orders, D = self._matrices(actuators, sensors)
         n_out, n_in = c.shape[0], b.shape[1]
-        w_i, z_i = self.omegas, self.dampings
         w = 2.0 * np.pi * freq
-        n_modes, n_f = w_i.size, w.size
+        n_modes, n_f = self.n_modes, w.size
+        kind = resolve_engine(engine, n_modes, n_f)
+        size = block_frequencies(kind, n_modes, n_f)
+        filler = BasisFiller(self.omegas, self.dampings, kind, size)
         residues = (c[:, None, :] * b.T[None, :, :]).reshape(n_out * n_in, n_modes)
-        w2_i = (w_i * w_i)[:, None]
-        minus_two_zw = (-2.0 * z_i * w_i)[:, None]
         h = np.empty((n_out, n_in, n_f), dtype=complex)
         h_pairs = h.reshape(n_out * n_in, n_f).view(float)  # (re, im) pairs of reals
-        velocity, acceleration = np.flatnonzero(orders == 1), np.flatnonzero(orders == 2)
-        constant = bool(np.any(D != 0.0))
-        size = max(1, min(_FRF_BLOCK, n_f))
-        re, im, mag2, square = (np.empty((n_modes, size)) for _ in range(4))
-        basis = np.empty((n_modes, size), dtype=complex)
+        scratch = np.empty((n_modes, 2 * size))
         for lo in range(0, n_f, size):
             hi = min(lo + size, n_f)
-            wb, m = w[lo:hi], hi - lo
-            # modal basis 1/(ω_i² − ω² + 2jζ_iω_iω) = (re + j im)/(re² + im²), re = ω_i² − ω²,
-            # im = −2ζ_iω_iω, in real arithmetic (one rounded division per part); its complex
-            # entries seen as (re, im) pairs of reals make the sum over modes one real GEMM
-            # whose result, read as complex, is the response
-            r, i, g, z = re[:, :m], im[:, :m], mag2[:, :m], basis[:, :m]
-            np.subtract(w2_i, wb * wb, out=r)
-            np.multiply(minus_two_zw, wb, out=i)
-            np.multiply(r, r, out=g)
-            g += np.multiply(i, i, out=square[:, :m])
-            np.divide(r, g, out=z.real)
-            np.divide(i, g, out=z.imag)
-            np.matmul(residues, z.view(float), out=h_pairs[:, 2 * lo : 2 * hi])
-            block = h[:, :, lo:hi]
-            if velocity.size:
-                jw = 1j * wb
-                for o in velocity:
-                    block[o] *= jw
-            if acceleration.size:
-                minus_w2 = -(wb * wb)
-                for o in acceleration:
-                    block[o] *= minus_w2
-            if constant:
-                block.real += D[:, :, None]
+            basis = scratch[:, : 2 * (hi - lo)]
+            filler.fill(w[lo:hi], basis)
+            np.matmul(residues, basis, out=h_pairs[:, 2 * lo : 2 * hi])
+        # one output row (n_in, n_f) at a time: contiguous, and much faster than a fancy index
+        if np.any(orders == 1):
+            jw = 1j * w
+            for o in np.flatnonzero(orders == 1):
+                h[o] *= jw
+        if np.any(orders == 2):
+            minus_w2 = (-(w * w)).astype(complex)
+            for o in np.flatnonzero(orders == 2):
+                h[o] *= minus_w2
+        if np.any(D != 0.0):
+            h.real += D[:, :, None]
         return h
-
-
-_FRF_BLOCK = 512  # frequencies per block in ModalPlant.frf (scratch: 6 rows of 4 kB per mode)
 
 
 def _readonly(array: np.ndarray) -> np.ndarray:
