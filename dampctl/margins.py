@@ -244,8 +244,12 @@ def siso_margins(
     phase_x = []
     for k in np.flatnonzero(np.sign(imag[:-1]) * np.sign(imag[1:]) < 0):
         if values.real[k] < 0 or values.real[k + 1] < 0:
-            f = _refine(lambda f: loop(np.array([f]))[0].imag, grid, imag, k)
-            if loop(np.array([f]))[0].real < 0:
+            # Im L also changes sign through infinity across an undamped pole: the search then
+            # closes in on the pole itself, where L is not finite, and finds no crossover
+            with np.errstate(divide="ignore", invalid="ignore"):
+                f = _refine(lambda f: loop(np.array([f]))[0].imag, grid, imag, k)
+                at = loop(np.array([f]))[0]
+            if np.isfinite(at) and at.real < 0:
                 phase_x.append(f)
     lags, delays = [], []
     for f in gain_x:

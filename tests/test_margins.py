@@ -1,5 +1,6 @@
 """Loop margins against python-control and published delay-margin values (REFERENCES §12)."""
 
+import warnings
 from dataclasses import replace
 
 import control as ct
@@ -54,6 +55,27 @@ def test_integrator_delay_margin_reference_value():
     assert m.delay_margin_s == pytest.approx(2.5e-3, rel=1e-9)
     assert m.crossover_hz == pytest.approx(100.0, rel=1e-9)
     assert m.gain_margin_db == np.inf
+
+
+def test_undamped_pole_is_not_a_phase_crossover():
+    # L = −(g/m) e^{−sT}/(s² + ω0²) from an undamped mode (positive displacement feedback
+    # through a delay): Im L = (g/m) sin(ωT)/(ω0² − ω²) changes sign through infinity at ω0 (the
+    # pole, where L is not finite) and through zero where ωT = π. Only the latter is a crossover
+    # of the real axis; there Re L = (g/m)/(ω0² − ω²) < 0 for ω > ω0, so the gain margin is
+    # m(ω² − ω0²)/g (closed form). The search must pass the pole without evaluating it.
+    f0, T, g, m = 94.0, 1.0 / (2 * 400.0), 2.0e5, 1.0  # ωT = π at 400 Hz
+    plant = sdof_plant(m, m * (2 * np.pi * f0) ** 2, 0.0)
+    delay = 2j * np.pi * T
+
+    def loop(f):
+        return -g * plant.frf(f, ["f"], ["x"])[0, 0] * np.exp(-delay * np.asarray(f))
+
+    grid = np.sort(np.concatenate([GRID, [f0 * (1 - 1e-3), f0 * (1 + 1e-3)]]))
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        margins = siso_margins(loop, grid)
+    w, w0 = 2 * np.pi * 400.0, 2 * np.pi * f0
+    assert margins.gain_margin_db == pytest.approx(20 * np.log10(m * (w**2 - w0**2) / g), rel=1e-9)
 
 
 def test_second_order_loop_reference_values():
