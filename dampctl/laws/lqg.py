@@ -60,7 +60,10 @@ sensors see it (a mode one of them misses cannot spill over; Balas 1978). Modes 
 enter as their static compliance (displacement-like sensors: + c b/ω²; accelerometers lose
 their direct term), modes below are left out. The controller is then always checked on the
 full plant with the plant's stated delay and roll-offs: every mode's closed-loop damping is
-listed and residual modes pushed unstable are flagged as spillover.
+listed and residual modes pushed unstable are flagged as spillover. Residual modes the loop
+drives unstable (and that the actuators reach and the sensors see) then join the design model
+and the design is repeated — the cure of Balas 1978 — at most ``SPILLOVER_ROUNDS`` times, a
+round kept only when its full-plant loop is better (stable, or fewer unstable modes).
 
 **Reduction.** ``order=N`` reduces the controller by balanced truncation (python-control
 ``balred``, slycot ``ab09ad``/``ab09md``; unstable controller poles are kept whole and the stable
@@ -80,6 +83,7 @@ u = −(C_c x_c + D_c y).
 from __future__ import annotations
 
 from collections.abc import Sequence
+from dataclasses import dataclass
 from typing import Any, Literal
 
 import numpy as np
@@ -117,6 +121,7 @@ __all__ = [
     "GOAL_TOL",
     "MAX_ESTIMATOR_DAMPING",
     "NEIGHBOUR_FACTOR",
+    "SPILLOVER_ROUNDS",
     "TARGET_TOL",
     "Reduction",
     "check_on_plant",
@@ -142,6 +147,8 @@ TARGET_TOL = 0.01
 #: redesigns with the target goals raised where the full plant falls short, and the cap
 FULL_PLANT_ITERATIONS = 3
 MAX_RAISED_GOAL = 0.5
+#: redesigns with residual modes that the loop drives unstable added to the design model
+SPILLOVER_ROUNDS = 2
 
 REGULATOR_RULE = (
     "velocity weight per design-model mode q2 = 4 w^2 (z_goal^2 - z^2) / beta, "
@@ -280,81 +287,30 @@ def design(
     beta_all = _input_gains(full, plant.n_modes, _input_weights(plant, actuators))
     warnings: list[str] = []
     kept, dropped = _reachable(plant, targets, neighbours, full, beta_all)
-    model = design_model_matrices(plant, actuators, sensors, [i + 1 for i in kept])
-    w, z = plant.omegas[kept], plant.dampings[kept]
     r = _input_weights(plant, actuators)
-    goal = min(zeta_c * (1.0 + GOAL_HEADROOM), 0.99)
-    goals = np.array([goal if i in targets else FLOOR_DAMPING for i in kept])
-    is_target = np.array([i in targets for i in kept])
-    beta = _input_gains(model, len(kept), r)
-    est_goals = np.array([zeta_e if i in targets else FLOOR_DAMPING for i in kept])
     delay = plant_loop_delay_s(plant) if delay_s is None else float(delay_s)
-    model_modes = [i + 1 for i in kept]
-
-    def synthesize(goals: np.ndarray) -> tuple[np.ndarray, dict, dict, dict]:
-        """Controller, regulator and estimator records, and its full-plant check."""
-        q_vel, K, regulator_damping, effective = _regulator(model, w, z, goals, is_target, beta, r)
-        # the estimator's target poles aim at zeta_e, raised with the regulator's goal when the
-        # full-plant correction raises it: poles of regulator and estimator that nearly coincide
-        # split widely under the full plant's delay and left-out modes
-        raised = est_goals * goals / (zeta_c * (1.0 + GOAL_HEADROOM))
-        aim = np.where(
-            is_target, np.minimum(np.maximum(est_goals, raised), MAX_ESTIMATOR_DAMPING), est_goals
-        )
-        noise = _estimator_noise(plant, model, kept, sensors, process_noise, aim)
-        noise["W"], L = _estimator(model, noise["W"], noise["V"], w, z, aim, is_target)
-        controller = lqg_controller(*model, K, L)
-        regulator = {
-            "rule": REGULATOR_RULE,
-            "state_weight": "velocity states only",
-            "velocity_weights": q_vel.tolist(),
-            "input_weights": r.tolist(),
-            "damping_goals": goals.tolist(),
-            "corrected_goals": effective.tolist(),
-            "regulator_damping": regulator_damping,
-        }
-        estimator = {
-            "process_noise": noise["rule"],
-            "sensor_noise_density": noise["density"],
-            "sensor_noise_intensity": np.diag(noise["V"]).tolist(),
-            "process_noise_intensity": noise["W"].tolist(),
-            "estimator_damping_goals": aim.tolist() if noise["rule"] == "relative" else None,
-            "estimator_damping": _pole_damping(model[0] - L @ model[2], w, z),
-            "conversion": "intensity = ASD^2 / 2 (one-sided ASD to continuous white intensity)",
-            "relative_sensor_noise": noise["relative_sensor_noise"],
-        }
-        trial = _make(plant, actuators, sensors, targets, controller, pairs, {})
-        check = check_on_plant(plant, trial, model_modes=model_modes, delay_s=delay).to_dict()
-        return controller, regulator, estimator, check
-
-    # the design model leaves out the delay, the roll-offs and the modes outside it: where the
-    # full plant falls short on a target mode, that mode's goal is scaled by
-    # (1 + GOAL_HEADROOM) target / reached and the controller designed again (at most
-    # FULL_PLANT_ITERATIONS times); the best stable attempt (largest smallest target damping)
-    # is kept
-    attempts = []
-    for _ in range(FULL_PLANT_ITERATIONS + 1):
-        attempt = synthesize(goals)
-        attempts.append((goals.tolist(), attempt))
-        check = attempt[3]
-        reached = {m["mode"] - 1: m["closed_loop_damping"] for m in check["modes"]}
-        short = np.array(
-            [t and 0 < reached[i] < zeta_c for i, t in zip(kept, is_target, strict=True)]
-        )
-        if not check["stable"] or not np.any(short):
+    setup = _Setup(plant, actuators, sensors, targets, pairs, r, zeta_c, zeta_e, process_noise)
+    # residual modes the controller drives unstable join the design model (the cure of Balas
+    # 1978) and the design is repeated, at most SPILLOVER_ROUNDS times, while that helps
+    reach_seen = np.logical_and(*_reach_and_seen(full, plant.n_modes, beta_all))
+    added: list[int] = []
+    chosen = _design_on(setup, kept, delay)
+    for _ in range(SPILLOVER_ROUNDS):
+        check = chosen["check"]
+        spilled = [
+            m - 1
+            for m in check["spillover_unstable"]
+            if m - 1 not in chosen["kept"] and reach_seen[m - 1]
+        ]
+        if check["stable"] or not spilled:
             break
-        aim_c = zeta_c * (1.0 + GOAL_HEADROOM)
-        raised = np.array([goals[k] * aim_c / max(reached[i], 1e-6) for k, i in enumerate(kept)])
-        goals = np.where(short, np.minimum(raised, MAX_RAISED_GOAL), goals)
-        if np.allclose(goals, attempts[-1][0]):
+        trial = _design_on(setup, sorted(chosen["kept"] + spilled), delay)
+        if not _better(trial["check"], check):
             break
-    stable = [a for a in attempts if a[1][3]["stable"]] or attempts[:1]
-    first_goals, first = attempts[0]
-    spilled = len(first[3]["spillover_reduced"])
-    goals_used, (controller, regulator, estimator, check) = max(
-        stable,  # no attempt that reduces more residual modes' damping than the first
-        key=lambda a: (len(a[1][3]["spillover_reduced"]) <= spilled, a[1][3]["target_damping_min"]),
-    )
+        chosen, added = trial, added + [m + 1 for m in spilled]
+    kept, model_modes = chosen["kept"], [i + 1 for i in chosen["kept"]]
+    attempts, controller, check = chosen["attempts"], chosen["controller"], chosen["check"]
+    regulator, estimator = chosen["regulator"], chosen["estimator"]
     if estimator.pop("relative_sensor_noise"):
         warnings.append("some sensors have no noise_density: estimator noise is in relative units")
 
@@ -366,6 +322,7 @@ def design(
             "modes": model_modes,
             "targets": [i + 1 for i in targets],
             "neighbours": [i + 1 for i in kept if i not in targets],
+            "added_for_spillover": sorted(added),
             "left_out": dropped,
             "neighbour_factor": float(neighbours),
             "static_correction": "modes above the band as static compliance",
@@ -378,9 +335,9 @@ def design(
                 "stable attempt is kept"
             ),
             "attempts": len(attempts),
-            "first_goals": first_goals,
-            "goals_used": goals_used,
-            "target_damping_min_per_attempt": [a[1][3]["target_damping_min"] for a in attempts],
+            "first_goals": attempts[0][0],
+            "goals_used": chosen["goals"],
+            "target_damping_min_per_attempt": [a[1]["target_damping_min"] for a in attempts],
         },
     }
     result = _make(plant, actuators, sensors, targets, controller, pairs, info)
@@ -415,6 +372,141 @@ def design(
     warnings += _warnings(plant, check, info["margins"], zeta_c)
     info["warnings"] = warnings
     return _make(plant, actuators, sensors, targets, result.controller, pairs, info)
+
+
+# ---------------------------------------------------------------------- design on a model
+@dataclass(frozen=True)
+class _Setup:
+    """What every design-model attempt of one call shares."""
+
+    plant: ModalPlant
+    actuators: tuple
+    sensors: tuple
+    targets: list
+    pairs: tuple
+    r: np.ndarray
+    zeta_c: float
+    zeta_e: float
+    process_noise: str
+
+
+def _synthesize(setup: _Setup, kept, model, goals: np.ndarray, delay: float) -> dict:
+    """Controller for one set of goals on one design model, and its full-plant check."""
+    plant, targets, zeta_c = setup.plant, setup.targets, setup.zeta_c
+    w, z = plant.omegas[kept], plant.dampings[kept]
+    is_target = np.array([i in targets for i in kept])
+    beta = _input_gains(model, len(kept), setup.r)
+    est_goals = np.array([setup.zeta_e if i in targets else FLOOR_DAMPING for i in kept])
+    q_vel, K, regulator_damping, effective = _regulator(
+        model, w, z, goals, is_target, beta, setup.r
+    )
+    # the estimator's target poles aim at zeta_e, raised with the regulator's goal when the
+    # full-plant correction raises it: poles of regulator and estimator that nearly coincide
+    # split widely under the full plant's delay and left-out modes
+    raised = est_goals * goals / (zeta_c * (1.0 + GOAL_HEADROOM))
+    aim = np.where(
+        is_target, np.minimum(np.maximum(est_goals, raised), MAX_ESTIMATOR_DAMPING), est_goals
+    )
+    noise = _estimator_noise(plant, model, kept, setup.sensors, setup.process_noise, aim)
+    noise["W"], L = _estimator(model, noise["W"], noise["V"], w, z, aim, is_target)
+    controller = lqg_controller(*model, K, L)
+    trial = _make(plant, setup.actuators, setup.sensors, targets, controller, setup.pairs, {})
+    model_modes = [i + 1 for i in kept]
+    check = check_on_plant(plant, trial, model_modes=model_modes, delay_s=delay).to_dict()
+    return {
+        "controller": controller,
+        "check": check,
+        "regulator": {
+            "rule": REGULATOR_RULE,
+            "state_weight": "velocity states only",
+            "velocity_weights": q_vel.tolist(),
+            "input_weights": setup.r.tolist(),
+            "damping_goals": goals.tolist(),
+            "corrected_goals": effective.tolist(),
+            "regulator_damping": regulator_damping,
+        },
+        "estimator": {
+            "process_noise": noise["rule"],
+            "sensor_noise_density": noise["density"],
+            "sensor_noise_intensity": np.diag(noise["V"]).tolist(),
+            "process_noise_intensity": noise["W"].tolist(),
+            "estimator_damping_goals": aim.tolist() if noise["rule"] == "relative" else None,
+            "estimator_damping": _pole_damping(model[0] - L @ model[2], w, z),
+            "conversion": "intensity = ASD^2 / 2 (one-sided ASD to continuous white intensity)",
+            "relative_sensor_noise": noise["relative_sensor_noise"],
+        },
+    }
+
+
+def _design_on(setup: _Setup, kept: list, delay: float) -> dict:
+    """The best controller on one design model, with the full-plant correction of the goals.
+
+    The design model leaves out the delay, the roll-offs and the modes outside it: where the
+    full plant falls short on a target mode, that mode's goal is scaled by
+    (1 + GOAL_HEADROOM) target / reached and the controller designed again (at most
+    FULL_PLANT_ITERATIONS times). Kept: the stable attempt with the largest smallest target
+    damping among those that reduce no more residual modes' damping than the first.
+    """
+    plant, targets, zeta_c = setup.plant, setup.targets, setup.zeta_c
+    model = design_model_matrices(plant, setup.actuators, setup.sensors, [i + 1 for i in kept])
+    is_target = np.array([i in targets for i in kept])
+    goal = min(zeta_c * (1.0 + GOAL_HEADROOM), 0.99)
+    goals = np.array([goal if t else FLOOR_DAMPING for t in is_target])
+    attempts = []
+    for _ in range(FULL_PLANT_ITERATIONS + 1):
+        attempt = _synthesize(setup, kept, model, goals, delay)
+        attempts.append((goals.tolist(), attempt))
+        check = attempt["check"]
+        reached = {m["mode"] - 1: m["closed_loop_damping"] for m in check["modes"]}
+        short = np.array(
+            [t and 0 < reached[i] < zeta_c for i, t in zip(kept, is_target, strict=True)]
+        )
+        if not check["stable"] or not np.any(short):
+            break
+        aim_c = zeta_c * (1.0 + GOAL_HEADROOM)
+        raised = np.array([goals[k] * aim_c / max(reached[i], 1e-6) for k, i in enumerate(kept)])
+        goals = np.where(short, np.minimum(raised, MAX_RAISED_GOAL), goals)
+        if np.allclose(goals, attempts[-1][0]):
+            break
+    stable = [a for a in attempts if a[1]["check"]["stable"]] or attempts[:1]
+    spilled = len(attempts[0][1]["check"]["spillover_reduced"])
+    goals_used, best = max(
+        stable,
+        key=lambda a: (
+            len(a[1]["check"]["spillover_reduced"]) <= spilled,
+            a[1]["check"]["target_damping_min"],
+        ),
+    )
+    return {
+        **best,
+        "kept": list(kept),
+        "goals": goals_used,
+        "attempts": [(g, a["check"]) for g, a in attempts],
+    }
+
+
+def _reach_and_seen(full, n_modes: int, beta_all: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Per plant mode: reached by the actuators, and seen by the sensors (REACH_TOL)."""
+    gamma_all = _output_gains(full[2], n_modes, np.ones(full[2].shape[0]))
+    ok = []
+    for gains in (beta_all, gamma_all):
+        top = np.max(gains)
+        ok.append(gains > REACH_TOL * top if top > 0 else gains > 0)
+    return ok[0], ok[1]
+
+
+def _better(new: dict, old: dict) -> bool:
+    """Whether a full-plant check is better: stable first, then fewer unstable spillover modes,
+    then a smaller largest real part."""
+
+    def rank(check):
+        return (
+            check["stable"],
+            -len(check["spillover_unstable"]),
+            -check["max_real_per_s"],
+        )
+
+    return rank(new) > rank(old)
 
 
 # ---------------------------------------------------------------------- helpers
@@ -489,10 +581,7 @@ def _input_weights(plant, actuators) -> np.ndarray:
 
 def _reachable(plant, targets, neighbours, full, beta_all):
     """Design-model modes (0-based) and the neighbours left out, with the reason."""
-    C = full[2]
-    gamma_all = _output_gains(C, plant.n_modes, np.ones(C.shape[0]))
-    reach = beta_all > REACH_TOL * np.max(beta_all) if np.max(beta_all) > 0 else beta_all > 0
-    seen = gamma_all > REACH_TOL * np.max(gamma_all) if np.max(gamma_all) > 0 else gamma_all > 0
+    reach, seen = _reach_and_seen(full, plant.n_modes, beta_all)
     for i in targets:
         if not reach[i]:
             raise DesignRefused(
