@@ -316,10 +316,13 @@ def _print_law_facts(info: dict, out: TextIO) -> None:
         order = info.get("controller_order")
         full = info.get("full_order")
         reduced = f" (reduced from {full})" if full and order and full != order else ""
+        added = model.get("added_for_spillover") or []
+        neighbours = [m for m in model.get("neighbours", []) if m not in added]
+        spill = f"; added for spillover {', '.join(str(m) for m in added)}" if added else ""
         out.write(
             f"\nLQG design model: modes {listed} (targets "
             f"{', '.join(str(m) for m in model.get('targets', [])) or '-'}; neighbours "
-            f"{', '.join(str(m) for m in model.get('neighbours', [])) or '-'}); "
+            f"{', '.join(str(m) for m in neighbours) or '-'}{spill}); "
             f"controller order {order}{reduced}\n"
         )
         estimator = info.get("estimator") or {}

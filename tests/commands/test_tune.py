@@ -269,3 +269,14 @@ def test_target_none_maximizes_even_when_the_plant_states_one(strut_file, tmp_pa
     code, _, err = _run(strut_file, "--law", "dvf", "--pairs", "dvf1", "--target-damping",
                         "lots", "-o", tmp_path / "e.json")  # fmt: skip
     assert code == 2 and "'none'" in err
+
+
+def test_lqg_human_output_names_modes_added_for_spillover(tmp_path):
+    # demo truss, two struts: residual modes 7 and 9 spill over on the default design model
+    # and are added to it (tests/laws/test_spillover.py)
+    truss = Path(__file__).resolve().parents[2] / "plants" / "light_truss.toml"
+    out_file = tmp_path / "d.json"
+    code, out, err = _run(truss, "--law", "lqg", "--pairs", "iff_1,iff_2", "-o", out_file)
+    assert code == 0, err
+    assert "(targets 1, 2, 3; neighbours 4; added for spillover 7, 9)" in out
+    assert "stable: yes" in out
