@@ -235,24 +235,42 @@ def search_gains(
         return SearchResult(gains, score, best_seen, True, count)
     if target is not None:
         reached = False
-    starts = [(base, scores)]
+    results = [_zoom_and_refine(run, base, scores, scales, refine_loops)]
     if refine_loops and base.size > 1:
-        # Multi-start: the same scan with each loop nearly off, so that adding a loop can never
-        # leave the result below what the other loops reach without it (a max-min objective
-        # has local optima the per-loop refinement cannot leave). The best such start is
-        # refined too, and the better of the two results kept.
-        alts = []
+        # Multi-start, so that adding a loop does not leave the result below what the other
+        # loops reach without it (a max-min objective has local optima the per-loop refinement
+        # cannot leave): for each loop, the search on the other loops with that one off, then
+        # the refinement of all loops from there with that one nearly off. The best is kept.
         for k in range(base.size):
-            alt = base * np.where(np.arange(base.size) == k, 1e-3, 1.0)
-            alts.append((alt, run(scales[:, None] * alt[None, :])))
-        best_alt = max(alts, key=lambda item: float(np.max(item[1])))
-        if np.max(best_alt[1]) > np.max(scores):
-            starts.append(best_alt)
-    results = [_zoom_and_refine(run, start, start_scores, scales, refine_loops)
-               for start, start_scores in starts]
+            results.append(_without_loop(run, base, k, scales))
     gains, score = max(results, key=lambda item: item[1])
     best_seen = max(best_seen, score)
     return SearchResult(gains, score, best_seen, reached, count)
+
+
+def _without_loop(run, base: np.ndarray, k: int, scales: np.ndarray):
+    """Best gains with loop k off (searched on the others), then refined with it nearly off."""
+    others = np.arange(base.size) != k
+
+    def run_others(gains: np.ndarray) -> np.ndarray:
+        full = np.zeros((gains.shape[0], base.size))
+        full[:, others] = gains
+        return run(full)
+
+    sub = base[others]
+    sub_scores = run_others(scales[:, None] * sub[None, :])
+    gains_sub, score = _zoom_and_refine(run_others, sub, sub_scores, scales, sub.size > 1)
+    if not np.isfinite(score):
+        return np.zeros(base.size), score
+    gains = np.zeros(base.size)
+    gains[others] = gains_sub
+    scale = float(np.exp(np.mean(np.log(gains_sub / sub))))
+    gains[k] = 1e-3 * scale * base[k]  # nearly off, so that the refinement can turn it up
+    start = float(run(gains[None, :])[0])
+    if start < score:  # the small gain cost damping: keep the loop off
+        gains[k], start = 0.0, score
+        return gains, score
+    return _refine_loops(run, gains, start)
 
 
 def _zoom_and_refine(run, base, scores, scales, refine_loops):
