@@ -119,6 +119,13 @@ def finish(
             "the closed loop is UNSTABLE with the stated delay and roll-offs "
             f"(largest pole real part {evaluation.max_real[0]:.4g} 1/s): do not run it"
         )
+    off = [lp.pair for lp in loops if lp.gain == 0.0]
+    if off and not tuning.startswith("fixed"):
+        notes.append(
+            f"pair(s) {', '.join(off)}: tuned gain 0 — with the other loops on, turning "
+            "them up does not raise the smallest target damping; leave them out, or give them "
+            "other target modes"
+        )
     if request.target_damping is not None and target_reached is False:
         notes.append(
             f"target damping {request.target_damping:g} is not reached: the design reaches "
