@@ -397,6 +397,16 @@ def size_pairs(
 
 
 # ---------------------------------------------------------------------- one row
+def _better_set(new: tuple, old: tuple, tol: float = 1e-6) -> bool:
+    """Whether (spans clusters, maximized damping, cost) ``new`` beats ``old``: spanning first,
+    then damping larger by more than ``tol`` (relative), then, at equal damping, lower cost."""
+    if new[0] != old[0]:
+        return new[0]
+    if new[1] > old[1] + tol * max(abs(old[1]), 1e-12):
+        return True
+    return abs(new[1] - old[1]) <= tol * max(abs(old[1]), 1e-12) and new[2] < old[2]
+
+
 def _row(
     plant,
     maximize_plant,
@@ -422,9 +432,8 @@ def _row(
         tried += 1
         value = _min_damping(plant, design, targets)
         short = _shortfall(plant, chosen, clusters)
-        key = (not short, value)
-        if best is None or key > best[0]:
-            best = (key, chosen, design, value, short)
+        if best is None or _better_set((not short, value, _cost(plant, chosen)), best[0]):
+            best = ((not short, value, _cost(plant, chosen)), chosen, design, value, short)
     _, chosen, achievable_design, achievable, short = best
     if target_damping is not None:
         design = module.design(plant, list(chosen), modes=modes, target_damping=target_damping)
@@ -437,7 +446,10 @@ def _row(
     cost = _cost(plant, chosen)
     per_cost = None
     if previous is not None and abs(cost - previous.cost) > 0:
-        per_cost = (achievable - previous.achievable_min_damping) / (cost - previous.cost)
+        gained = achievable - previous.achievable_min_damping
+        if abs(gained) <= 1e-9 * max(abs(achievable), 1e-12):
+            gained = 0.0  # the same damping, up to rounding between two eigen-solves
+        per_cost = gained / (cost - previous.cost)
     margins = _margins(plant, design)
     return SizingRow(
         pairs_used=k,
