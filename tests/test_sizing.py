@@ -179,3 +179,14 @@ def test_rows_stop_where_every_larger_set_would_share_hardware():
     plant = chain_plant([1.0, 0.5], [5e5, 2e5], damping=0.01)
     result = size_pairs(plant, max_pairs=2, candidates=["p1", "q1"])
     assert [r.pairs_used for r in result.rows] == [1]
+
+
+def test_equal_damping_prefers_the_cheaper_set():
+    # ties within 1e-6 (two eigen-solves of the same loop) go to the lower cost; spanning the
+    # clusters and a real damping gain come first
+    from dampctl.sizing import _better_set
+
+    assert _better_set((True, 0.2523, 3800.0), (True, 0.2523 * (1 + 1e-12), 4400.0))
+    assert not _better_set((True, 0.2523 * (1 + 1e-12), 4400.0), (True, 0.2523, 3800.0))
+    assert _better_set((True, 0.26, 4400.0), (True, 0.2523, 3800.0))
+    assert _better_set((True, 0.01, 9e9), (False, 0.3, 1.0))

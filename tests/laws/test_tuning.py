@@ -72,6 +72,9 @@ def test_adding_a_fourth_velocity_loop_keeps_the_stage_damping():
     z3 = closed_loop_modes(plant, three).damping[targets].min()
     z4 = closed_loop_modes(plant, four).damping[targets].min()
     assert z4 >= z3 * (1 - 1e-4)
+    # here the fourth loop adds nothing: it is left off, and the design says so
+    assert [lp.gain == 0.0 for lp in four.loops] == [False, False, False, True]
+    assert any("vy2: tuned gain 0" in w for w in four.info["warnings"])
 
 
 def test_adding_a_loop_never_lowers_the_maximized_damping():
