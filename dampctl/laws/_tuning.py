@@ -13,7 +13,10 @@ a max-min objective has kinks where two modes share the smallest damping, which 
 loop alone cannot leave). Either it maximizes the objective (the smallest closed-loop damping
 ratio over the target groups, unstable = −inf), taking the smallest gains within 0.1 % of the
 maximum, or it finds the smallest gains that reach a target damping (then lowers each loop
-alone while the target still holds).
+alone while the target still holds). When maximizing with several loops, the same search also
+runs once per loop on the other loops with that one off, and is then refined in all loops from
+there with it nearly off; the best result is kept, so that adding a loop does not lower what
+the others reach (a loop whose gain only costs damping is returned at 0).
 """
 
 from __future__ import annotations
