@@ -236,3 +236,54 @@ def assessment_dict(a) -> dict[str, Any]:
 
 def _overdamped(a) -> tuple[int, ...]:
     return tuple(m.mode for m in a.modes if m.closed_damping >= REAL_POLE_DAMPING)
+
+
+def robustness_lines(robustness: dict[str, Any]) -> list[str]:
+    """One plain line per robustness check, from the JSON form (``dampctl assess``, report).
+
+    Parameters
+    ----------
+    robustness : dict
+        The ``"robustness"`` entry of :func:`assessment_dict`.
+
+    Returns
+    -------
+    list of str
+        Frequency drift, extra delay, actuator and sensor bandwidth, and spillover (when the
+        plant has modes above the design band), in that order.
+    """
+    drift = robustness["drift"]
+    worst = ", ".join(f"mode {w['mode']} {_g(w['damping'])}" for w in drift["worst_damping"])
+    delay = robustness["extra_delay"]
+    extra = delay["extra_delay_s"]
+    lines = [
+        f"drift +-{drift['drift']:.3g}: {drift['cases']} cases ({drift['corners']} corners), "
+        f"{drift['unstable_cases']} unstable; worst damping {worst}",
+        "extra delay to instability: "
+        + ("none found" if extra is None else f"{extra * 1e3:.4g} ms")
+        + f" ({'confirmed by the poles' if delay['confirmed_by_poles'] else 'from the poles'})",
+    ]
+    for which in ("actuator", "sensor"):
+        band = robustness[f"{which}_bandwidth"]
+        if band["unstable_with_ideal_hardware"]:
+            text = "unstable even with ideal hardware"
+        elif band["min_stable_hz"] is None:
+            text = f"stable for any corner down to {band['searched_down_to_hz']:.3g} Hz"
+        else:
+            text = f"stable for corners above {band['min_stable_hz']:.4g} Hz"
+        lines.append(f"{which} first-order roll-off: {text}")
+    spill = robustness.get("spillover") or []
+    if spill:
+        bad = [s for s in spill if s["lost_damping"] or s["unstable"]]
+        lines.append(
+            f"spillover: {len(spill)} mode(s) above the design band, {len(bad)} losing damping"
+            + "".join(
+                f"; mode {s['mode']} {_g(s['open_damping'])} -> {_g(s['closed_damping'])}"
+                for s in bad
+            )
+        )
+    return lines
+
+
+def _g(value) -> str:
+    return "-" if value is None else f"{value:.3g}"

@@ -6,6 +6,7 @@ import argparse
 import math
 from typing import TextIO
 
+from dampctl._assess_dict import robustness_lines
 from dampctl.assess import PHASE_MARGIN_CONVENTION, assess
 from dampctl.commands._common import SAFETY_LINES, print_json, table
 from dampctl.design import load_design
@@ -201,37 +202,8 @@ def _print_human(a, out: TextIO, *, plant_name: str) -> None:
             f"+-{a.disk.gain_margin_db:.3g} dB, +-{a.disk.phase_margin_deg:.3g} deg "
             f"({a.disk.bound})\n"
         )
-    r = a.robustness
     out.write("\nrobustness:\n")
-    worst = ", ".join(f"mode {m} {v:.3g}" for m, v in r.drift.worst_damping.items())
-    out.write(
-        f"  drift +-{r.drift.drift:.3g}: {r.drift.n_cases} cases ({r.drift.n_corners} corners), "
-        f"{r.drift.unstable_cases} unstable; worst damping {worst}\n"
-    )
-    out.write(
-        f"  extra delay to instability: {_ms(r.delay.extra_delay_s)} "
-        f"({'confirmed by the poles' if r.delay.confirmed else 'from the poles'})\n"
-    )
-    for b in (r.actuator_bandwidth, r.sensor_bandwidth):
-        if b.min_stable_hz is None:
-            text = f"stable for any corner down to {b.searched_down_to_hz:.3g} Hz"
-        elif math.isinf(b.min_stable_hz):
-            text = "unstable even with ideal hardware"
-        else:
-            text = f"stable for corners above {b.min_stable_hz:.4g} Hz"
-        out.write(f"  {b.which} first-order roll-off: {text}\n")
-    if r.spillover:
-        bad = [s for s in r.spillover if s.lost_damping or s.unstable]
-        out.write(
-            f"  spillover: {len(r.spillover)} mode(s) above the design band, "
-            f"{len(bad)} losing damping"
-            + (
-                "".join(
-                    f"; mode {s.mode} {s.open_damping:.3g} -> {s.closed_damping:.3g}" for s in bad
-                )
-            )
-            + "\n"
-        )
+    out.write("".join(f"  {line}\n" for line in robustness_lines(d["robustness"])))
     if d["rms"]:
         out.write("\nRMS under the plant's disturbances and sensor noise:\n")
         rows = [
