@@ -16,6 +16,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from dampctl import __version__
+from dampctl._assess_dict import robustness_lines
 
 __all__ = ["ReportInputs", "render_report"]
 
@@ -44,6 +45,8 @@ figure { display: inline-block; margin: 0.5em 1em 1em 0; }
 figure img { max-width: 520px; border: 1px solid #ddd; }
 figcaption { font-size: 0.88em; color: #444; }
 code { background: #f3f3f3; padding: 0 0.2em; }
+details { margin: 0.4em 0 1em 0; }
+summary { cursor: pointer; color: #333; }
 """
 
 
@@ -214,8 +217,30 @@ def _design_section(design: Mapping[str, Any]) -> str:
                    f"{len(design.get('actuators', []))} actuators out).</p>")
     info = design.get("info") or {}
     if info:
-        out.append(_mapping(info))
+        out.append(_design_summary(info))
+        out.append("<details><summary>All design facts (the design file's <code>info</code>)"
+                   f"</summary>{_mapping(info)}</details>")
     return "\n".join(out)
+
+
+def _design_summary(info: Mapping[str, Any]) -> str:
+    """The tuning outcome in a sentence, with the design's warnings."""
+    parts = []
+    if info.get("tuning"):
+        parts.append(f"Tuning: {info['tuning']}.")
+    target, reached = info.get("target_damping"), info.get("target_reached")
+    smallest = info.get("min_damping")
+    if smallest is None and isinstance(info.get("closed_loop"), Mapping):
+        smallest = info["closed_loop"].get("target_damping_min")  # model-based designs
+    if target is not None:
+        state = {True: "reached", False: "NOT reached"}.get(reached, "")
+        parts.append(f"Target damping {_num(target)} {state}".rstrip() + ".")
+    if smallest is not None:
+        parts.append(f"Smallest damping on the target modes: {_num(smallest)}.")
+    if "stable" in info:
+        parts.append("Closed loop stable." if info["stable"] else "Closed loop UNSTABLE.")
+    text = f"<p>{_e(' '.join(parts))}</p>" if parts else ""
+    return text + _list("Design warnings", info.get("warnings") or [])
 
 
 def _assessment_section(assessment: Mapping[str, Any]) -> str:
@@ -233,8 +258,9 @@ def _assessment_section(assessment: Mapping[str, Any]) -> str:
         ("pair", "Loop", "text"), ("gain_margin_db", "Gain margin (dB)"),
         ("phase_margin_deg", "Phase margin (deg)"), ("delay_margin_s", "Delay margin (s)"),
         ("crossover_hz", "Crossover (Hz)")]))
-    for key, heading in (("robustness", "Robustness"), ("rms", "Disturbance response (RMS)"),
-                         ("effort", "Actuator effort")):
+    if assessment.get("robustness"):
+        out.append(_robustness_section(assessment["robustness"]))
+    for key, heading in (("rms", "Disturbance response (RMS)"), ("effort", "Actuator effort")):
         if assessment.get(key):
             out.append(f"<h2>{heading}</h2>")
             out.append(_any(assessment[key]))
@@ -246,6 +272,29 @@ def _assessment_section(assessment: Mapping[str, Any]) -> str:
                                  ("achieved", "Achieved"), ("met_text", "Status", "status")]))
     else:
         out.append("<p>None stated in the plant file.</p>")
+    return "\n".join(out)
+
+
+def _robustness_section(robustness: Mapping[str, Any]) -> str:
+    """Robustness checks as plain lines (as ``dampctl assess`` prints them), then the values."""
+    out = ["<h2>Robustness</h2>"]
+    try:
+        lines = robustness_lines(dict(robustness))
+    except (KeyError, TypeError):  # an assessment file from another version: values only
+        lines = []
+    if lines:
+        shown = [line.replace("+-", "±").replace(" -> ", " → ") for line in lines]
+        out.append("<ul>" + "".join(f"<li>{_e(line)}</li>" for line in shown) + "</ul>")
+        out.append("<p class='note'>Drift: the natural frequencies scaled by up to ± the "
+                   "stated fraction (the corners of that box, and random cases inside it). Extra "
+                   "delay: the common delay, added to the stated loop delay, that makes the loop "
+                   "unstable (frequency domain, confirmed on the closed-loop poles). Roll-off: "
+                   "one first-order lag on every actuator (or every sensor) channel, its corner "
+                   "lowered until the loop goes unstable.</p>")
+        out.append(f"<details><summary>All robustness values</summary>{_any(robustness)}"
+                   "</details>")
+    else:
+        out.append(_any(robustness))
     return "\n".join(out)
 
 

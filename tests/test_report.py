@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import html
 import io
 import re
 import shutil
@@ -131,3 +132,28 @@ def test_export_without_fixed_point_does_not_say_none():
                                       export={"rate_hz": 1000.0, "method": "zoh",
                                               "fixed": "none"}))
     assert "method zoh." in text and "fixed point none" not in text
+
+
+def test_robustness_and_design_read_as_sentences_with_all_values_kept():
+    # from a real assessment: the robustness lines are those `dampctl assess` prints (one
+    # formatter), the design's outcome is a sentence, and every value stays in <details>
+    from pathlib import Path
+
+    import dampctl
+    from dampctl._assess_dict import robustness_lines
+    from dampctl.laws import dvf
+
+    plant = dampctl.load_plant(Path(__file__).resolve().parents[1] / "plants" / "oscillator.toml")
+    design = dvf.design(plant, [plant.pairs[0].name])
+    assessment = dampctl.assess(plant, design).to_dict()
+    inputs = _inputs()
+    text = render_report(
+        ReportInputs(check=inputs.check, design=design.to_dict(), assessment=assessment)
+    )
+    for line in robustness_lines(assessment["robustness"]):
+        shown = line.replace("+-", "±").replace(" -> ", " → ")
+        assert f"<li>{html.escape(shown)}</li>" in text
+    assert "extra delay to instability:" in text
+    assert "<summary>All robustness values</summary>" in text
+    assert "Smallest damping on the target modes:" in text
+    assert "<summary>All design facts" in text
