@@ -235,7 +235,8 @@ def siso_margins(
     """
     grid = np.asarray(grid_hz, dtype=float)
     values = loop(grid)
-    log_mag = np.log(np.abs(values))
+    with np.errstate(divide="ignore"):  # |L| = 0 (a loop at zero gain, a zero on the grid)
+        log_mag = np.log(np.abs(values))
     gain_x = [
         _refine(lambda f: np.log(np.abs(loop(np.array([f]))[0])), grid, log_mag, k)
         for k in np.flatnonzero(np.sign(log_mag[:-1]) * np.sign(log_mag[1:]) < 0)
@@ -475,17 +476,21 @@ def common_delay_margin(
         M = input_return_ratio(plant, design, np.atleast_1d(f), delay_s=delay_s, roll_off=roll_off)
         return np.linalg.eigvals(M)
 
+    def log_abs(values):
+        with np.errstate(divide="ignore"):  # a loop at zero gain: an eigenvalue exactly 0
+            return np.log(np.abs(values))
+
     lam = eigs(grid)
-    mags = np.log(np.sort(np.abs(lam), axis=1))
+    mags = log_abs(np.sort(np.abs(lam), axis=1))
     best, where, found = np.inf, None, []
     for k in range(mags.shape[1]):
         values = mags[:, k]
         for j in np.flatnonzero(np.sign(values[:-1]) * np.sign(values[1:]) < 0):
             f = _refine(
-                lambda x, k=k: float(np.log(np.sort(np.abs(eigs(x)[0]))[k])), grid, values, j
+                lambda x, k=k: float(log_abs(np.sort(np.abs(eigs(x)[0]))[k])), grid, values, j
             )
             at = eigs(f)[0]
-            pick = at[np.argmin(np.abs(np.log(np.abs(at))))]
+            pick = at[np.argmin(np.abs(log_abs(at)))]
             lag = np.mod(np.angle(pick) + np.pi, 2 * np.pi)
             found.append(float(f))
             if lag / (2 * np.pi * f) < best:

@@ -186,6 +186,22 @@ def test_common_delay_margin_siso_equals_loop_delay_margin_and_mimo_boundary():
     assert abs(np.max(loop_poles(plant, both, ctrl).real)) < 1e-3 * plant.omegas[0]
 
 
+def test_a_loop_at_zero_gain_changes_no_margin_of_the_others():
+    # a tuned-off loop (gain 0, as the maximizing search may return) has L ≡ 0: no crossover
+    # of its own, and the other loop's margins and the common delay margin are those without it
+    plant = chain_plant([1.0, 0.5, 0.8], [5e5, 2e5, 3e5], damping=0.005)
+    one = _dvf(plant, ["p1"], 100.0)
+    with_off = _dvf(plant, ["p1", "p3"], 100.0)
+    off = replace(with_off.loops[1], gain=0.0, branches=(Branch(gain=0.0),))
+    with_off = replace(with_off, loops=(with_off.loops[0], off))
+    alone = loop_margins(plant, one, delay_s=0.0)[0]
+    both = loop_margins(plant, with_off, delay_s=0.0)
+    assert both[0].delay_margin_s == pytest.approx(alone.delay_margin_s, rel=1e-9)
+    assert both[1].crossover_hz is None
+    common = common_delay_margin(plant, with_off, delay_s=0.0).delay_s
+    assert common == pytest.approx(alone.delay_margin_s, rel=1e-6)
+
+
 def test_disk_margins_siso_and_mimo_against_python_control():
     # SISO: α = min 2|1+L|/|1−L| equals control.disk_margins(skew=0) (Seiler, Packard &
     # Gahinet, "An introduction to disk margins", IEEE CSM 2020). MIMO: our σ̄ bound is never
