@@ -63,7 +63,10 @@ full plant with the plant's stated delay and roll-offs: every mode's closed-loop
 listed and residual modes pushed unstable are flagged as spillover. Residual modes the loop
 drives unstable (and that the actuators reach and the sensors see) then join the design model
 and the design is repeated — the cure of Balas 1978 — at most ``SPILLOVER_ROUNDS`` times, a
-round kept only when its full-plant loop is better (stable, or fewer unstable modes).
+round kept only when its full-plant loop is better (stable, or fewer unstable modes). When the
+loop is still unstable, the target asks for more than a stable loop gives: the design aims at
+``BACKOFF_FACTORS`` × the target in turn and keeps the first stable loop, with a warning
+(``info["aimed_damping"]``; the target itself is reported missed).
 
 **Reduction.** ``order=N`` reduces the controller by balanced truncation (python-control
 ``balred``, slycot ``ab09ad``/``ab09md``; unstable controller poles are kept whole and the stable
@@ -83,7 +86,7 @@ u = −(C_c x_c + D_c y).
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any, Literal
 
 import numpy as np
@@ -112,6 +115,7 @@ from dampctl.plant import ModalPlant
 from dampctl.reduction import Reduction, reduce_controller
 
 __all__ = [
+    "BACKOFF_FACTORS",
     "DEFAULT_TARGET_DAMPING",
     "ESTIMATOR_FACTOR",
     "FLOOR_DAMPING",
@@ -149,6 +153,8 @@ FULL_PLANT_ITERATIONS = 3
 MAX_RAISED_GOAL = 0.5
 #: redesigns with residual modes that the loop drives unstable added to the design model
 SPILLOVER_ROUNDS = 2
+#: when no stable loop reaches the target: the lower aims tried, as fractions of the target
+BACKOFF_FACTORS = (0.7, 0.5, 0.35, 0.25)
 
 REGULATOR_RULE = (
     "velocity weight per design-model mode q2 = 4 w^2 (z_goal^2 - z^2) / beta, "
@@ -290,24 +296,29 @@ def design(
     r = _input_weights(plant, actuators)
     delay = plant_loop_delay_s(plant) if delay_s is None else float(delay_s)
     setup = _Setup(plant, actuators, sensors, targets, pairs, r, zeta_c, zeta_e, process_noise)
-    # residual modes the controller drives unstable join the design model (the cure of Balas
-    # 1978) and the design is repeated, at most SPILLOVER_ROUNDS times, while that helps
     reach_seen = np.logical_and(*_reach_and_seen(full, plant.n_modes, beta_all))
-    added: list[int] = []
-    chosen = _design_on(setup, kept, delay)
-    for _ in range(SPILLOVER_ROUNDS):
-        check = chosen["check"]
-        spilled = [
-            m - 1
-            for m in check["spillover_unstable"]
-            if m - 1 not in chosen["kept"] and reach_seen[m - 1]
-        ]
-        if check["stable"] or not spilled:
-            break
-        trial = _design_on(setup, sorted(chosen["kept"] + spilled), delay)
-        if not _better(trial["check"], check):
-            break
-        chosen, added = trial, added + [m + 1 for m in spilled]
+    chosen, added = _design_with_spillover(setup, kept, delay, reach_seen)
+    aimed = zeta_c
+    if not chosen["check"]["stable"]:
+        # the target asks for more than a stable loop can give here: aim lower, step by step,
+        # and keep the first stable design (the target stays the user's; it is reported missed)
+        for factor in BACKOFF_FACTORS:
+            lower = zeta_c * factor
+            own_e = estimator_damping is None
+            trial_setup = replace(
+                setup,
+                zeta_c=lower,
+                zeta_e=min(ESTIMATOR_FACTOR * lower, MAX_ESTIMATOR_DAMPING) if own_e else zeta_e,
+            )
+            trial, trial_added = _design_with_spillover(trial_setup, kept, delay, reach_seen)
+            if trial["check"]["stable"]:
+                chosen, added, aimed = trial, trial_added, lower
+                warnings.append(
+                    f"no stable loop found aiming at damping {zeta_c:g}: the design aims at "
+                    f"{lower:.3g} instead and reaches "
+                    f"{trial['check']['target_damping_min']:.3g} on the target modes"
+                )
+                break
     kept, model_modes = chosen["kept"], [i + 1 for i in chosen["kept"]]
     attempts, controller, check = chosen["attempts"], chosen["controller"], chosen["check"]
     regulator, estimator = chosen["regulator"], chosen["estimator"]
@@ -327,6 +338,7 @@ def design(
             "neighbour_factor": float(neighbours),
             "static_correction": "modes above the band as static compliance",
         },
+        "aimed_damping": aimed,
         "full_plant_correction": {
             "rule": (
                 "where a target mode falls short on the full plant (delay, roll-offs, all "
@@ -483,6 +495,32 @@ def _design_on(setup: _Setup, kept: list, delay: float) -> dict:
         "goals": goals_used,
         "attempts": [(g, a["check"]) for g, a in attempts],
     }
+
+
+def _design_with_spillover(setup: _Setup, kept: list, delay: float, reach_seen: np.ndarray):
+    """:func:`_design_on`, then residual modes driven unstable added to the design model.
+
+    Residual modes the controller drives unstable (and that the actuators reach and the sensors
+    see) join the design model — the cure of Balas 1978 — and the design is repeated, at most
+    SPILLOVER_ROUNDS times, while that makes the full-plant loop better. Returns the chosen
+    design and the modes added (1-based).
+    """
+    added: list[int] = []
+    chosen = _design_on(setup, kept, delay)
+    for _ in range(SPILLOVER_ROUNDS):
+        check = chosen["check"]
+        spilled = [
+            m - 1
+            for m in check["spillover_unstable"]
+            if m - 1 not in chosen["kept"] and reach_seen[m - 1]
+        ]
+        if check["stable"] or not spilled:
+            break
+        trial = _design_on(setup, sorted(chosen["kept"] + spilled), delay)
+        if not _better(trial["check"], check):
+            break
+        chosen, added = trial, added + [m + 1 for m in spilled]
+    return chosen, added
 
 
 def _reach_and_seen(full, n_modes: int, beta_all: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

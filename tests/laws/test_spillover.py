@@ -110,6 +110,7 @@ def test_lqg_adds_modes_it_drives_unstable_to_the_design_model(monkeypatch):
 
     plant = load_plant(Path(__file__).resolve().parents[2] / "plants" / "light_truss.toml")
     monkeypatch.setattr(lqg, "SPILLOVER_ROUNDS", 0)
+    monkeypatch.setattr(lqg, "BACKOFF_FACTORS", ())
     plain = lqg.design(plant, [], [], pairs=["iff_1", "iff_2"]).info
     assert not plain["closed_loop"]["stable"]
     assert plain["closed_loop"]["spillover_unstable"] == [7, 9]
