@@ -23,7 +23,6 @@ from dataclasses import dataclass
 
 import numpy as np
 import scipy.linalg
-import scipy.signal
 
 from dampctl.closedloop import (
     MatchedModes,
@@ -147,6 +146,8 @@ def sampled_plant(plant: ModalPlant, design: Design, rate_hz: float) -> Matrices
     if actuator_side[0].shape[0] == 0 and sensor_side[0].shape[0] == 0:
         return _modal_zoh(mats, 1.0 / rate_hz)
     system = series_matrices(series_matrices(actuator_side, mats), sensor_side)
+    import scipy.signal  # here, not at import: it costs 0.3 s to load
+
     Ad, Bd, Cd, Dd, _ = scipy.signal.cont2discrete(system, 1.0 / rate_hz, method="zoh")
     return Ad, Bd, Cd, Dd
 

@@ -14,7 +14,6 @@ from dataclasses import dataclass
 
 import numpy as np
 import scipy.linalg
-import scipy.signal
 
 from dampctl.closedloop import block_diagonal, series_matrices
 from dampctl.errors import UsageError
@@ -193,6 +192,8 @@ def _bilinear(mats: Matrices, sample_time_s: float, prewarp_rad_s: float | None)
     dt = sample_time_s
     if prewarp_rad_s:
         dt = 2.0 * math.tan(prewarp_rad_s * sample_time_s / 2.0) / prewarp_rad_s
+    import scipy.signal  # here, not at import: it costs 0.3 s to load
+
     Ad, Bd, Cd, Dd, _ = scipy.signal.cont2discrete((A, B, C, D), dt, method="bilinear")
     return Ad, Bd, Cd, Dd
 
@@ -201,6 +202,8 @@ def _zoh(mats: Matrices, sample_time_s: float) -> Matrices:
     A, B, C, D = (np.asarray(m, dtype=float) for m in mats)
     if A.shape[0] == 0:
         return A, B, C, D
+    import scipy.signal  # here, not at import: it costs 0.3 s to load
+
     Ad, Bd, Cd, Dd, _ = scipy.signal.cont2discrete((A, B, C, D), sample_time_s, method="zoh")
     return Ad, Bd, Cd, Dd
 
@@ -292,6 +295,8 @@ def cascade_from_state_space(mats: Matrices, label: str = "") -> Cascade:
     # a strictly proper H has r = n_p − n_z delays: pad r zeros at the origin for zpk2sos,
     # then turn each padded factor z into z⁻¹·z² by shifting a numerator one tap right
     r = poles.size - zeros.size
+    import scipy.signal  # here, not at import: it costs 0.3 s to load
+
     sos = np.array(
         scipy.signal.zpk2sos(np.concatenate([zeros, np.zeros(r)]), poles, 1.0), dtype=float
     )
