@@ -61,7 +61,11 @@ from dampctl.screening import SetEvaluator, TunedSets, loop_template
 from dampctl.setsearch import all_sets, search_exhaustive, search_greedy
 from dampctl.survey import cluster_rank, find_clusters, pair_rows
 
-__all__ = ["LAWS", "SizingResult", "SizingRow", "actuator_effort", "size_pairs"]
+__all__ = ["LAWS", "SAME_DAMPING", "SizingResult", "SizingRow", "actuator_effort", "size_pairs"]
+
+#: relative difference under which two maximized dampings count as the same (the gain
+#: search's own tie tolerance: it takes the smallest gains within 0.1 % of its best)
+SAME_DAMPING = 1e-3
 
 #: collocated laws sizing can use
 LAWS: tuple[str, ...] = ("dvf", "iff", "ppf")
@@ -397,7 +401,7 @@ def size_pairs(
 
 
 # ---------------------------------------------------------------------- one row
-def _better_set(new: tuple, old: tuple, tol: float = 1e-6) -> bool:
+def _better_set(new: tuple, old: tuple, tol: float = SAME_DAMPING) -> bool:
     """Whether (spans clusters, maximized damping, cost) ``new`` beats ``old``: spanning first,
     then damping larger by more than ``tol`` (relative), then, at equal damping, lower cost."""
     if new[0] != old[0]:
@@ -447,8 +451,8 @@ def _row(
     per_cost = None
     if previous is not None and abs(cost - previous.cost) > 0:
         gained = achievable - previous.achievable_min_damping
-        if abs(gained) <= 1e-9 * max(abs(achievable), 1e-12):
-            gained = 0.0  # the same damping, up to rounding between two eigen-solves
+        if abs(gained) <= SAME_DAMPING * max(abs(achievable), 1e-12):
+            gained = 0.0  # the same damping, as far as the gain search tells them apart
         per_cost = gained / (cost - previous.cost)
     margins = _margins(plant, design)
     return SizingRow(
