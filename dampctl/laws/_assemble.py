@@ -15,7 +15,7 @@ from dampctl.laws._checks import ModeGroups, mode_groups, resolve_pairs, target_
 from dampctl.laws._tuning import Evaluation, LoopModel
 from dampctl.plant import ModalPlant, Pair
 
-__all__ = ["Setup", "finish", "loop_gains", "setup"]
+__all__ = ["Setup", "finish", "loop_gains", "search_outcome", "setup"]
 
 
 @dataclass(frozen=True)
@@ -78,6 +78,30 @@ def loop_gains(gain: float | Sequence[float] | None, n_loops: int) -> np.ndarray
     if not np.all(np.isfinite(values)):
         raise UsageError(f"gains must be finite, got {values.tolist()}", field="gain")
     return values
+
+
+def search_outcome(target_damping: float | None, reached: bool) -> tuple[str, bool | None]:
+    """How a gain search ended, in words, and whether it reached the target.
+
+    Parameters
+    ----------
+    target_damping : float or None
+        The target damping ratio; None when the search maximized.
+    reached : bool
+        Whether the search reached the target (:attr:`SearchResult.reached`).
+
+    Returns
+    -------
+    tuning : str
+        The ``info["tuning"]`` text.
+    reached : bool or None
+        None when there was no target.
+    """
+    if target_damping is None:
+        return "maximize the smallest damping", None
+    if not reached:
+        return "maximize the smallest damping (target not reachable)", False
+    return "smallest gains reaching the target", True
 
 
 def finish(

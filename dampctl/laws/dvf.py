@@ -45,7 +45,7 @@ import numpy as np
 
 from dampctl.design import Branch, Design, Loop, Section
 from dampctl.errors import DesignRefused, UsageError
-from dampctl.laws._assemble import finish, loop_gains, setup
+from dampctl.laws._assemble import finish, loop_gains, search_outcome, setup
 from dampctl.laws._checks import check_collocated
 from dampctl.laws._tuning import search_gains, stack_loops
 from dampctl.plant import ModalPlant, Pair
@@ -169,12 +169,7 @@ def design(
             log_range=(-4.0, 3.0),
         )
         gains, evaluations = result.gains, result.evaluations
-        if request.target_damping is None:
-            tuning, reached = "maximize the smallest damping", None
-        else:
-            tuning, reached = "smallest gains reaching the target", result.reached
-            if not result.reached:
-                tuning = "maximize the smallest damping (target not reachable)"
+        tuning, reached = search_outcome(request.target_damping, result.reached)
     loops = [_loop(p, g, f) for p, g, f in zip(request.pairs, gains, filters, strict=True)]
     final = model.evaluate_gains(unit, gains)
     units = [_gain_unit(plant, p) for p in request.pairs]

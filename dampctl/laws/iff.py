@@ -43,7 +43,7 @@ import numpy as np
 
 from dampctl.design import Branch, Design, Loop, Section
 from dampctl.errors import DesignRefused, UsageError
-from dampctl.laws._assemble import finish, loop_gains, setup
+from dampctl.laws._assemble import finish, loop_gains, search_outcome, setup
 from dampctl.laws._checks import check_collocated
 from dampctl.laws._tuning import search_gains, stack_loops
 from dampctl.plant import ModalPlant, Pair
@@ -191,12 +191,7 @@ def design(
             points_per_decade=8,
         )
         gains, evaluations = result.gains, result.evaluations
-        if request.target_damping is None:
-            tuning, reached = "maximize the smallest damping", None
-        else:
-            tuning, reached = "smallest gains reaching the target", result.reached
-            if not result.reached:
-                tuning = "maximize the smallest damping (target not reachable)"
+        tuning, reached = search_outcome(request.target_damping, result.reached)
     loops = [_loop(p, g, k, leak) for p, g, k in zip(request.pairs, gains, stiffness, strict=True)]
     final = model.evaluate_gains(unit, gains)
     for entry in targeted:
