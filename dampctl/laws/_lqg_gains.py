@@ -13,6 +13,22 @@ import numpy as np
 from dampctl.closedloop import match_modes, open_loop_poles
 from dampctl.errors import UsageError
 
+__all__ = [
+    "ESTIMATOR_FACTOR",
+    "FLOOR_DAMPING",
+    "GOAL_HEADROOM",
+    "GOAL_ITERATIONS",
+    "GOAL_TOL",
+    "MAX_ESTIMATOR_DAMPING",
+    "damping_weights",
+    "estimator_noise",
+    "input_gains",
+    "output_gains",
+    "pole_damping",
+    "tune_estimator",
+    "tune_regulator",
+]
+
 #: damping goal of neighbour modes and floor of regulator/estimator weights
 FLOOR_DAMPING = 1e-3
 #: default estimator damping = this factor times the target damping, capped at 0.7
@@ -54,18 +70,18 @@ def damping_weights(
     return 4.0 * omegas**2 * np.maximum(goals**2 - dampings**2, 0.0) / gains
 
 
-def _input_gains(mats, n_modes: int, r: np.ndarray) -> np.ndarray:
+def input_gains(mats, n_modes: int, r: np.ndarray) -> np.ndarray:
     B = mats[1]
     rows = B[2 * np.arange(n_modes) + 1]
     return np.sum(rows**2 / r[None, :], axis=1)
 
 
-def _output_gains(C: np.ndarray, n_modes: int, V: np.ndarray) -> np.ndarray:
+def output_gains(C: np.ndarray, n_modes: int, V: np.ndarray) -> np.ndarray:
     blocks = C.reshape(C.shape[0], n_modes, 2)
     return np.sum(np.sum(blocks**2, axis=2) / V[:, None], axis=0)
 
 
-def _estimator_noise(plant, model, kept, sensors, rule, goals) -> dict:
+def estimator_noise(plant, model, kept, sensors, rule, goals) -> dict:
     density = [float(plant.sensor(s).noise_density) for s in sensors]
     have_noise = all(d > 0 for d in density)
     C = model[2]
@@ -83,7 +99,7 @@ def _estimator_noise(plant, model, kept, sensors, rule, goals) -> dict:
             "on every sensor"
         )
     w, z = plant.omegas[kept], plant.dampings[kept]
-    gamma = _output_gains(C, n, V)
+    gamma = output_gains(C, n, V)
     floor = damping_weights(w, z, np.full(n, FLOOR_DAMPING), gamma)
     if rule == "disturbances":
         W = np.zeros(n)
@@ -110,7 +126,7 @@ def _estimator_noise(plant, model, kept, sensors, rule, goals) -> dict:
     }
 
 
-def _regulator(model, w, z, goals, is_target, beta, r):
+def tune_regulator(model, w, z, goals, is_target, beta, r):
     """Velocity weights and LQR gain, with the target goals corrected for mode coupling.
 
     The single-mode rule is exact for one mode; with several modes sharing actuators the
@@ -123,7 +139,7 @@ def _regulator(model, w, z, goals, is_target, beta, r):
     for attempt in range(GOAL_ITERATIONS + 1):
         q_vel = np.maximum(damping_weights(w, z, effective, beta), floor)
         K = _regulator_gain(model, q_vel, r)
-        reached = np.array(_pole_damping(model[0] - model[1] @ K, w, z))
+        reached = np.array(pole_damping(model[0] - model[1] @ K, w, z))
         short = is_target & (reached < goals * (1.0 - GOAL_TOL)) & (reached > 0)
         if not np.any(short) or attempt == GOAL_ITERATIONS:
             break
@@ -149,7 +165,7 @@ def _regulator_gain(model, q_vel, r) -> np.ndarray:
     vel = 2 * np.arange(n) + 1
     Q = np.zeros((2 * n, 2 * n))
     Q[vel, vel] = q_vel
-    c_r = np.sqrt(_positive_median(_input_gains(model, n, r)) / _positive_median(q_vel))
+    c_r = np.sqrt(_positive_median(input_gains(model, n, r)) / _positive_median(q_vel))
     K, _, _ = control.lqr(A, B, Q * c_r, np.diag(r) * c_r)
     return np.asarray(K)
 
@@ -163,13 +179,13 @@ def _estimator_gain(model, W, V) -> np.ndarray:
     vel = 2 * np.arange(n) + 1
     G = np.zeros((2 * n, n))
     G[vel, np.arange(n)] = 1.0
-    gamma = _output_gains(C, n, np.diag(V))
+    gamma = output_gains(C, n, np.diag(V))
     c_e = np.sqrt(_positive_median(W) / _positive_median(gamma))
     L, _, _ = control.lqe(A, G, C, np.diag(W) / c_e, V / c_e)
     return np.asarray(L)
 
 
-def _estimator(model, W, V, w, z, goals, is_target):
+def tune_estimator(model, W, V, w, z, goals, is_target):
     """Kalman gain, with the process noise of under-damped target modes raised.
 
     The closed-loop poles are the regulator's and the estimator's, so a target mode whose
@@ -183,7 +199,7 @@ def _estimator(model, W, V, w, z, goals, is_target):
     need = np.where(is_target, goals, 0.0)
     for attempt in range(GOAL_ITERATIONS + 1):
         L = _estimator_gain(model, W, V)
-        reached = np.array(_pole_damping(model[0] - L @ model[2], w, z))
+        reached = np.array(pole_damping(model[0] - L @ model[2], w, z))
         short = is_target & (reached < need * (1.0 - GOAL_TOL)) & (reached > 0)
         if not np.any(short) or attempt == GOAL_ITERATIONS:
             break
@@ -192,6 +208,6 @@ def _estimator(model, W, V, w, z, goals, is_target):
     return W, L
 
 
-def _pole_damping(Acl: np.ndarray, w: np.ndarray, z: np.ndarray) -> list[float]:
+def pole_damping(Acl: np.ndarray, w: np.ndarray, z: np.ndarray) -> list[float]:
     matched = match_modes(open_loop_poles(w, z), np.linalg.eigvals(Acl))
     return [float(v) for v in matched.damping]

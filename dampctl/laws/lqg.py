@@ -101,13 +101,13 @@ from dampctl.laws._lqg_gains import (
     GOAL_ITERATIONS,
     GOAL_TOL,
     MAX_ESTIMATOR_DAMPING,
-    _estimator,
-    _estimator_noise,
-    _input_gains,
-    _output_gains,
-    _pole_damping,
-    _regulator,
     damping_weights,
+    estimator_noise,
+    input_gains,
+    output_gains,
+    pole_damping,
+    tune_estimator,
+    tune_regulator,
 )
 from dampctl.laws.spillover import check_on_plant
 from dampctl.margins import default_grid, loop_margins
@@ -290,7 +290,7 @@ def design(
         raise UsageError(f"order must be a whole number of states >= 1, got {order!r}")
 
     full = plant.statespace_matrices(actuators, sensors)
-    beta_all = _input_gains(full, plant.n_modes, _input_weights(plant, actuators))
+    beta_all = input_gains(full, plant.n_modes, _input_weights(plant, actuators))
     warnings: list[str] = []
     kept, dropped = _reachable(plant, targets, neighbours, full, beta_all)
     r = _input_weights(plant, actuators)
@@ -407,9 +407,9 @@ def _synthesize(setup: _Setup, kept, model, goals: np.ndarray, delay: float) -> 
     plant, targets, zeta_c = setup.plant, setup.targets, setup.zeta_c
     w, z = plant.omegas[kept], plant.dampings[kept]
     is_target = np.array([i in targets for i in kept])
-    beta = _input_gains(model, len(kept), setup.r)
+    beta = input_gains(model, len(kept), setup.r)
     est_goals = np.array([setup.zeta_e if i in targets else FLOOR_DAMPING for i in kept])
-    q_vel, K, regulator_damping, effective = _regulator(
+    q_vel, K, regulator_damping, effective = tune_regulator(
         model, w, z, goals, is_target, beta, setup.r
     )
     # the estimator's target poles aim at zeta_e, raised with the regulator's goal when the
@@ -419,8 +419,8 @@ def _synthesize(setup: _Setup, kept, model, goals: np.ndarray, delay: float) -> 
     aim = np.where(
         is_target, np.minimum(np.maximum(est_goals, raised), MAX_ESTIMATOR_DAMPING), est_goals
     )
-    noise = _estimator_noise(plant, model, kept, setup.sensors, setup.process_noise, aim)
-    noise["W"], L = _estimator(model, noise["W"], noise["V"], w, z, aim, is_target)
+    noise = estimator_noise(plant, model, kept, setup.sensors, setup.process_noise, aim)
+    noise["W"], L = tune_estimator(model, noise["W"], noise["V"], w, z, aim, is_target)
     controller = lqg_controller(*model, K, L)
     trial = _make(plant, setup.actuators, setup.sensors, targets, controller, setup.pairs, {})
     model_modes = [i + 1 for i in kept]
@@ -443,7 +443,7 @@ def _synthesize(setup: _Setup, kept, model, goals: np.ndarray, delay: float) -> 
             "sensor_noise_intensity": np.diag(noise["V"]).tolist(),
             "process_noise_intensity": noise["W"].tolist(),
             "estimator_damping_goals": aim.tolist() if noise["rule"] == "relative" else None,
-            "estimator_damping": _pole_damping(model[0] - L @ model[2], w, z),
+            "estimator_damping": pole_damping(model[0] - L @ model[2], w, z),
             "conversion": "intensity = ASD^2 / 2 (one-sided ASD to continuous white intensity)",
             "relative_sensor_noise": noise["relative_sensor_noise"],
         },
@@ -525,7 +525,7 @@ def _design_with_spillover(setup: _Setup, kept: list, delay: float, reach_seen: 
 
 def _reach_and_seen(full, n_modes: int, beta_all: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Per plant mode: reached by the actuators, and seen by the sensors (REACH_TOL)."""
-    gamma_all = _output_gains(full[2], n_modes, np.ones(full[2].shape[0]))
+    gamma_all = output_gains(full[2], n_modes, np.ones(full[2].shape[0]))
     ok = []
     for gains in (beta_all, gamma_all):
         top = np.max(gains)
