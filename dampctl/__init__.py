@@ -1,4 +1,28 @@
-"""dampctl: design active vibration damping from modal parameters.
+"""dampctl: design vibration damping of precision structures from modal parameters.
+
+The package follows the job, one folder per stage; imports run one way, from the top of this
+list to the bottom (a stage imports only the stages above it):
+
+errors, fileio, progress
+    the error tree, atomic writes, the progress bar (any stage may use them)
+model/
+    the plant: value objects, plant files, modal basis, survey
+design
+    the :class:`Design` value and its file form: the currency between stages
+analysis/
+    closed-loop modes, margins, robustness, response, effort, the assessment
+laws/
+    one damping law per module, their shared tuning, controller reduction
+discrete/
+    discrete equivalents, sections, fixed point, sampled-loop check, export files
+sizing/
+    how many pairs and which (tunes candidate sets with the laws)
+report/
+    figures and the HTML report
+commands/
+    the ``dampctl`` program, one module per subcommand
+testing
+    reference plants and checks for users' own tests
 
 Plant
     ModalPlant, Mode, Actuator, Sensor, Pair, Output, Disturbance, Requirements
@@ -7,12 +31,17 @@ Plant
         plant files (TOML)
     survey_plant
         participation of candidate pairs, near-repeated clusters, dominant modes
+
+Sizing
     size_pairs, SizingResult
-        how many pairs, which ones, with cost, damping per cost and effort (dampctl.sizing)
+        how many pairs, which ones, with cost, damping per cost and effort
 
 Design
     Design, Loop, Branch, Section, load_design
         a damping design (``u = −K(s) y``) and its file form
+
+Damping laws
+    dampctl.laws.dvf, .iff, .ppf, .lqg: ``design(plant, ...) -> Design``
 
 Assessment
     assess, Assessment
@@ -21,18 +50,16 @@ Assessment
 Discrete time
     discretize, export_design
         second-order sections / state space at a sample rate, fixed point, verified in the
-        sampled loop (dampctl.discrete, dampctl.export)
-
-Damping laws
-    dampctl.laws.dvf, .iff, .ppf, .lqg: ``design(plant, ...) -> Design``
+        sampled loop (:mod:`dampctl.discrete.equivalents`)
 
 Errors
     DampctlError and its subclasses (see :mod:`dampctl.errors`)
 """
 
-from dampctl.assess import Assessment, assess
+from dampctl.analysis.assessment import Assessment, assess
 from dampctl.design import Branch, Design, Loop, Section, load_design
-from dampctl.discrete import discretize
+from dampctl.discrete.equivalents import discretize
+from dampctl.discrete.export import export_design
 from dampctl.errors import (
     DampctlError,
     DesignError,
@@ -43,8 +70,7 @@ from dampctl.errors import (
     PlantFileError,
     UsageError,
 )
-from dampctl.export import export_design
-from dampctl.plant import (
+from dampctl.model.plant import (
     Actuator,
     Disturbance,
     ModalPlant,
@@ -54,9 +80,9 @@ from dampctl.plant import (
     Requirements,
     Sensor,
 )
-from dampctl.plantfile import dump_plant, load_plant, parse_plant
-from dampctl.sizing import SizingResult, size_pairs
-from dampctl.survey import survey_plant
+from dampctl.model.plantfile import dump_plant, load_plant, parse_plant
+from dampctl.model.survey import survey_plant
+from dampctl.sizing.size import SizingResult, size_pairs
 
 __version__ = "0.1.0"
 

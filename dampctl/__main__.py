@@ -1,5 +1,5 @@
 """``python -m dampctl``: the same as the ``dampctl`` command."""
 
-from dampctl.cli import entry_point
+from dampctl.commands.cli import entry_point
 
 entry_point()

@@ -29,7 +29,7 @@ import numpy as np
 from scipy.linalg import block_diag
 
 from dampctl.errors import DesignError
-from dampctl.plant import ModalPlant
+from dampctl.model.plant import ModalPlant
 
 __all__ = ["Branch", "Design", "Loop", "Section", "design_from_dict", "load_design"]
 

@@ -8,8 +8,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from dampctl.components import Actuator, Pair, Sensor
-from dampctl.plant import ModalPlant
+from dampctl.model.components import Actuator, Pair, Sensor
+from dampctl.model.plant import ModalPlant
 
 __all__ = ["assert_plant_allclose", "chain_matrices", "chain_plant", "sdof_plant"]
 
@@ -31,7 +31,7 @@ def sdof_plant(mass_kg: float, stiffness_n_per_m: float, damping_n_s_per_m: floa
     """
     omega = np.sqrt(stiffness_n_per_m / mass_kg)
     zeta = damping_n_s_per_m / (2.0 * np.sqrt(stiffness_n_per_m * mass_kg))
-    from dampctl.components import Mode
+    from dampctl.model.components import Mode
 
     return ModalPlant(
         modes=[Mode(freq_hz=omega / (2 * np.pi), damping=zeta, modal_mass_kg=mass_kg)],

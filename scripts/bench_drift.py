@@ -16,11 +16,11 @@ import control as ct
 import numpy as np
 from benchtiming import compare_times  # scripts/ is on sys.path when run as a script
 
-from dampctl.components import Actuator, Mode, Pair, Sensor
+from dampctl.analysis.loopmodel import loop_controller
+from dampctl.analysis.robustness import drift_cases, drift_robustness, drifted_plant_matrices
 from dampctl.design import Branch, Design, Loop
-from dampctl.loopmodel import loop_controller
-from dampctl.plant import ModalPlant
-from dampctl.robustness import drift_cases, drift_robustness, drifted_plant_matrices
+from dampctl.model.components import Actuator, Mode, Pair, Sensor
+from dampctl.model.plant import ModalPlant
 
 ROUNDS = 5
 

@@ -13,8 +13,8 @@ import numpy as np
 from benchtiming import compare_times  # scripts/ is on sys.path when run as a script
 
 from dampctl.design import Branch, Design, Loop, Section
-from dampctl.discrete import discretize
-from dampctl.sampledloop import sampled_closed_loop, sampled_plant
+from dampctl.discrete.equivalents import discretize
+from dampctl.discrete.sampledloop import sampled_closed_loop, sampled_plant
 from dampctl.testing import chain_plant
 
 ROUNDS = 3

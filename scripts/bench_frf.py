@@ -16,7 +16,7 @@ slycot's own bundled OpenBLAS, whose spinning workers then compete with numpy's 
 The first call of each burst, which starts from a quiet machine with cold caches, is also
 reported on its own ("single calls"). BLAS threading is left as the environment sets it
 (``OPENBLAS_NUM_THREADS``, ``OMP_NUM_THREADS``) and printed, with the engine ``plant.frf`` used
-(:mod:`dampctl.modalbasis`; the numpy engine is timed too). The last line printed is the time
+(:mod:`dampctl.model.modalbasis`; the numpy engine is timed too). The last line printed is the time
 ratio of repeated calls (best against best) and the largest relative difference.
 
 Run: ``python scripts/bench_frf.py``
@@ -34,9 +34,9 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))  # run from a checkout
 
-from dampctl.components import Actuator, Mode, Sensor
-from dampctl.modalbasis import resolve_engine
-from dampctl.plant import ModalPlant
+from dampctl.model.components import Actuator, Mode, Sensor
+from dampctl.model.modalbasis import resolve_engine
+from dampctl.model.plant import ModalPlant
 
 N_MODES, N_IN, N_OUT, N_FREQ = 100, 8, 8, 5000
 ROUNDS = 7

@@ -4,13 +4,13 @@ Problem (the same for both methods): a seeded 20-mode plant (a 4 x 5 grid of mas
 springs, 0.5 % modal damping) with 16 candidate collocated force/velocity pairs; for k = 3,
 every one of the C(16, 3) = 560 sets is considered, each with direct velocity feedback
 u_p = -gamma * kappa_p * v_p on its loops (kappa_p: the low-gain normalization of
-dampctl.screening), gamma tuned per set to maximize the smallest closed-loop damping over modes
-1-6 (closed-loop poles matched to modes by assignment).
+dampctl.sizing.screening), gamma tuned per set to maximize the smallest closed-loop damping over
+modes 1-6 (closed-loop poles matched to modes by assignment).
 
 * reference: the plain way -- per set, a 25-point log line search of gamma over 1e-3..10, each
   point building ``control.feedback`` and calling ``control.damp`` (python-control);
-* dampctl: ``dampctl.screening.search_exhaustive`` (batched eigenvalues, pilot-gain screening,
-  tuning of the shortlist only).
+* dampctl: ``dampctl.sizing.screening.search_exhaustive`` (batched eigenvalues, pilot-gain
+  screening, tuning of the shortlist only).
 
 Both are timed in the same run (an untimed warm-up of each, then interleaved rounds, the best
 of each kept). The last line prints the time ratio reference/dampctl, dampctl's cost per eigenvalue
@@ -30,11 +30,11 @@ import time
 
 import numpy as np
 
-from dampctl.closedloop import match_modes, open_loop_poles
-from dampctl.components import Actuator, Pair, Sensor
-from dampctl.plant import ModalPlant
-from dampctl.screening import GAIN_RANGE, LoopTemplate, SetEvaluator
-from dampctl.setsearch import all_sets, search_exhaustive
+from dampctl.analysis.closedloop import match_modes, open_loop_poles
+from dampctl.model.components import Actuator, Pair, Sensor
+from dampctl.model.plant import ModalPlant
+from dampctl.sizing.screening import GAIN_RANGE, LoopTemplate, SetEvaluator
+from dampctl.sizing.setsearch import all_sets, search_exhaustive
 
 TARGETS = (1, 2, 3, 4, 5, 6)
 ROUNDS = 3

@@ -20,7 +20,7 @@ import control
 import numpy as np
 from benchtiming import compare_times  # scripts/ is on sys.path when run as a script
 
-from dampctl.closedloop import closed_loop_matrix, effective_controller
+from dampctl.analysis.closedloop import closed_loop_matrix, effective_controller
 from dampctl.laws import dvf
 from dampctl.testing import chain_plant
 

@@ -33,7 +33,7 @@ import numpy as np
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))  # run from a checkout
 
-from dampctl.components import (  # noqa: E402
+from dampctl.model.components import (  # noqa: E402
     Actuator,
     Disturbance,
     Output,
@@ -41,8 +41,8 @@ from dampctl.components import (  # noqa: E402
     Requirements,
     Sensor,
 )
-from dampctl.plant import ModalPlant  # noqa: E402
-from dampctl.plantfile import dump_plant  # noqa: E402
+from dampctl.model.plant import ModalPlant  # noqa: E402
+from dampctl.model.plantfile import dump_plant  # noqa: E402
 
 HEADER = """\
 # Two-axis flexure scanning stage -- an invented demo scenario (plausible, not measured, numbers).

@@ -19,10 +19,10 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 
-from dampctl.cli import main  # noqa: E402
+from dampctl.commands.cli import main  # noqa: E402
 
 API_CODE = '''import dampctl
-from dampctl.export import export_design
+from dampctl.discrete.export import export_design
 from dampctl.laws import dvf
 
 plant = dampctl.load_plant("plants/scanning_stage.toml")

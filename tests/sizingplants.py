@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from dampctl.components import Actuator, Disturbance, Mode, Pair, Requirements, Sensor
-from dampctl.plant import ModalPlant
+from dampctl.model.components import Actuator, Disturbance, Mode, Pair, Requirements, Sensor
+from dampctl.model.plant import ModalPlant
 
 
 def shape_plant(

@@ -116,7 +116,7 @@ def test_fingerprint_mismatch(plant):
 def test_fingerprint_ignores_outputs_and_requirements(plant):
     from dataclasses import replace
 
-    from dampctl.components import Requirements
+    from dampctl.model.components import Requirements
 
     assert replace(plant, requirements=Requirements(modes=(1,)), title="x").fingerprint == (
         plant.fingerprint

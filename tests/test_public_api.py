@@ -101,7 +101,7 @@ CALLABLES = list(callables())
 
 
 def test_found_the_package():
-    assert "dampctl.plant" in MODULES and "dampctl.commands.check" in MODULES
+    assert "dampctl.model.plant" in MODULES and "dampctl.commands.check" in MODULES
     assert len(CALLABLES) > 50
 
 
@@ -153,7 +153,7 @@ def test_package_all_is_sorted_and_complete():
     assert set(listed) == public
     # every error class and every public name of the plant, plant-file, survey and design
     # modules is reachable from the top level
-    for module in (errors, load("dampctl.plant"), load("dampctl.plantfile")):
+    for module in (errors, load("dampctl.model.plant"), load("dampctl.model.plantfile")):
         missing = set(module.__all__) - set(listed)
         assert not missing, f"not exported by dampctl: {sorted(missing)}"
     assert {"Branch", "Design", "Loop", "Section", "load_design", "survey_plant"} <= set(listed)

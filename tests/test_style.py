@@ -1,11 +1,9 @@
 """House rule: ruff (configured in pyproject.toml) is clean on the package, tests and scripts."""
 
 import subprocess
-from pathlib import Path
 
 import pytest
-
-ROOT = Path(__file__).resolve().parents[1]
+from repo import ROOT
 
 
 def test_ruff_clean():

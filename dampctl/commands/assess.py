@@ -6,12 +6,12 @@ import argparse
 import math
 from typing import TextIO
 
-from dampctl._assess_dict import robustness_lines
-from dampctl.assess import PHASE_MARGIN_CONVENTION, assess
+from dampctl.analysis.assess_json import robustness_lines
+from dampctl.analysis.assessment import PHASE_MARGIN_CONVENTION, assess
 from dampctl.commands._common import SAFETY_LINES, print_json, table
 from dampctl.design import load_design
 from dampctl.errors import UsageError
-from dampctl.plantfile import load_plant
+from dampctl.model.plantfile import load_plant
 from dampctl.progress import Progress
 
 NAME = "assess"
@@ -105,7 +105,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         )
     written = []
     if args.plots:
-        from dampctl.figures import write_assessment_pngs
+        from dampctl.report.figures import write_assessment_pngs
 
         written = write_assessment_pngs(
             result, args.plots, inputs=(args.plant, args.design), replace=args.force

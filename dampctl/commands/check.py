@@ -7,8 +7,8 @@ from typing import TextIO
 
 from dampctl.commands._common import print_json, table
 from dampctl.errors import UsageError
-from dampctl.plantfile import load_plant
-from dampctl.survey import survey_plant
+from dampctl.model.plantfile import load_plant
+from dampctl.model.survey import survey_plant
 
 NAME = "check"
 HELP = "read a plant file, list its modes and what each candidate pair can see"
@@ -42,7 +42,7 @@ def check_payload(plant, survey) -> dict:
     plant : ModalPlant
         The plant checked.
     survey : PlantSurvey
-        Its survey (:func:`dampctl.survey.survey_plant`).
+        Its survey (:func:`dampctl.model.survey.survey_plant`).
 
     Returns
     -------

@@ -20,8 +20,8 @@ from dampctl.commands.check import check_payload
 from dampctl.commands.report import report_html
 from dampctl.errors import DampctlError, OutputError
 from dampctl.fileio import write_files
-from dampctl.plantfile import parse_plant
-from dampctl.survey import survey_plant
+from dampctl.model.plantfile import parse_plant
+from dampctl.model.survey import survey_plant
 
 NAME = "demo"
 HELP = "run the whole job (check, size, tune, assess, export, report) on the bundled stage"
@@ -68,11 +68,11 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     int
         Exit code (bad input raises a DampctlError, turned into exit 2 by the CLI).
     """
-    from dampctl.export import export_design
-    from dampctl.figures import assessment_pngs
-    from dampctl.figures_sizing import sizing_pngs
-    from dampctl.sizing import size_pairs
-    from dampctl.writers import export_files, payload
+    from dampctl.discrete.export import export_design
+    from dampctl.discrete.writers import export_files, payload
+    from dampctl.report.figures import assessment_pngs
+    from dampctl.report.figures_sizing import sizing_pngs
+    from dampctl.sizing.size import size_pairs
 
     folder = Path(args.output)
     if folder.exists() and not folder.is_dir():

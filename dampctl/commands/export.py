@@ -9,11 +9,11 @@ from typing import TextIO
 
 from dampctl.commands._common import SAFETY_LINES, print_json, table
 from dampctl.design import load_design
+from dampctl.discrete.export import export_design
+from dampctl.discrete.writers import FORMATS, export_files, payload, verification_dict
 from dampctl.errors import UsageError
-from dampctl.export import export_design
 from dampctl.fileio import write_files
-from dampctl.plantfile import load_plant
-from dampctl.writers import FORMATS, export_files, payload, verification_dict
+from dampctl.model.plantfile import load_plant
 
 NAME = "export"
 HELP = "discretize a design into second-order sections, verify the sampled loop, write files"

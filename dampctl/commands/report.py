@@ -9,16 +9,16 @@ from pathlib import Path
 from types import SimpleNamespace
 from typing import Any, TextIO
 
-from dampctl.assess import assess
+from dampctl.analysis.assessment import assess
 from dampctl.commands._common import jsonable
 from dampctl.commands.check import check_payload
 from dampctl.design import Design, load_design
 from dampctl.errors import UsageError
 from dampctl.fileio import write_text
-from dampctl.plant import ModalPlant
-from dampctl.plantfile import load_plant
-from dampctl.report import ReportInputs, render_report
-from dampctl.survey import survey_plant
+from dampctl.model.plant import ModalPlant
+from dampctl.model.plantfile import load_plant
+from dampctl.model.survey import survey_plant
+from dampctl.report.html import ReportInputs, render_report
 
 NAME = "report"
 HELP = "write a self-contained HTML report of a design on its plant"
@@ -81,7 +81,7 @@ def report_html(
     assessment : Assessment
         The assessment shown in it.
     """
-    from dampctl.figures import assessment_pngs
+    from dampctl.report.figures import assessment_pngs
 
     design.check_plant(plant)
     result = assess(plant, design, delay_s=delay_s)
@@ -176,7 +176,7 @@ def _read_json(path: str, option: str) -> dict:
 
 def _sizing_pngs(sizing: Mapping[str, Any]) -> dict[str, bytes]:
     """Sizing figures drawn from the sizing JSON (the figures take the same fields)."""
-    from dampctl.figures_sizing import sizing_pngs
+    from dampctl.report.figures_sizing import sizing_pngs
 
     rows = [
         SimpleNamespace(

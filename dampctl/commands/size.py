@@ -8,8 +8,8 @@ from typing import TextIO
 from dampctl.commands._common import SAFETY_LINES, mode_list, name_list, print_json, table
 from dampctl.errors import UsageError
 from dampctl.fileio import write_files
-from dampctl.plantfile import load_plant
-from dampctl.sizing import LAWS, size_pairs
+from dampctl.model.plantfile import load_plant
+from dampctl.sizing.size import LAWS, size_pairs
 
 NAME = "size"
 HELP = "find how many pairs a structure needs and where, with the cost of each extra pair"
@@ -104,7 +104,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     )
     files = []
     if args.plots:
-        from dampctl.figures_sizing import sizing_pngs
+        from dampctl.report.figures_sizing import sizing_pngs
 
         pngs = sizing_pngs(result)
         files = write_files(args.plots, pngs, inputs=[args.plant], replace=args.force)

@@ -7,11 +7,11 @@ import math
 from dataclasses import replace
 from typing import TextIO
 
+from dampctl.analysis.modetable import TABLE_HEADERS, closed_loop_table
 from dampctl.commands._common import SAFETY_LINES, mode_list, name_list, print_json, table
 from dampctl.errors import MissingFeatureError, UsageError
 from dampctl.fileio import write_text
-from dampctl.modetable import TABLE_HEADERS, closed_loop_table
-from dampctl.plantfile import load_plant
+from dampctl.model.plantfile import load_plant
 
 NAME = "tune"
 HELP = "tune damping loops (dvf, iff, ppf on collocated pairs, or lqg) and write a design file"
@@ -187,7 +187,7 @@ def tune_payload(plant, design, modes, *, design_file: str | None = None) -> dic
     design : Design
         The design.
     modes : ClosedLoopTable
-        Its closed-loop modes (:func:`dampctl.modetable.closed_loop_table`).
+        Its closed-loop modes (:func:`dampctl.analysis.modetable.closed_loop_table`).
     design_file : str, optional
         Where the design was written.
 

@@ -1,4 +1,5 @@
-"""Damping laws: each turns a plant and a choice of pairs into a :class:`~dampctl.design.Design`.
+"""Stage 4a, damping laws: each turns a plant and a choice of pairs into a
+:class:`~dampctl.design.Design`.
 
 Collocated, decentralized (one SISO loop per pair; ``design(plant, pairs, *, modes=None,
 target_damping=None, gain=None, delay_s=None, ...)``)
@@ -16,6 +17,11 @@ target_damping=None, gain=None, delay_s=None, ...)``)
 Model-based (MIMO)
     lqg
         observer-based controller on a reduced modal model (its own module)
+
+Shared pieces
+    _checks (pairs, collocation, clusters), _tuning (batched gain search), _assemble,
+    _lqg_gains (LQG weights, Riccati solves, goal corrections), spillover (full-plant check
+    of model-based designs), reduction (balanced truncation of a controller with its bound)
 
 Sign convention for all laws: u = −K(s) y (negative feedback). Import the law modules
 directly (``from dampctl.laws import dvf``); nothing is imported here at package import.

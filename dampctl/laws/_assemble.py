@@ -8,12 +8,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from dampctl.closedloop import plant_loop_delay_s
+from dampctl.analysis.closedloop import plant_loop_delay_s
 from dampctl.design import Design, Loop
 from dampctl.errors import UsageError
 from dampctl.laws._checks import ModeGroups, mode_groups, resolve_pairs, target_indices
 from dampctl.laws._tuning import Evaluation, LoopModel
-from dampctl.plant import ModalPlant, Pair
+from dampctl.model.plant import ModalPlant, Pair
 
 __all__ = ["Setup", "finish", "loop_gains", "search_outcome", "setup"]
 

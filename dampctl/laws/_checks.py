@@ -4,12 +4,12 @@ A pair is **collocated** when its actuator's generalized-force row (modal input 
 modal mass) and its sensor's modal output row are positively proportional: every modal residue
 of the loop then has the same sign, poles and zeros alternate, and the ideal collocated laws are
 stable for any positive gain (Preumont, *Vibration Control of Active Structures*, 3rd ed. 2011,
-collocated control; from memory). This is the same test :func:`dampctl.survey.survey_plant`
+collocated control; from memory). This is the same test :func:`dampctl.model.survey.survey_plant`
 uses.
 
-Near-repeated clusters (:func:`dampctl.survey.find_clusters`): the k modes of a cluster can all
-be damped only by pairs whose shape rows on the cluster have rank k (PBH test, Hautus 1969). With
-fewer, the tuning objective of a cluster is its r-th best damping (r = the rank), so the search
+Near-repeated clusters (:func:`dampctl.model.survey.find_clusters`): the k modes of a cluster can
+all be damped only by pairs whose shape rows on the cluster have rank k (PBH test, Hautus 1969).
+With fewer, the tuning objective of a cluster is its r-th best damping (r = the rank), so the search
 does not chase a mode no loop can reach, and the design says which modes cannot all be damped.
 """
 
@@ -21,8 +21,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from dampctl.errors import DesignRefused, UsageError
-from dampctl.plant import ModalPlant, Pair
-from dampctl.survey import cluster_rank, find_clusters, pair_rows
+from dampctl.model.plant import ModalPlant, Pair
+from dampctl.model.survey import cluster_rank, find_clusters, pair_rows
 
 __all__ = [
     "ModeGroups",

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from dampctl.closedloop import match_modes, open_loop_poles
+from dampctl.analysis.closedloop import match_modes, open_loop_poles
 from dampctl.errors import UsageError
 
 __all__ = [

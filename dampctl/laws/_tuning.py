@@ -1,10 +1,10 @@
 """Gain search shared by the collocated laws: batched closed-loop eigenvalues, no models.
 
 Every candidate is a controller state space (A_c, B_c, C_c, D_c) with the loop delay (Padé)
-and the hardware roll-offs already folded in (:func:`dampctl.closedloop.lag_elements`). The
+and the hardware roll-offs already folded in (:func:`dampctl.analysis.closedloop.lag_elements`). The
 closed-loop matrices of a batch are stacked and handed to one ``numpy.linalg.eigvals`` call;
 closed-loop poles are matched to the plant's modes by assignment
-(:func:`dampctl.closedloop.match_modes`).
+(:func:`dampctl.analysis.closedloop.match_modes`).
 
 The search (:func:`search_gains`) works on per-loop gains ``g = s · base`` with a common scale
 s over a log grid (base normalizes each loop by what its pair sees), then refines s locally and
@@ -26,7 +26,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from dampctl.closedloop import (
+from dampctl.analysis.closedloop import (
     block_diagonal,
     closed_loop_matrix,
     lag_elements,
@@ -85,8 +85,8 @@ class LoopModel:
         Objective over the damping ratios of a batch (n_eval, n_modes) -> (n_eval,).
     omega_ref : float
         Delay-accuracy frequency (rad/s): the delay is a cascade of [2/2] Padé sections
-        accurate up to it (:func:`dampctl.closedloop.reference_omega` of the plant, as for every
-        pole computation).
+        accurate up to it (:func:`dampctl.analysis.closedloop.reference_omega` of the plant, as for
+        every pole computation).
     """
 
     plant_mats: Matrices

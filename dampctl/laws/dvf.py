@@ -48,7 +48,7 @@ from dampctl.errors import DesignRefused, UsageError
 from dampctl.laws._assemble import finish, loop_gains, search_outcome, setup
 from dampctl.laws._checks import check_collocated
 from dampctl.laws._tuning import search_gains, stack_loops
-from dampctl.plant import ModalPlant, Pair
+from dampctl.model.plant import ModalPlant, Pair
 
 __all__ = ["design", "roll_off_corner_hz"]
 
@@ -106,7 +106,8 @@ def design(
         Fixed velocity gain(s) g (N·s/m for a force actuator, s for a strut), one for all loops
         or one per loop, instead of tuning.
     delay_s : float, optional
-        Loop delay (s) tuned against; default :func:`dampctl.closedloop.plant_loop_delay_s`.
+        Loop delay (s) tuned against; default
+        :func:`dampctl.analysis.closedloop.plant_loop_delay_s`.
     roll_off_hz : float, optional
         Corner (Hz) of the roll-off / differentiator; default the corner rule (module
         docstring) when a delay or hardware bandwidth is stated; 0 disables the roll-off on

@@ -2,7 +2,7 @@
 
 Law and sign
     The strut's input is its free extension δ (m); its force sensor reads the tension
-    F = k_s (bᵀx − δ) (:class:`dampctl.components.Sensor`). Preumont's IFF extends the strut
+    F = k_s (bᵀx − δ) (:class:`dampctl.model.components.Sensor`). Preumont's IFF extends the strut
     in proportion to the integrated tension, δ = g F / (k_s s): then
     F = k_s bᵀx · s/(s + g) and the closed loop is [M s² + K* + k_s b bᵀ · s/(s + g)] x = 0,
     with K* the stiffness without the strut — a spring in series with a damper, which can only
@@ -46,7 +46,7 @@ from dampctl.errors import DesignRefused, UsageError
 from dampctl.laws._assemble import finish, loop_gains, search_outcome, setup
 from dampctl.laws._checks import check_collocated
 from dampctl.laws._tuning import search_gains, stack_loops
-from dampctl.plant import ModalPlant, Pair
+from dampctl.model.plant import ModalPlant, Pair
 
 __all__ = ["DEFAULT_LEAK_FRACTION", "achievable_damping", "design"]
 
@@ -124,7 +124,8 @@ def design(
         Fixed IFF gain(s) g (rad/s, Preumont's normalization), one for all loops or one per
         loop, instead of tuning.
     delay_s : float, optional
-        Loop delay (s) tuned against; default :func:`dampctl.closedloop.plant_loop_delay_s`.
+        Loop delay (s) tuned against; default
+        :func:`dampctl.analysis.closedloop.plant_loop_delay_s`.
     leak_hz : float, optional
         Leak corner ω_c/2π (Hz) of the integrator; default ``DEFAULT_LEAK_FRACTION`` × the
         lowest target mode; 0 gives the pure integrator.

@@ -75,7 +75,7 @@ values of the stable part (Enns 1984; Glover 1984) is reported with the damping 
 controller actually keeps on the full plant.
 
 **Margins.** LQG has no guaranteed margins (Doyle 1978), so loop-at-a-time gain and phase
-margins at the plant input are always given (:func:`dampctl.margins.loop_margins`).
+margins at the plant input are always given (:func:`dampctl.analysis.margins.loop_margins`).
 
 Controller convention (:mod:`dampctl.design`): with the design model x' = Ax + Bu,
 y = Cx + Du and u = −K x̂, the estimator x̂' = Ax̂ + Bu + L(y − Cx̂ − Du) gives
@@ -91,7 +91,8 @@ from typing import Any, Literal
 
 import numpy as np
 
-from dampctl.closedloop import plant_loop_delay_s
+from dampctl.analysis.closedloop import plant_loop_delay_s
+from dampctl.analysis.margins import default_grid, loop_margins
 from dampctl.design import Design
 from dampctl.errors import DesignRefused, UsageError
 from dampctl.laws._lqg_gains import (
@@ -109,10 +110,9 @@ from dampctl.laws._lqg_gains import (
     tune_estimator,
     tune_regulator,
 )
+from dampctl.laws.reduction import Reduction, reduce_controller
 from dampctl.laws.spillover import check_on_plant
-from dampctl.margins import default_grid, loop_margins
-from dampctl.plant import ModalPlant
-from dampctl.reduction import Reduction, reduce_controller
+from dampctl.model.plant import ModalPlant
 
 __all__ = [
     "BACKOFF_FACTORS",

@@ -49,7 +49,7 @@ from dampctl.errors import DesignRefused
 from dampctl.laws._assemble import finish, loop_gains, setup
 from dampctl.laws._checks import check_collocated
 from dampctl.laws._tuning import stack_loops
-from dampctl.plant import ModalPlant, Pair
+from dampctl.model.plant import ModalPlant, Pair
 
 __all__ = [
     "MAX_DC_LOOP_GAIN",
@@ -141,7 +141,7 @@ def design(
         ζ_c = ½√(g/(1−g)) (g < 1), else at 0.1. Not refused when it breaks the static condition:
         the design is reported unstable.
     delay_s : float, optional
-        Loop delay (s); default :func:`dampctl.closedloop.plant_loop_delay_s`.
+        Loop delay (s); default :func:`dampctl.analysis.closedloop.plant_loop_delay_s`.
 
     Returns
     -------

@@ -14,9 +14,9 @@ from collections.abc import Sequence
 from dataclasses import asdict, dataclass
 from typing import Any
 
-from dampctl.closedloop import MatchedModes, closed_loop_modes, plant_loop_delay_s
+from dampctl.analysis.closedloop import MatchedModes, closed_loop_modes, plant_loop_delay_s
 from dampctl.design import Design
-from dampctl.plant import ModalPlant
+from dampctl.model.plant import ModalPlant
 
 __all__ = ["SPILLOVER_LOSS", "ModeCheck", "PlantCheck", "check_on_plant"]
 

@@ -6,11 +6,11 @@ from dataclasses import replace
 
 import pytest
 
-from dampctl.cli import main
 from dampctl.commands._common import SAFETY_LINES
-from dampctl.components import Disturbance, Output, Requirements
+from dampctl.commands.cli import main
 from dampctl.design import Branch, Design, Loop
-from dampctl.plantfile import dump_plant
+from dampctl.model.components import Disturbance, Output, Requirements
+from dampctl.model.plantfile import dump_plant
 from dampctl.testing import sdof_plant
 
 
@@ -101,7 +101,7 @@ def test_json_output_and_plots(tmp_path):
 
 @pytest.mark.parametrize("option", ["--delay-s", "--drift", "--samples", "--plots"])
 def test_help_states_units_and_defaults(option, capsys):
-    from dampctl.cli import build_parser
+    from dampctl.commands.cli import build_parser
 
     parser = build_parser()
     sub = parser._subparsers._group_actions[0].choices["assess"]

@@ -2,15 +2,15 @@
 
 import io
 import json
-from pathlib import Path
 
 import numpy as np
 import pytest
+from repo import ROOT
 
-from dampctl.cli import main
-from dampctl.plantfile import load_plant
+from dampctl.commands.cli import main
+from dampctl.model.plantfile import load_plant
 
-PLANTS = Path(__file__).resolve().parents[2] / "plants"
+PLANTS = ROOT / "plants"
 
 
 def run(*args: str) -> tuple[int, str, str]:
@@ -98,7 +98,7 @@ def test_bad_cluster_tolerance():
 
 
 def test_bundled_demo_is_the_example_plant():
-    bundled = Path(__file__).resolve().parents[2] / "dampctl" / "data" / "scanning_stage.toml"
+    bundled = ROOT / "dampctl" / "data" / "scanning_stage.toml"
     assert bundled.read_bytes() == (PLANTS / "scanning_stage.toml").read_bytes()
 
 

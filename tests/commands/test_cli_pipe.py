@@ -2,7 +2,7 @@
 
 import pytest
 
-from dampctl import cli
+from dampctl.commands import cli
 
 
 def test_broken_pipe_ends_without_traceback(monkeypatch, tmp_path):

@@ -5,8 +5,8 @@ from __future__ import annotations
 import io
 import json
 
-from dampctl.cli import main
-from dampctl.plantfile import dump_plant
+from dampctl.commands.cli import main
+from dampctl.model.plantfile import dump_plant
 from dampctl.testing import chain_plant
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"

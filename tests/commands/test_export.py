@@ -9,9 +9,9 @@ from dataclasses import replace
 import numpy as np
 import pytest
 
-from dampctl.cli import main
+from dampctl.commands.cli import main
 from dampctl.design import Branch, Design, Loop, Section
-from dampctl.plantfile import dump_plant
+from dampctl.model.plantfile import dump_plant
 from dampctl.testing import chain_plant
 
 
@@ -191,7 +191,7 @@ def test_near_miss_of_the_sampled_damping_gets_a_retuning_hint():
     from types import SimpleNamespace
 
     from dampctl.commands.export import _unmet
-    from dampctl.components import Requirements
+    from dampctl.model.components import Requirements
 
     plant = chain_plant([1.0, 1.0], [1e5, 1e5], damping=0.01)
     plant = replace(plant, requirements=Requirements(modes=(1, 2), min_damping=0.015))

@@ -5,10 +5,10 @@ import json
 
 import pytest
 
-from dampctl.cli import main
-from dampctl.components import Actuator, Mode, Pair, Requirements, Sensor
-from dampctl.plant import ModalPlant
-from dampctl.plantfile import dump_plant
+from dampctl.commands.cli import main
+from dampctl.model.components import Actuator, Mode, Pair, Requirements, Sensor
+from dampctl.model.plant import ModalPlant
+from dampctl.model.plantfile import dump_plant
 
 
 def _plant_file(tmp_path, *, min_damping=0.04):

@@ -2,22 +2,19 @@
 
 import io
 import json
-import sys
-from pathlib import Path
 
 import numpy as np
 import pytest
-
-sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "laws"))
 from lawplants import cluster_plant, strut_plant
+from repo import ROOT
 
-from dampctl.cli import main
-from dampctl.closedloop import closed_loop_modes
+from dampctl.analysis.closedloop import closed_loop_modes
 from dampctl.commands import tune
 from dampctl.commands._common import SAFETY_LINES
-from dampctl.components import Requirements
+from dampctl.commands.cli import main
 from dampctl.design import load_design
-from dampctl.plantfile import dump_plant, load_plant
+from dampctl.model.components import Requirements
+from dampctl.model.plantfile import dump_plant, load_plant
 from dampctl.testing import chain_plant
 
 
@@ -274,7 +271,7 @@ def test_target_none_maximizes_even_when_the_plant_states_one(strut_file, tmp_pa
 def test_lqg_human_output_names_modes_added_for_spillover(tmp_path):
     # demo truss, two struts: residual modes 7 and 9 spill over on the default design model
     # and are added to it (tests/laws/test_spillover.py)
-    truss = Path(__file__).resolve().parents[2] / "plants" / "light_truss.toml"
+    truss = ROOT / "plants" / "light_truss.toml"
     out_file = tmp_path / "d.json"
     code, out, err = _run(truss, "--law", "lqg", "--pairs", "iff_1,iff_2", "-o", out_file)
     assert code == 0, err

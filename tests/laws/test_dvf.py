@@ -7,10 +7,10 @@ from hypothesis import assume, given
 from hypothesis import strategies as st
 from lawplants import cluster_plant, strut_plant
 
-from dampctl.closedloop import closed_loop_modes
-from dampctl.components import Requirements
+from dampctl.analysis.closedloop import closed_loop_modes
 from dampctl.errors import DesignRefused, UsageError
 from dampctl.laws import dvf
+from dampctl.model.components import Requirements
 from dampctl.testing import chain_plant, sdof_plant
 
 
@@ -218,8 +218,8 @@ def test_strut_with_relative_velocity_sensor_damps():
 def test_ideal_dvf_stable_on_random_modal_plants(freqs, shape, damping, log_gain):
     # Balas 1979 (from memory): any positive collocated velocity gain on a passive modal plant
     # leaves every mode stable, with damping not below its open-loop value at small gain.
-    from dampctl.components import Actuator, Mode, Pair, Sensor
-    from dampctl.plant import ModalPlant
+    from dampctl.model.components import Actuator, Mode, Pair, Sensor
+    from dampctl.model.plant import ModalPlant
 
     n = len(freqs)
     assume(np.any(np.abs(shape[:n]) > 1e-3))

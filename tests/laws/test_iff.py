@@ -6,7 +6,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 from lawplants import strut_chain, strut_plant
 
-from dampctl.closedloop import closed_loop_matrix, closed_loop_modes, effective_controller
+from dampctl.analysis.closedloop import closed_loop_matrix, closed_loop_modes, effective_controller
 from dampctl.errors import DesignRefused
 from dampctl.laws import iff
 

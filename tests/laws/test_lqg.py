@@ -9,14 +9,15 @@ import numpy as np
 import pytest
 from hypothesis import example, given
 from hypothesis import strategies as st
+from repo import ROOT
 from scipy.linalg import matrix_balance, solve_continuous_are
 
 from dampctl import Actuator, Disturbance, ModalPlant, Mode, Pair, Sensor, survey_plant
-from dampctl.closedloop import closed_loop_matrix, closed_loop_modes, modal_damping
+from dampctl.analysis.closedloop import closed_loop_matrix, closed_loop_modes, modal_damping
+from dampctl.analysis.margins import loop_margins
 from dampctl.design import design_from_dict
 from dampctl.errors import DesignRefused, UsageError
 from dampctl.laws import lqg
-from dampctl.margins import loop_margins
 from dampctl.testing import chain_matrices, chain_plant, sdof_plant
 
 
@@ -448,7 +449,7 @@ def test_stated_delay_is_used_by_default():
     plant = _noncollocated_chain()
     from dataclasses import replace
 
-    from dampctl.components import Requirements
+    from dampctl.model.components import Requirements
 
     plant = replace(plant, requirements=Requirements(loop_delay_s=1e-4, sample_rate_hz=1e4))
     design = lqg.design(plant, ["f1"], ["v2"], target_damping=0.1)
@@ -478,11 +479,10 @@ def test_estimator_poles_of_weakly_excited_target_modes_reach_the_aim():
     # e.g. Anderson & Moore, Optimal Control: Linear Quadratic Methods, 1990): a target mode
     # the disturbances do not excite (stage rotation, mode 6, under floor x/y forces) must
     # still get a damped estimator pole. Checked in the design model, from the stored gain.
-    from pathlib import Path
 
-    from dampctl.plantfile import load_plant
+    from dampctl.model.plantfile import load_plant
 
-    plant = load_plant(Path(__file__).resolve().parents[2] / "plants" / "scanning_stage.toml")
+    plant = load_plant(ROOT / "plants" / "scanning_stage.toml")
     design = lqg.design(plant, ["coil_x1", "coil_y1"], ["gap_x1", "gap_y1"])
     info = design.info
     model_modes = info["design_model"]["modes"]
@@ -497,14 +497,13 @@ def test_full_plant_correction_meets_the_target_the_design_model_misses():
     # controller that damps the design model to the target falls short on the full plant
     # (stage, velocity pairs: 0.042 on the first attempt). The correction raises the goals of the
     # short target modes and designs again; the kept design meets the target on the full
-    # plant, as the independent assessment (dampctl.assess, closed-loop eigenvalues of plant,
-    # controller and Padé delay model) reports it.
-    from pathlib import Path
+    # plant, as the independent assessment (dampctl.analysis.assessment, closed-loop eigenvalues of
+    # plant, controller and Padé delay model) reports it.
 
     import dampctl
-    from dampctl.plantfile import load_plant
+    from dampctl.model.plantfile import load_plant
 
-    plant = load_plant(Path(__file__).resolve().parents[2] / "plants" / "scanning_stage.toml")
+    plant = load_plant(ROOT / "plants" / "scanning_stage.toml")
     design = lqg.design(plant, [], [], pairs=["vx1", "vy1"])
     correction = design.info["full_plant_correction"]
     target = design.info["target_damping"]
@@ -526,11 +525,10 @@ def test_unreachable_target_backs_off_to_a_stable_loop():
     # one strut on the demo truss cannot damp modes 1-3 to 0.015 with a stable loop (the
     # design aiming there is unstable on the full plant); the design aims lower, step by step,
     # keeps the first stable loop and says that the target is missed
-    from pathlib import Path
 
-    from dampctl.plantfile import load_plant
+    from dampctl.model.plantfile import load_plant
 
-    plant = load_plant(Path(__file__).resolve().parents[2] / "plants" / "light_truss.toml")
+    plant = load_plant(ROOT / "plants" / "light_truss.toml")
     design = lqg.design(plant, [], [], pairs=["iff_1"])
     info = design.info
     assert info["target_damping"] == 0.015

@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 from lawplants import strut_plant
 
-from dampctl.closedloop import closed_loop_modes
+from dampctl.analysis.closedloop import closed_loop_modes
 from dampctl.errors import DesignRefused
 from dampctl.laws import ppf
 from dampctl.testing import chain_plant, sdof_plant

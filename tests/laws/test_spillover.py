@@ -2,9 +2,10 @@
 
 import numpy as np
 import pytest
+from repo import ROOT
 
 from dampctl import Actuator, ModalPlant, Mode, Sensor
-from dampctl.closedloop import closed_loop_matrix
+from dampctl.analysis.closedloop import closed_loop_matrix
 from dampctl.design import Design
 from dampctl.laws import lqg
 from dampctl.laws.spillover import check_on_plant
@@ -103,12 +104,11 @@ def test_lqg_adds_modes_it_drives_unstable_to_the_design_model(monkeypatch):
     # default model (targets 1–3 and one neighbour) drive residual modes 7 and 9 unstable; the
     # design adds them to its model and designs again, and the loop is stable with the target
     # met, as the independent assessment (closed-loop eigenvalues with the delay) also finds.
-    from pathlib import Path
 
     import dampctl
-    from dampctl.plantfile import load_plant
+    from dampctl.model.plantfile import load_plant
 
-    plant = load_plant(Path(__file__).resolve().parents[2] / "plants" / "light_truss.toml")
+    plant = load_plant(ROOT / "plants" / "light_truss.toml")
     monkeypatch.setattr(lqg, "SPILLOVER_ROUNDS", 0)
     monkeypatch.setattr(lqg, "BACKOFF_FACTORS", ())
     plain = lqg.design(plant, [], [], pairs=["iff_1", "iff_2"]).info

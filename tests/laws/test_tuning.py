@@ -2,6 +2,7 @@
 
 import numpy as np
 import pytest
+from repo import ROOT
 
 from dampctl.laws._tuning import search_gains
 
@@ -58,13 +59,12 @@ def test_adding_a_fourth_velocity_loop_keeps_the_stage_damping():
     # the same property on the demo stage with direct velocity feedback: three pairs reached
     # 0.2523 and four pairs, before the search without each loop, only 0.2501
     from dataclasses import replace
-    from pathlib import Path
 
-    from dampctl.closedloop import closed_loop_modes
+    from dampctl.analysis.closedloop import closed_loop_modes
     from dampctl.laws import dvf
-    from dampctl.plantfile import load_plant
+    from dampctl.model.plantfile import load_plant
 
-    plant = load_plant(Path(__file__).resolve().parents[2] / "plants" / "scanning_stage.toml")
+    plant = load_plant(ROOT / "plants" / "scanning_stage.toml")
     plant = replace(plant, requirements=replace(plant.requirements, min_damping=None))
     three = dvf.design(plant, ["vx1", "vy1", "vx2"])
     four = dvf.design(plant, ["vx1", "vy1", "vx2", "vy2"])
@@ -72,9 +72,12 @@ def test_adding_a_fourth_velocity_loop_keeps_the_stage_damping():
     z3 = closed_loop_modes(plant, three).damping[targets].min()
     z4 = closed_loop_modes(plant, four).damping[targets].min()
     assert z4 >= z3 * (1 - 1e-4)
-    # here the fourth loop adds nothing: it is left off, and the design says so
-    assert [lp.gain == 0.0 for lp in four.loops] == [False, False, False, True]
-    assert any("vy2: tuned gain 0" in w for w in four.info["warnings"])
+    # here one loop adds nothing: it is left off, and the design says so. Which one is a tie
+    # (the stage is symmetric: vx1/vx2 and vy1/vy2 see the same modes), so the last bit of the
+    # eigenvalues decides it and it may differ between BLAS builds
+    off = [lp.pair for lp in four.loops if lp.gain == 0.0]
+    assert len(off) == 1
+    assert any(f"{off[0]}: tuned gain 0" in w for w in four.info["warnings"])
 
 
 def test_adding_a_loop_never_lowers_the_maximized_damping():
@@ -82,13 +85,12 @@ def test_adding_a_loop_never_lowers_the_maximized_damping():
     # added loop reproduces the smaller set, so the maximum cannot drop (up to the 1e-3
     # "nearly off" start the search uses). Seen on the truss IFF pairs before the multi-start.
     from dataclasses import replace
-    from pathlib import Path
 
-    from dampctl.closedloop import closed_loop_modes
+    from dampctl.analysis.closedloop import closed_loop_modes
     from dampctl.laws import iff
-    from dampctl.plantfile import load_plant
+    from dampctl.model.plantfile import load_plant
 
-    plant = load_plant(Path(__file__).resolve().parents[2] / "plants" / "light_truss.toml")
+    plant = load_plant(ROOT / "plants" / "light_truss.toml")
     # no target: the laws maximize the smallest damping
     plant = replace(plant, requirements=replace(plant.requirements, min_damping=None))
     two = iff.design(plant, ["iff_1", "iff_3"])

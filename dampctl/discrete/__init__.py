@@ -1,0 +1,28 @@
+"""Stage 4c, discrete export: coefficients for the DSP or FPGA, verified in discrete time.
+
+Takes a design and a sample rate and gives second-order sections or a state space (Tustin with
+prewarping, or ZOH), optionally quantized to fixed point, checked in the sampled closed loop,
+and the text of the export files.
+
+equivalents
+    discrete equivalents of each loop as second-order sections
+mimo
+    discrete MIMO (LQG) controllers: state space and modal biquads
+sections
+    cascade and parallel forms, transmission zeros
+fixedpoint
+    Q15 / Q31 coefficients with a post-shift, pole-shift report, refusal
+sampledloop
+    the sampled closed loop (ZOH plant, one sample of computation delay)
+export
+    export_design(): discretize, quantize, verify
+writers
+    export file texts: JSON, CSV, C header with reference routines
+
+Imports the model, the design and the analysis.
+"""
+
+from dampctl.discrete.equivalents import discretize
+from dampctl.discrete.export import export_design
+
+__all__ = ["discretize", "export_design"]

@@ -1,0 +1,256 @@
+"""Export pipeline: discretize a design, quantize it when asked, verify the sampled loop.
+
+:func:`export_design` is what ``dampctl export`` runs; the files are written by
+:mod:`dampctl.discrete.writers`. Every realisation that runs on the target is held as a
+:class:`~dampctl.discrete.sections.ParallelForm` (a loop in cascade form is a parallel form with one
+branch), so the fixed-point coefficients, the verification and the C routine all see the same
+structure.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Literal
+
+import numpy as np
+
+from dampctl.design import Design
+from dampctl.discrete.equivalents import (
+    DiscreteController,
+    DiscretePath,
+    discretize,
+    paths_matrices,
+)
+from dampctl.discrete.fixedpoint import (
+    DAMPING_TOLERANCE,
+    QuantizedSection,
+    cascade_peak_gains,
+    quantize_cascade,
+)
+from dampctl.discrete.sampledloop import DiscreteVerification, sampled_reference, verify_discrete
+from dampctl.discrete.sections import ParallelForm, _block_diagonal
+from dampctl.errors import UsageError
+from dampctl.model.plant import ModalPlant
+
+__all__ = ["ExportResult", "Realisation", "export_design", "realisations"]
+
+FIXED = ("none", "q15", "q31")
+
+
+@dataclass(frozen=True)
+class Realisation:
+    """What runs on the target for one loop (or one path of a MIMO controller).
+
+    Attributes
+    ----------
+    name : str
+        The pair, or ``actuator<-sensor`` for a MIMO path.
+    actuator, sensor : str
+        Output and input.
+    form : ParallelForm
+        ``feedthrough + Σ gain_b · Π sections`` (float or rounded coefficients).
+    sections : tuple of tuple of QuantizedSection
+        Fixed-point sections per branch; empty when not quantized.
+    peak_gains : tuple of tuple of float
+        Per branch, the peak gain from the branch input to each section's output
+        (:func:`dampctl.discrete.fixedpoint.cascade_peak_gains`, rounded coefficients, without the
+        branch gain); empty when not quantized.
+    """
+
+    name: str
+    actuator: str
+    sensor: str
+    form: ParallelForm
+    sections: tuple[tuple[QuantizedSection, ...], ...] = ()
+    peak_gains: tuple[tuple[float, ...], ...] = ()
+
+
+def realisations(controller: DiscreteController) -> tuple[Realisation, ...]:
+    """The float realisations of a discrete controller, loop by loop or path by path.
+
+    Parameters
+    ----------
+    controller : DiscreteController
+        The discretized controller.
+
+    Returns
+    -------
+    tuple of Realisation
+        The recommended form of each loop; the modal paths of a MIMO design (empty when it
+        has none).
+    """
+    out = []
+    for lp in controller.loops:
+        form = ParallelForm(0.0, (lp.cascade,)) if lp.form == "cascade" else lp.parallel
+        out.append(Realisation(lp.pair, lp.actuator, lp.sensor, form))
+    for path in controller.paths:
+        name = f"{path.actuator}<-{path.sensor}"
+        out.append(Realisation(name, path.actuator, path.sensor, path.parallel))
+    return tuple(out)
+
+
+def _quantized(real: Realisation, rate_hz: float, fmt: str, tolerance: float) -> Realisation:
+    branches, sections, peaks = [], [], []
+    for b, branch in enumerate(real.form.branches):
+        label = f"{real.name}, {branch.label or f'branch {b + 1}'}"
+        if len(real.form.branches) == 1:
+            label = real.name
+        rounded, secs = quantize_cascade(
+            branch, rate_hz, fmt=fmt, label=f"loop {label}", tolerance=tolerance
+        )
+        branches.append(rounded)
+        sections.append(secs)
+        peaks.append(tuple(float(g) for g in cascade_peak_gains(rounded.sos, rate_hz)))
+    form = ParallelForm(real.form.feedthrough, tuple(branches))
+    return Realisation(real.name, real.actuator, real.sensor, form, tuple(sections), tuple(peaks))
+
+
+def _matrices(controller: DiscreteController, reals: tuple[Realisation, ...]):
+    if controller.loops:
+        return _block_diagonal([r.form.matrices() for r in reals])
+    paths = [DiscretePath(r.actuator, r.sensor, r.form) for r in reals]
+    return paths_matrices(paths, controller.actuators, controller.sensors)
+
+
+@dataclass(frozen=True)
+class ExportResult:
+    """Discrete controller, fixed-point coefficients and the sampled-loop verification.
+
+    Attributes
+    ----------
+    controller : DiscreteController
+        Float discretization.
+    fixed : {"none", "q15", "q31"}
+        Fixed-point format.
+    realisations : tuple of Realisation
+        Float realisations (what the float C routine runs).
+    fixed_realisations : tuple of Realisation
+        Rounded realisations with their sections; empty without ``fixed``.
+    verification : DiscreteVerification
+        Sampled loop with the float realisation.
+    fixed_verification : DiscreteVerification or None
+        Sampled loop with the rounded coefficients.
+    refused : tuple of str
+        One message per refused fixed-point section.
+    tolerance : float
+        Damping tolerance used for the refusal.
+    """
+
+    controller: DiscreteController
+    fixed: str
+    realisations: tuple[Realisation, ...]
+    fixed_realisations: tuple[Realisation, ...]
+    verification: DiscreteVerification
+    fixed_verification: DiscreteVerification | None
+    refused: tuple[str, ...]
+    tolerance: float
+
+    @property
+    def stable(self) -> bool:
+        """The sampled loop is stable (float, and fixed point when quantized)."""
+        fixed_ok = self.fixed_verification is None or self.fixed_verification.stable
+        return self.verification.stable and fixed_ok
+
+    @property
+    def failures(self) -> tuple[str, ...]:
+        """Why the export must not be used: refused sections, unstable sampled loops."""
+        out = list(self.refused)
+        v = self.verification
+        if not v.stable:
+            cont = "stable" if v.continuous_stable else "also unstable"
+            out.append(
+                f"the sampled closed loop is unstable (largest |z| = {v.max_pole_radius:.6f} at "
+                f"{v.max_pole_freq_hz:.4g} Hz; the continuous loop is {cont})"
+            )
+        fv = self.fixed_verification
+        if fv is not None and not fv.stable:
+            out.append(
+                f"the sampled closed loop with {self.fixed} coefficients is unstable "
+                f"(largest |z| = {fv.max_pole_radius:.6f} at {fv.max_pole_freq_hz:.4g} Hz)"
+            )
+        return tuple(out)
+
+
+def export_design(
+    plant: ModalPlant,
+    design: Design,
+    rate_hz: float,
+    *,
+    method: Literal["tustin", "zoh"] = "tustin",
+    prewarp: Literal["auto", "none"] | float = "auto",
+    fixed: Literal["none", "q15", "q31"] = "none",
+    tolerance: float = DAMPING_TOLERANCE,
+) -> ExportResult:
+    """Discretize, optionally quantize, and verify a design in the sampled loop.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant the design was made for (checked by fingerprint).
+    design : Design
+        The design.
+    rate_hz : float
+        Sample rate (Hz).
+    method : {"tustin", "zoh"}, optional
+        Discretization method. Default ``"tustin"``.
+    prewarp : {"auto", "none"} or float, optional
+        Tustin prewarping (see :func:`dampctl.discrete.equivalents.discretize`). Default ``"auto"``.
+    fixed : {"none", "q15", "q31"}, optional
+        Fixed-point format of the coefficients. Default ``"none"``.
+    tolerance : float, optional
+        Largest relative damping change a rounded section may cause. Default 0.05.
+
+    Returns
+    -------
+    ExportResult
+
+    Raises
+    ------
+    DesignError
+        The design does not belong to the plant.
+    UsageError
+        Bad rate, method, prewarp or fixed-point option, or fixed point requested for a MIMO
+        controller without a modal realisation.
+    """
+    design.check_plant(plant)
+    if fixed not in FIXED:
+        raise UsageError(f"fixed must be one of {', '.join(FIXED)}, got {fixed!r}")
+    controller = discretize(design, rate_hz, method=method, prewarp=prewarp)
+    reals = realisations(controller)
+    reference = sampled_reference(plant, design, controller.rate_hz)
+    verification = verify_discrete(
+        plant, design, controller.rate_hz, _float_matrices(controller), reference=reference
+    )
+    fixed_reals: tuple[Realisation, ...] = ()
+    fixed_verification = None
+    refused: list[str] = []
+    if fixed != "none":
+        if not reals:
+            raise UsageError(
+                "fixed point needs second-order sections, and this MIMO controller has no "
+                "modal realisation; export it in floating point (--fixed none)"
+            )
+        fixed_reals = tuple(_quantized(r, controller.rate_hz, fixed, tolerance) for r in reals)
+        refused = [s.reason for r in fixed_reals for b in r.sections for s in b if s.reason]
+        fixed_verification = verify_discrete(
+            plant,
+            design,
+            controller.rate_hz,
+            _matrices(controller, fixed_reals),
+            reference=reference,
+        )
+    return ExportResult(
+        controller=controller,
+        fixed=fixed,
+        realisations=reals,
+        fixed_realisations=fixed_reals,
+        verification=verification,
+        fixed_verification=fixed_verification,
+        refused=tuple(refused),
+        tolerance=float(tolerance),
+    )
+
+
+def _float_matrices(controller: DiscreteController):
+    mats = controller.realisation_matrices()
+    return tuple(np.asarray(m, dtype=float) for m in mats)

@@ -1,0 +1,48 @@
+"""Stage 1, the plant: what the structure is, from what the engineer knows.
+
+Takes modal data (a plant file, or values built in code) and gives a validated, immutable
+:class:`~dampctl.model.plant.ModalPlant` with its state space and frequency response.
+
+components
+    value objects a plant is made of: Mode, Actuator, Sensor, Pair, Output, Disturbance,
+    Requirements
+plant
+    ModalPlant: validation, modal input/output rows, state space, FRF by the modal sum
+modalbasis
+    the FRF's modal basis per frequency block (numpy, or one loop compiled by numba)
+plantfile
+    TOML plant files in and out, errors naming the file and the field
+survey
+    what each candidate pair sees (Hankel-singular-value shares), near-repeated clusters,
+    output-dominant modes
+
+Imports nothing above it (only :mod:`dampctl.errors`).
+"""
+
+from dampctl.model.plant import (
+    Actuator,
+    Disturbance,
+    ModalPlant,
+    Mode,
+    Output,
+    Pair,
+    Requirements,
+    Sensor,
+)
+from dampctl.model.plantfile import dump_plant, load_plant, parse_plant
+from dampctl.model.survey import survey_plant
+
+__all__ = [
+    "Actuator",
+    "Disturbance",
+    "ModalPlant",
+    "Mode",
+    "Output",
+    "Pair",
+    "Requirements",
+    "Sensor",
+    "dump_plant",
+    "load_plant",
+    "parse_plant",
+    "survey_plant",
+]

@@ -1,0 +1,327 @@
+"""Plant files: TOML in, :class:`~dampctl.model.plant.ModalPlant` out (and back).
+
+Every problem is reported as a :class:`~dampctl.errors.PlantFileError` (or its parent
+:class:`~dampctl.errors.PlantError`) naming the file, the field and what is wrong, e.g.
+``stage.toml: modes[3].damping: must be in [0, 1), got 1.2``. Indices in field names count from
+1, like mode numbers. The keys are documented in the README ("The plant file").
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from collections.abc import Callable, Mapping
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from dampctl.errors import PlantError, PlantFileError
+from dampctl.model.plant import (
+    Actuator,
+    Disturbance,
+    ModalPlant,
+    Mode,
+    Output,
+    Pair,
+    Requirements,
+    Sensor,
+)
+
+__all__ = ["dump_plant", "load_plant", "parse_plant"]
+
+_TOP_KEYS = {
+    "title",
+    "modes",
+    "sites",
+    "actuators",
+    "sensors",
+    "pairs",
+    "outputs",
+    "disturbances",
+    "requirements",
+}
+_KEYS: dict[str, tuple[set[str], set[str]]] = {
+    # group: (required, optional)
+    "modes": ({"freq_hz", "damping"}, {"label", "modal_mass_kg"}),
+    "actuators": (
+        {"name", "kind"},
+        {
+            "site",
+            "between",
+            "stiffness_n_per_m",
+            "max_force_n",
+            "max_stroke_m",
+            "bandwidth_hz",
+            "cost",
+        },
+    ),
+    "sensors": (
+        {"name", "kind"},
+        {"site", "between", "actuator", "noise_density", "bandwidth_hz", "cost"},
+    ),
+    "pairs": ({"name", "actuator", "sensor"}, {"static_gain"}),
+    "outputs": ({"name", "kind"}, {"site", "between"}),
+    "disturbances": ({"name", "site", "psd"}, {"kind"}),
+}
+_REQUIREMENT_KEYS = {
+    "modes",
+    "min_damping",
+    "sample_rate_hz",
+    "loop_delay_s",
+    "min_gain_margin_db",
+    "min_phase_margin_deg",
+    "max_rms",
+}
+_STRING_KEYS = {"name", "kind", "site", "actuator", "sensor", "label"}
+_FACTORIES: dict[str, Callable[..., Any]] = {
+    "modes": Mode,
+    "actuators": Actuator,
+    "sensors": Sensor,
+    "pairs": Pair,
+    "outputs": Output,
+    "disturbances": Disturbance,
+}
+
+
+def load_plant(path: str | Path) -> ModalPlant:
+    """Read a plant file.
+
+    Parameters
+    ----------
+    path : str or path-like
+        A TOML plant file (SI units; frequencies in Hz).
+
+    Returns
+    -------
+    ModalPlant
+        The validated plant.
+
+    Raises
+    ------
+    PlantFileError
+        When the file cannot be read, is not TOML, or has a missing or unknown key.
+    PlantError
+        When a value is invalid; the message names the file and the field.
+    """
+    path = Path(path)
+    source = str(path)
+    try:
+        raw = path.read_bytes()
+    except OSError as exc:
+        raise PlantFileError(
+            f"cannot read the plant file ({exc.strerror or exc})", source=source
+        ) from None
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError:
+        raise PlantFileError("not a text (UTF-8) file", source=source) from None
+    return parse_plant(text, source=source)
+
+
+def parse_plant(text: str, *, source: str = "<plant>") -> ModalPlant:
+    """Build a plant from the text of a plant file.
+
+    Parameters
+    ----------
+    text : str
+        TOML text.
+    source : str, optional
+        Name used for the file in error messages.
+
+    Returns
+    -------
+    ModalPlant
+        The validated plant.
+    """
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise PlantFileError(f"not valid TOML ({exc})", source=source) from None
+    try:
+        return _build(data)
+    except PlantError as exc:
+        cls = type(exc)
+        raise cls(exc.message, source=source, field=exc.field) from None
+
+
+def _build(data: Mapping[str, Any]) -> ModalPlant:
+    _check_keys(data, set(), _TOP_KEYS, "")
+    if "modes" not in data:
+        raise PlantFileError("missing required key (at least one [[modes]] table)", field="modes")
+    if "sites" not in data:
+        raise PlantFileError(
+            "missing required key ([sites] table of mode-shape rows)", field="sites"
+        )
+    groups = {name: _records(data, name) for name in _KEYS}
+    sites = data["sites"]
+    if not isinstance(sites, dict):
+        raise PlantFileError("expected a table of name = [values]", field="sites")
+    for name, row in sites.items():
+        if not isinstance(row, list) or not all(_is_number(v) for v in row):
+            raise PlantError("expected a list of numbers, one per mode", field=f"sites.{name}")
+        for k, value in enumerate(row):
+            if not math.isfinite(float(value)):
+                raise PlantError(f"value {k + 1} is not finite ({value!r})", field=f"sites.{name}")
+    requirements = _requirements(data.get("requirements", {}))
+    title = data.get("title", "")
+    if not isinstance(title, str):
+        raise PlantFileError(f"expected a string, got {title!r}", field="title")
+    return _wrap(
+        "",
+        lambda: ModalPlant(
+            modes=groups["modes"],
+            sites=sites,
+            actuators=groups["actuators"],
+            sensors=groups["sensors"],
+            pairs=groups["pairs"],
+            outputs=groups["outputs"],
+            disturbances=groups["disturbances"],
+            requirements=requirements,
+            title=title,
+        ),
+    )
+
+
+def _records(data: Mapping[str, Any], group: str) -> tuple:
+    rows = data.get(group, [])
+    if not isinstance(rows, list) or not all(isinstance(r, dict) for r in rows):
+        raise PlantFileError(f"expected an array of tables ([[{group}]])", field=group)
+    required, optional = _KEYS[group]
+    built = []
+    for k, row in enumerate(rows):
+        where = f"{group}[{k + 1}]"
+        _check_keys(row, required, required | optional, where)
+        for key, value in row.items():
+            if key in _STRING_KEYS and not isinstance(value, str):
+                raise PlantFileError(f"expected a string, got {value!r}", field=f"{where}.{key}")
+            if key == "between" and (
+                not isinstance(value, list) or not all(isinstance(v, str) for v in value)
+            ):
+                raise PlantFileError("expected two site names, [a, b]", field=f"{where}.between")
+        kwargs = dict(row)
+        if "between" in kwargs:
+            kwargs["between"] = tuple(kwargs["between"])
+        built.append(_wrap(where, lambda kw=kwargs: _FACTORIES[group](**kw)))
+    return tuple(built)
+
+
+def _requirements(raw: Any) -> Requirements:
+    if not isinstance(raw, dict):
+        raise PlantFileError("expected a table", field="requirements")
+    _check_keys(raw, set(), _REQUIREMENT_KEYS, "requirements")
+    kwargs = dict(raw)
+    if "modes" in kwargs:
+        if not isinstance(kwargs["modes"], list):
+            raise PlantFileError("expected a list of mode numbers", field="requirements.modes")
+        kwargs["modes"] = tuple(kwargs["modes"])
+    if "max_rms" in kwargs and not isinstance(kwargs["max_rms"], dict):
+        raise PlantFileError("expected a table of output = limit", field="requirements.max_rms")
+    return _wrap("requirements", lambda: Requirements(**kwargs))
+
+
+def _check_keys(row: Mapping[str, Any], required: set[str], allowed: set[str], where: str) -> None:
+    prefix = f"{where}." if where else ""
+    for key in row:
+        if key not in allowed:
+            raise PlantFileError(
+                f"unknown key (allowed: {', '.join(sorted(allowed))})", field=f"{prefix}{key}"
+            )
+    for key in sorted(required):
+        if key not in row:
+            raise PlantFileError("missing required key", field=f"{prefix}{key}")
+
+
+def _wrap(where: str, build: Callable[[], Any]) -> Any:
+    try:
+        return build()
+    except PlantError as exc:
+        field = ".".join(p for p in (where, exc.field) if p) or None
+        raise type(exc)(exc.message, field=field) from None
+
+
+def _is_number(value: Any) -> bool:
+    return isinstance(value, int | float) and not isinstance(value, bool)
+
+
+# ---------------------------------------------------------------------- writing
+def dump_plant(plant: ModalPlant) -> str:
+    """TOML text of a plant, readable by :func:`load_plant` (round trip).
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant to write.
+
+    Returns
+    -------
+    str
+        The plant file text.
+    """
+    lines = [f"title = {_toml(plant.title)}", ""]
+    for mode in plant.modes:
+        lines += ["[[modes]]"]
+        if mode.label:
+            lines.append(f"label = {_toml(mode.label)}")
+        lines += [
+            f"freq_hz = {_toml(mode.freq_hz)}",
+            f"damping = {_toml(mode.damping)}",
+            f"modal_mass_kg = {_toml(mode.modal_mass_kg)}",
+            "",
+        ]
+    lines.append("[sites]")
+    lines += [f"{_key(name)} = {_toml(row)}" for name, row in plant.sites.items()]
+    lines.append("")
+    for group in ("actuators", "sensors", "pairs", "outputs", "disturbances"):
+        for item in getattr(plant, group):
+            lines.append(f"[[{group}]]")
+            for key, value in item.__dict__.items():
+                if (
+                    value is None
+                    or (key == "cost" and value == 0.0)
+                    or (key == "noise_density" and value == 0.0)
+                ):
+                    continue
+                lines.append(f"{key} = {_toml(value)}")
+            lines.append("")
+    req = plant.requirements
+    entries = [
+        (k, getattr(req, k))
+        for k in (
+            "modes",
+            "min_damping",
+            "sample_rate_hz",
+            "loop_delay_s",
+            "min_gain_margin_db",
+            "min_phase_margin_deg",
+        )
+    ]
+    entries = [(k, v) for k, v in entries if v not in (None, ())]
+    if entries or req.max_rms:
+        lines.append("[requirements]")
+        lines += [f"{k} = {_toml(v)}" for k, v in entries]
+        if req.max_rms:
+            limits = ", ".join(f"{_key(k)} = {_toml(v)}" for k, v in req.max_rms.items())
+            lines.append(f"max_rms = {{ {limits} }}")
+    return "\n".join(lines).rstrip() + "\n"
+
+
+def _key(name: str) -> str:
+    bare = name.replace("_", "").replace("-", "").isalnum() and name.isascii()
+    return name if bare else _toml(name)
+
+
+def _toml(value: Any) -> str:
+    if isinstance(value, str):
+        return '"' + value.replace("\\", "\\\\").replace('"', '\\"') + '"'
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, int | np.integer):
+        return str(int(value))
+    if isinstance(value, float | np.floating):
+        return repr(float(value))
+    if isinstance(value, np.ndarray):
+        return _toml(value.tolist())
+    if isinstance(value, list | tuple):
+        return "[" + ", ".join(_toml(v) for v in value) + "]"
+    raise TypeError(f"cannot write {value!r} to TOML")

@@ -1,0 +1,454 @@
+"""The HTML design report: one self-contained file (images embedded, no network needed).
+
+The report is built from the JSON forms of the stages (plant check, sizing, design,
+assessment, export) and from PNG images, so it depends only on those documented keys and never
+recomputes anything. :func:`render_report` returns the HTML text; writing it is the caller's
+job (see ``dampctl report``).
+"""
+
+from __future__ import annotations
+
+import base64
+import html
+import math
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+from dampctl import __version__
+from dampctl.analysis.assess_json import robustness_lines
+
+__all__ = ["ReportInputs", "render_report"]
+
+SAFETY_TEXT = (
+    "An active loop that is unstable on hardware can damage the structure, and piezo amplifiers "
+    "run at hazardous voltage. These results are model predictions. Close the loop on hardware "
+    "with limited gain first and ramp the gain up while watching the response; keep hardware "
+    "limits (current, voltage, stroke) and an emergency stop within reach; follow the local "
+    "electrical-safety codes and your lab's procedures."
+)
+
+_STYLE = """
+body { font-family: system-ui, -apple-system, "Segoe UI", sans-serif; margin: 2em auto;
+       max-width: 1100px; color: #1d1d1f; line-height: 1.45; padding: 0 1em; }
+h1 { font-size: 1.7em; margin-bottom: 0.1em; }
+h2 { border-bottom: 1px solid #bbb; padding-bottom: 0.2em; margin-top: 1.8em; }
+table { border-collapse: collapse; margin: 0.6em 0 1em 0; font-size: 0.92em; }
+th, td { border: 1px solid #ccc; padding: 0.25em 0.6em; text-align: right; }
+th { background: #eef1f5; }
+td.text, th.text { text-align: left; }
+.caution { border: 2px solid #b35c00; background: #fff6ec; padding: 0.8em 1em; }
+.met { color: #116b2f; font-weight: 600; }
+.unmet { color: #a4161a; font-weight: 600; }
+.note { color: #555; font-size: 0.9em; }
+figure { display: inline-block; margin: 0.5em 1em 1em 0; }
+figure img { max-width: 520px; border: 1px solid #ddd; }
+figcaption { font-size: 0.88em; color: #444; }
+code { background: #f3f3f3; padding: 0 0.2em; }
+details { margin: 0.4em 0 1em 0; }
+summary { cursor: pointer; color: #333; }
+"""
+
+
+@dataclass(frozen=True)
+class ReportInputs:
+    """Everything a report shows, as the JSON forms of the stages plus images.
+
+    Parameters
+    ----------
+    check : mapping
+        Plant check (``dampctl check --json``).
+    design : mapping
+        Design file contents (:meth:`dampctl.design.Design.to_dict`).
+    assessment : mapping
+        Assessment (``dampctl assess --json``).
+    sizing : mapping, optional
+        Sizing result (``dampctl size --json``).
+    export : mapping, optional
+        Export summary (``dampctl export --json``).
+    figures : mapping of str to bytes, optional
+        Caption to PNG bytes, embedded in order.
+    title : str, optional
+        Report title; default from the plant.
+    """
+
+    check: Mapping[str, Any]
+    design: Mapping[str, Any]
+    assessment: Mapping[str, Any]
+    sizing: Mapping[str, Any] | None = None
+    export: Mapping[str, Any] | None = None
+    figures: Mapping[str, bytes] = field(default_factory=dict)
+    title: str = ""
+
+
+def render_report(inputs: ReportInputs) -> str:
+    """HTML text of the design report.
+
+    Parameters
+    ----------
+    inputs : ReportInputs
+        The stages' JSON forms and the images.
+
+    Returns
+    -------
+    str
+        A complete, self-contained HTML document.
+    """
+    plant_name = inputs.check.get("plant") or "plant"
+    title = inputs.title or f"Damping design report: {plant_name}"
+    parts = [
+        "<!DOCTYPE html>",
+        '<html lang="en"><head><meta charset="utf-8">',
+        f"<title>{_e(title)}</title><style>{_STYLE}</style></head><body>",
+        f"<h1>{_e(title)}</h1>",
+        f'<p class="note">dampctl {__version__} · plant fingerprint '
+        f"<code>{_e(inputs.check.get('fingerprint', ''))}</code> · law "
+        f"<b>{_e(str(inputs.design.get('law', '')).upper())}</b></p>",
+        f'<div class="caution"><b>Safety.</b> {_e(SAFETY_TEXT)}</div>',
+        _verdict(inputs.assessment),
+        _plant_section(inputs.check),
+    ]
+    if inputs.sizing:
+        parts.append(_sizing_section(inputs.sizing))
+    parts.append(_design_section(inputs.design))
+    parts.append(_assessment_section(inputs.assessment))
+    if inputs.export:
+        parts.append(_export_section(inputs.export))
+    if inputs.figures:
+        parts.append("<h2>Figures</h2>")
+        for caption, png in inputs.figures.items():
+            data = base64.b64encode(png).decode("ascii")
+            parts.append(f'<figure><img alt="{_e(caption)}" src="data:image/png;base64,{data}">'
+                         f"<figcaption>{_e(caption)}</figcaption></figure>")
+    parts.append("</body></html>")
+    return "\n".join(parts) + "\n"
+
+
+# ---------------------------------------------------------------------- sections
+def _verdict(assessment: Mapping[str, Any]) -> str:
+    reqs = assessment.get("requirements") or []
+    stable = assessment.get("stable")
+    unmet = [r for r in reqs if not r.get("met")]
+    if stable is False:
+        text = '<span class="unmet">The closed loop is UNSTABLE.</span>'
+    elif unmet:
+        names = ", ".join(str(r.get("name")) for r in unmet)
+        text = f'<span class="unmet">Requirements not met: {_e(names)}.</span>'
+    elif reqs:
+        text = '<span class="met">Every requirement of the plant file is met.</span>'
+    else:
+        text = "The plant file states no requirements."
+    return f"<h2>Verdict</h2><p>{text}</p>"
+
+
+def _plant_section(check: Mapping[str, Any]) -> str:
+    out = ["<h2>Plant</h2>"]
+    modes = check.get("modes", [])
+    out.append(f"<p>{len(modes)} modes; first natural frequency "
+               f"{_num(check.get('first_freq_hz'))} Hz.</p>")
+    out.append(_table(modes, [("mode", "Mode"), ("label", "Label", "text"),
+                              ("freq_hz", "Frequency (Hz)"), ("damping", "Damping ratio"),
+                              ("modal_mass", "Modal mass (kg)")]))
+    pairs = check.get("pairs", [])
+    if pairs:
+        out.append("<h3>Candidate pairs</h3><p class='note'>Participation: share of each mode's "
+                   "Hankel singular value.</p>")
+        n = len(modes)
+        unseen = set(check.get("unseen_modes", []))
+        if unseen:
+            out.append("<p class='note'>– : no pair sees the mode (response below 1e-3 of "
+                       "each pair's strongest mode), so its shares say nothing.</p>")
+        rows = []
+        for p in pairs:
+            row = {"pair": p.get("pair"), "kind": p.get("kind", ""),
+                   "collocated": p.get("collocated")}
+            for k, share in enumerate(p.get("participation", [])[:n]):
+                row[f"m{k + 1}"] = None if k + 1 in unseen else share
+            rows.append(row)
+        cols = [("pair", "Pair", "text"), ("kind", "Kind", "text"),
+                ("collocated", "Collocated", "text")]
+        cols += [(f"m{k + 1}", f"Mode {k + 1}") for k in range(n)]
+        out.append(_table(rows, cols))
+    out.append(_list("Warnings", check.get("warnings", [])))
+    return "\n".join(out)
+
+
+def _sizing_section(sizing: Mapping[str, Any]) -> str:
+    out = ["<h2>Sizing: how many pairs</h2>",
+           f"<p>Law {_e(str(sizing.get('law', '')).upper())}, target damping "
+           f"{_num(sizing.get('target_damping'))}.</p>"]
+    rows = [dict(r, chosen=", ".join(r.get("chosen", []))) for r in sizing.get("rows", [])]
+    out.append(_table(rows, [("pairs_used", "Pairs"), ("chosen", "Chosen", "text"),
+                             ("min_damping", "Smallest damping"), ("cost", "Cost"),
+                             ("method", "Search", "text")]))
+    pairs = sizing.get("recommended_pairs")
+    if pairs:
+        out.append(f"<p>Recommended: <b>{len(pairs)} pair(s), {_e(', '.join(pairs))}</b></p>")
+    else:
+        out.append('<p class="unmet">No pair count up to the limit meets the target.</p>')
+    if sizing.get("statement"):
+        out.append(f"<p>{_e(sizing['statement'])}</p>")
+    if sizing.get("rank_rule"):
+        out.append(f"<p class='note'>{_e(_plain(sizing['rank_rule']))}</p>")
+    return "\n".join(out)
+
+
+def _design_section(design: Mapping[str, Any]) -> str:
+    out = ["<h2>Design</h2>",
+           f"<p>Law <b>{_e(str(design.get('law', '')).upper())}</b> on pairs "
+           f"{_e(', '.join(design.get('pairs', [])) or '-')}; target modes "
+           f"{_e(', '.join(str(m) for m in design.get('target_modes', [])))}. "
+           f"Sign convention: <code>{_e(design.get('sign_convention', 'u = -K(s) y'))}</code>."
+           "</p>"]
+    loops = design.get("loops") or []
+    if loops:
+        rows = []
+        for lp in loops:
+            blocks = " + ".join(_branch_text(b) for b in lp.get("branches", []))
+            rows.append({"pair": lp.get("pair"), "actuator": lp.get("actuator"),
+                         "sensor": lp.get("sensor"), "gain": lp.get("gain"), "K": blocks})
+        out.append(_table(rows, [("pair", "Pair", "text"), ("actuator", "Actuator", "text"),
+                                 ("sensor", "Sensor", "text"), ("gain", "Law gain"),
+                                 ("K", "Controller K(s), physical units", "text")]))
+    elif design.get("controller"):
+        n = len(design["controller"].get("A", []))
+        out.append(f"<p>MIMO controller state space with {n} states "
+                   f"({len(design.get('sensors', []))} sensors in, "
+                   f"{len(design.get('actuators', []))} actuators out).</p>")
+    info = design.get("info") or {}
+    if info:
+        out.append(_design_summary(info))
+        out.append("<details><summary>All design facts (the design file's <code>info</code>)"
+                   f"</summary>{_mapping(info)}</details>")
+    return "\n".join(out)
+
+
+def _design_summary(info: Mapping[str, Any]) -> str:
+    """The tuning outcome in a sentence, with the design's warnings."""
+    parts = []
+    if info.get("tuning"):
+        parts.append(f"Tuning: {info['tuning']}.")
+    target, reached = info.get("target_damping"), info.get("target_reached")
+    smallest = info.get("min_damping")
+    if smallest is None and isinstance(info.get("closed_loop"), Mapping):
+        smallest = info["closed_loop"].get("target_damping_min")  # model-based designs
+    if target is not None:
+        state = {True: "reached", False: "NOT reached"}.get(reached, "")
+        parts.append(f"Target damping {_num(target)} {state}".rstrip() + ".")
+    if smallest is not None:
+        parts.append(f"Smallest damping on the target modes: {_num(smallest)}.")
+    if "stable" in info:
+        parts.append("Closed loop stable." if info["stable"] else "Closed loop UNSTABLE.")
+    text = f"<p>{_e(' '.join(parts))}</p>" if parts else ""
+    return text + _list("Design warnings", info.get("warnings") or [])
+
+
+def _assessment_section(assessment: Mapping[str, Any]) -> str:
+    out = ["<h2>Closed-loop modes</h2>",
+           f"<p>Closed loop {'stable' if assessment.get('stable') else 'UNSTABLE'}. Each "
+           "closed-loop pole is matched to its open-loop mode by assignment.</p>"]
+    out.append(_table(assessment.get("modes", []), [
+        ("mode", "Mode"), ("open_freq_hz", "Open freq (Hz)"), ("open_damping", "Open damping"),
+        ("closed_freq_hz", "Closed freq (Hz)"), ("closed_damping", "Closed damping"),
+        ("peak_reduction_db", "Peak reduction (dB)")]))
+    out.append("<h2>Stability margins</h2><p class='note'>Each loop broken at the plant input "
+               "with the others closed; delays exact in the frequency domain. Phase margin is "
+               "the phase lag that brings the loop to −180°.</p>")
+    out.append(_table(assessment.get("loops", []), [
+        ("pair", "Loop", "text"), ("gain_margin_db", "Gain margin (dB)"),
+        ("phase_margin_deg", "Phase margin (deg)"), ("delay_margin_s", "Delay margin (s)"),
+        ("crossover_hz", "Crossover (Hz)")]))
+    if assessment.get("robustness"):
+        out.append(_robustness_section(assessment["robustness"]))
+    for key, heading in (("rms", "Disturbance response (RMS)"), ("effort", "Actuator effort")):
+        if assessment.get(key):
+            out.append(f"<h2>{heading}</h2>")
+            out.append(_any(assessment[key]))
+    reqs = assessment.get("requirements") or []
+    out.append("<h2>Requirements</h2>")
+    if reqs:
+        rows = [dict(r, met_text="met" if r.get("met") else "NOT MET") for r in reqs]
+        out.append(_table(rows, [("name", "Requirement", "text"), ("required", "Required"),
+                                 ("achieved", "Achieved"), ("met_text", "Status", "status")]))
+    else:
+        out.append("<p>None stated in the plant file.</p>")
+    return "\n".join(out)
+
+
+def _robustness_section(robustness: Mapping[str, Any]) -> str:
+    """Robustness checks as plain lines (as ``dampctl assess`` prints them), then the values."""
+    out = ["<h2>Robustness</h2>"]
+    try:
+        lines = robustness_lines(dict(robustness))
+    except (KeyError, TypeError):  # an assessment file from another version: values only
+        lines = []
+    if lines:
+        shown = [line.replace("+-", "±").replace(" -> ", " → ") for line in lines]
+        out.append("<ul>" + "".join(f"<li>{_e(line)}</li>" for line in shown) + "</ul>")
+        out.append("<p class='note'>Drift: the natural frequencies scaled by up to ± the "
+                   "stated fraction (the corners of that box, and random cases inside it). Extra "
+                   "delay: the common delay, added to the stated loop delay, that makes the loop "
+                   "unstable (frequency domain, confirmed on the closed-loop poles). Roll-off: "
+                   "one first-order lag on every actuator (or every sensor) channel, its corner "
+                   "lowered until the loop goes unstable.</p>")
+        out.append(f"<details><summary>All robustness values</summary>{_any(robustness)}"
+                   "</details>")
+    else:
+        out.append(_any(robustness))
+    return "\n".join(out)
+
+
+def _export_section(export: Mapping[str, Any]) -> str:
+    fixed = export.get("fixed")
+    fixed_text = f", fixed point {_e(str(fixed))}" if fixed not in (None, "", "none") else ""
+    out = ["<h2>Discrete-time export</h2>",
+           f"<p>{_num(export.get('rate_hz'))} Hz, method {_e(str(export.get('method', '')))}"
+           f"{fixed_text}.</p>"]
+    loops = export.get("loops") or []
+    rows = [{"pair": lp.get("pair"), "gain": lp.get("gain"),
+             "sections": len(lp.get("sos") or [])} for lp in loops]
+    if rows:
+        out.append(_table(rows, [("pair", "Loop", "text"), ("gain", "Gain"),
+                                 ("sections", "Second-order sections")]))
+    verification = (export.get("verification") or {}).get("modes") or []
+    if verification:
+        out.append("<h3>Verified in discrete time</h3>")
+        out.append(_table(verification, [
+            ("mode", "Mode"),
+            ("continuous_damping", "Continuous damping (no sampling delay)"),
+            ("discrete_damping", "Sampled damping (hold + one sample)"),
+        ]))
+    files = export.get("files") or []
+    if files:
+        out.append(_list("Files", [str(f) for f in files]))
+    return "\n".join(out)
+
+
+# ---------------------------------------------------------------------- helpers
+def _branch_text(branch: Mapping[str, Any]) -> str:
+    text = _num(branch.get("gain"))
+    for sec in branch.get("sections", []):
+        text += f" · ({_poly(sec.get('num', []))})/({_poly(sec.get('den', []))})"
+    return text
+
+
+def _poly(coeffs: Sequence[float]) -> str:
+    n = len(coeffs) - 1
+    terms = []
+    for k, c in enumerate(coeffs):
+        power = n - k
+        if c == 0:
+            continue
+        s = "" if power == 0 else ("s" if power == 1 else f"s^{power}")
+        terms.append(f"{_num(c)}{(' ' + s) if s else ''}" if not (c == 1 and s) else s)
+    return " + ".join(terms) or "0"
+
+
+def _table(rows: Sequence[Mapping[str, Any]], columns: Sequence[tuple]) -> str:
+    if not rows:
+        return "<p>(none)</p>"
+    head = "".join(f'<th class="{c[2] if len(c) > 2 else ""}">{_e(c[1])}</th>' for c in columns)
+    body = []
+    for row in rows:
+        cells = []
+        for col in columns:
+            value = row.get(col[0])
+            kind = col[2] if len(col) > 2 else ""
+            if kind == "status":
+                cls = "met" if row.get("met") else "unmet"
+                cells.append(f'<td class="text {cls}">{_e(str(value))}</td>')
+            elif kind == "text":
+                cells.append(f'<td class="text">{_e(_plain(value))}</td>')
+            else:
+                cells.append(f"<td>{_e(_plain(value))}</td>")
+        body.append("<tr>" + "".join(cells) + "</tr>")
+    return f"<table><tr>{head}</tr>{''.join(body)}</table>"
+
+
+def _any(value: Any) -> str:
+    if isinstance(value, Mapping):
+        return _mapping(value)
+    if isinstance(value, list) and value and all(isinstance(v, Mapping) for v in value):
+        keys: list[str] = []
+        for v in value:
+            keys += [k for k in v if k not in keys and not isinstance(v[k], list | Mapping)]
+        return _table(value, [(k, _label(k), "text" if _is_text(value, k) else "")
+                              for k in keys])
+    return f"<p>{_e(_plain(value))}</p>"
+
+
+def _mapping(value: Mapping[str, Any]) -> str:
+    rows = []
+    for key, item in value.items():
+        if isinstance(item, Mapping | list) and item and _nested(item):
+            rows.append(f"<tr><th class='text'>{_e(_label(key))}</th>"
+                        f"<td class='text'>{_any(item)}</td></tr>")
+        else:
+            rows.append(f"<tr><th class='text'>{_e(_label(key))}</th>"
+                        f"<td class='text'>{_e(_plain(item))}</td></tr>")
+    return "<table>" + "".join(rows) + "</table>"
+
+
+#: unit suffixes of JSON keys and how a heading shows them
+_UNITS = {"s": "s", "hz": "Hz", "db": "dB", "deg": "deg", "n": "N", "m": "m", "kg": "kg",
+          "per_s": "1/s"}
+
+
+def _label(key: str) -> str:
+    """Heading for a JSON key: ``delay_margin_s`` -> ``delay margin (s)``, ``rms`` as is."""
+    for suffix in sorted(_UNITS, key=len, reverse=True):
+        if key.endswith("_" + suffix) and len(key) > len(suffix) + 1:
+            return f"{key[: -len(suffix) - 1].replace('_', ' ')} ({_UNITS[suffix]})"
+    return key.replace("_", " ")
+
+
+def _nested(item: Any) -> bool:
+    if isinstance(item, Mapping):
+        return True
+    return any(isinstance(v, Mapping | list) for v in item)
+
+
+def _is_text(rows: Sequence[Mapping[str, Any]], key: str) -> bool:
+    return any(isinstance(r.get(key), str) for r in rows)
+
+
+def _list(heading: str, items: Sequence[str]) -> str:
+    if not items:
+        return ""
+    return f"<h3>{_e(heading)}</h3><ul>" + "".join(f"<li>{_e(i)}</li>" for i in items) + "</ul>"
+
+
+def _plain(value: Any) -> str:
+    if value is None:
+        return "–"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, float):
+        return _num(value)
+    if isinstance(value, list | tuple):
+        if len(value) > 12 and all(isinstance(v, int | float) for v in value):
+            return f"[{len(value)} values]"
+        return ", ".join(_plain(v) for v in value)
+    return str(value)
+
+
+def _num(value: Any) -> str:
+    if value is None:
+        return "–"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if not isinstance(value, int | float):
+        return str(value)
+    if isinstance(value, float) and not math.isfinite(value):
+        return "∞" if value > 0 else ("−∞" if value < 0 else "NaN")
+    if value == 0:
+        return "0"
+    if isinstance(value, int):
+        return str(value)
+    if 1e4 <= abs(value) < 1e6:
+        return f"{value:.0f}"  # 20000 Hz, not 2e+04
+    return f"{value:.4g}"
+
+
+def _e(text: Any) -> str:
+    return html.escape(str(text), quote=True)

@@ -1,0 +1,392 @@
+"""Plant files: every bad input gives one line naming file, field and problem; round trip."""
+
+import io
+from pathlib import Path
+
+import numpy as np
+import pytest
+from repo import ROOT
+
+from dampctl.commands.cli import main
+from dampctl.errors import PlantError, PlantFileError
+from dampctl.model.plantfile import dump_plant, load_plant, parse_plant
+from dampctl.testing import assert_plant_allclose
+
+BASE = """\
+title = "three-mode test plant"
+
+[[modes]]
+label = "first"
+freq_hz = 100.0
+damping = 0.01
+
+[[modes]]
+freq_hz = 250.0
+damping = 0.02
+modal_mass_kg = 0.5
+
+[[modes]]
+freq_hz = 700.0
+damping = 0.005
+
+[sites]
+a = [1.0, 0.5, -0.2]
+b = [0.3, -0.8, 0.6]
+c = [0.0, 0.1, 0.9]
+
+[[actuators]]
+name = "coil"
+kind = "force"
+site = "a"
+max_force_n = 20.0
+
+[[actuators]]
+name = "pzt"
+kind = "strut"
+between = ["b", "c"]
+stiffness_n_per_m = 2e6
+
+[[sensors]]
+name = "vel"
+kind = "velocity"
+site = "a"
+
+[[sensors]]
+name = "load"
+kind = "force"
+actuator = "pzt"
+
+[[pairs]]
+name = "p1"
+actuator = "coil"
+sensor = "vel"
+
+[[pairs]]
+name = "p2"
+actuator = "pzt"
+sensor = "load"
+static_gain = -1.5e6
+
+[[outputs]]
+name = "tip"
+kind = "displacement"
+site = "c"
+
+[[disturbances]]
+name = "floor"
+site = "b"
+psd = [[1.0, 1e-3], [100.0, 1e-3], [1000.0, 1e-5]]
+
+[requirements]
+modes = [1, 2]
+min_damping = 0.05
+sample_rate_hz = 20000.0
+loop_delay_s = 5e-5
+min_gain_margin_db = 6.0
+min_phase_margin_deg = 35.0
+max_rms = { tip = 1e-8 }
+"""
+
+
+def replace(old: str, new: str, count: int = 1) -> str:
+    assert BASE.count(old) >= count, old
+    return BASE.replace(old, new, count)
+
+
+def replace_nth(old: str, new: str, n: int) -> str:
+    parts = BASE.split(old)
+    assert len(parts) > n, old
+    return old.join(parts[:n]) + new + old.join(parts[n:])
+
+
+# (id, text, field, words in the problem)
+BAD = [
+    (
+        "zero frequency",
+        replace("freq_hz = 100.0", "freq_hz = 0.0"),
+        "modes[1].freq_hz",
+        "must be > 0",
+    ),
+    (
+        "negative frequency",
+        replace("freq_hz = 250.0", "freq_hz = -250.0"),
+        "modes[2].freq_hz",
+        "must be > 0",
+    ),
+    (
+        "damping 1",
+        replace("damping = 0.005", "damping = 1.0"),
+        "modes[3].damping",
+        "must be in [0, 1)",
+    ),
+    (
+        "negative damping",
+        replace("damping = 0.005", "damping = -0.01"),
+        "modes[3].damping",
+        "must be in [0, 1)",
+    ),
+    (
+        "nan frequency",
+        replace("freq_hz = 700.0", "freq_hz = nan"),
+        "modes[3].freq_hz",
+        "must be finite",
+    ),
+    (
+        "inf damping",
+        replace("damping = 0.02", "damping = inf"),
+        "modes[2].damping",
+        "must be finite",
+    ),
+    (
+        "nan in shape",
+        replace("b = [0.3, -0.8, 0.6]", "b = [0.3, nan, 0.6]"),
+        "sites.b",
+        "value 2 is not finite",
+    ),
+    (
+        "short shape row",
+        replace("c = [0.0, 0.1, 0.9]", "c = [0.0, 0.1]"),
+        "sites.c",
+        "has 2 values but the plant has 3 modes",
+    ),
+    (
+        "text in shape",
+        replace("c = [0.0, 0.1, 0.9]", 'c = [0.0, "x", 0.9]'),
+        "sites.c",
+        "expected a list of numbers",
+    ),
+    (
+        "unknown site",
+        replace('site = "a"\nmax_force_n', 'site = "zz"\nmax_force_n'),
+        "actuators[1].site",
+        "unknown site 'zz'",
+    ),
+    (
+        "unknown strut site",
+        replace('between = ["b", "c"]', 'between = ["b", "q"]'),
+        "actuators[2].between[2]",
+        "unknown site 'q'",
+    ),
+    (
+        "unknown pair actuator",
+        replace('actuator = "coil"', 'actuator = "coil9"'),
+        "pairs[1].actuator",
+        "unknown actuator 'coil9'",
+    ),
+    (
+        "unknown pair sensor",
+        replace('sensor = "vel"', 'sensor = "velo"'),
+        "pairs[1].sensor",
+        "unknown sensor 'velo'",
+    ),
+    (
+        "unknown output site",
+        replace('site = "c"', 'site = "d"'),
+        "outputs[1].site",
+        "unknown site 'd'",
+    ),
+    (
+        "duplicate actuator",
+        replace('name = "pzt"', 'name = "coil"'),
+        "actuators[2].name",
+        "duplicate name 'coil'",
+    ),
+    (
+        "duplicate pair",
+        replace('name = "p2"', 'name = "p1"'),
+        "pairs[2].name",
+        "duplicate name 'p1'",
+    ),
+    (
+        "force sensor on a force actuator",
+        replace('actuator = "pzt"\n\n[[pairs]]', 'actuator = "coil"\n\n[[pairs]]'),
+        "sensors[2].actuator",
+        "force sensor needs a strut",
+    ),
+    (
+        "force sensor without actuator",
+        replace('actuator = "pzt"\n\n[[pairs]]', "\n[[pairs]]"),
+        "sensors[2].actuator",
+        "a force sensor needs actuator",
+    ),
+    (
+        "missing damping",
+        replace("damping = 0.02\n", ""),
+        "modes[2].damping",
+        "missing required key",
+    ),
+    (
+        "missing modes",
+        BASE.split("[sites]")[0].split("[[modes]]")[0]
+        + "[sites]"
+        + BASE.split("[sites]")[1].replace("[1.0, 0.5, -0.2]", "[1.0]"),
+        "modes",
+        "missing required key",
+    ),
+    (
+        "missing strut stiffness",
+        replace("stiffness_n_per_m = 2e6\n", ""),
+        "actuators[2].stiffness_n_per_m",
+        "a strut needs stiffness_n_per_m",
+    ),
+    (
+        "unknown mode key",
+        replace("freq_hz = 100.0", "freq_hz = 100.0\nfrequency = 100.0"),
+        "modes[1].frequency",
+        "unknown key",
+    ),
+    ("unknown top key", "colour = 3\n" + BASE, "colour", "unknown key"),
+    (
+        "unknown requirement key",
+        replace("min_damping = 0.05", "min_zeta = 0.05"),
+        "requirements.min_zeta",
+        "unknown key",
+    ),
+    (
+        "requirement on a missing mode",
+        replace("modes = [1, 2]", "modes = [1, 4]"),
+        "requirements.modes[2]",
+        "mode 4 does not exist",
+    ),
+    (
+        "max_rms of unknown output",
+        replace("max_rms = { tip = 1e-8 }", "max_rms = { top = 1e-8 }"),
+        "requirements.max_rms.top",
+        "unknown output 'top'",
+    ),
+    (
+        "bad psd table",
+        replace("[1000.0, 1e-5]", "[50.0, 1e-5]"),
+        "disturbances[1].psd",
+        "increasing",
+    ),
+    (
+        "static gain on a velocity pair",
+        replace('sensor = "vel"', 'sensor = "vel"\nstatic_gain = 1.0'),
+        "pairs[1].static_gain",
+        "static_gain applies to displacement-like or force",
+    ),
+    (
+        "unknown actuator kind",
+        replace('kind = "strut"', 'kind = "piezo"'),
+        "actuators[2].kind",
+        "kind must be one of force, strut",
+    ),
+    ("wrong type", replace('name = "vel"', "name = 3"), "sensors[1].name", "expected a string"),
+]
+
+
+@pytest.mark.parametrize(
+    ("text", "field", "problem"), [b[1:] for b in BAD], ids=[b[0] for b in BAD]
+)
+def test_bad_plant_file(tmp_path: Path, text: str, field: str, problem: str):
+    path = tmp_path / "bad.toml"
+    path.write_text(text, encoding="utf-8")
+    before = sorted(p.name for p in tmp_path.iterdir())
+    # the library names file, field and problem: "<file>: <field>: <problem>"
+    with pytest.raises(PlantError) as caught:
+        load_plant(path)
+    message = str(caught.value)
+    assert message.startswith(f"{path}: {field}: "), message
+    assert problem in message
+    assert caught.value.field == field
+    # the command line prints exactly that one line and exits 2, no traceback
+    out, err = io.StringIO(), io.StringIO()
+    assert main(["check", str(path)], stdout=out, stderr=err) == 2
+    lines = err.getvalue().splitlines()
+    assert lines == [f"dampctl check: error: {message}"]
+    assert "Traceback" not in err.getvalue()
+    assert out.getvalue() == ""
+    assert sorted(p.name for p in tmp_path.iterdir()) == before
+
+
+def test_not_toml(tmp_path: Path):
+    path = tmp_path / "notes.toml"
+    path.write_text("this is [not toml\n", encoding="utf-8")
+    with pytest.raises(PlantFileError, match=r"notes\.toml: not valid TOML"):
+        load_plant(path)
+    err = io.StringIO()
+    assert main(["check", str(path)], stdout=io.StringIO(), stderr=err) == 2
+    assert len(err.getvalue().splitlines()) == 1
+    assert "not valid TOML" in err.getvalue()
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["notes.toml"]
+
+
+def test_missing_file(tmp_path: Path):
+    path = tmp_path / "absent.toml"
+    with pytest.raises(PlantFileError, match="cannot read the plant file"):
+        load_plant(path)
+    err = io.StringIO()
+    assert main(["check", str(path)], stdout=io.StringIO(), stderr=err) == 2
+    assert len(err.getvalue().splitlines()) == 1
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_binary_file(tmp_path: Path):
+    path = tmp_path / "blob.toml"
+    path.write_bytes(b"\xff\xfe\x00garbage")
+    with pytest.raises(PlantFileError, match="not a text"):
+        load_plant(path)
+
+
+def test_base_file_is_valid_and_read_as_written(tmp_path: Path):
+    plant = parse_plant(BASE, source="base.toml")
+    assert plant.title == "three-mode test plant"
+    assert [m.freq_hz for m in plant.modes] == [100.0, 250.0, 700.0]
+    assert plant.modes[1].modal_mass_kg == 0.5
+    assert plant.modes[0].label == "first"
+    assert plant.actuator("pzt").between == ("b", "c")
+    assert plant.pair("p2").static_gain == -1.5e6
+    assert plant.requirements.modes == (1, 2)
+    assert dict(plant.requirements.max_rms) == {"tip": 1e-8}
+    np.testing.assert_array_equal(plant.sites["b"], [0.3, -0.8, 0.6])
+    psd = plant.disturbance("floor").psd_at(np.array([10.0, 100.0, 2000.0]))
+    np.testing.assert_allclose(psd, [1e-3, 1e-3, 0.0])
+
+
+def test_round_trip(tmp_path: Path):
+    plant = parse_plant(BASE)
+    text = dump_plant(plant)
+    path = tmp_path / "again.toml"
+    path.write_text(text, encoding="utf-8")
+    again = load_plant(path)
+    assert again.fingerprint == plant.fingerprint
+    assert again.requirements == plant.requirements
+    assert again.outputs == plant.outputs
+    np.testing.assert_array_equal(again.disturbances[0].psd, plant.disturbances[0].psd)
+    assert_plant_allclose(again, plant, rtol=1e-15)
+    assert dump_plant(again) == text
+
+
+@pytest.mark.parametrize("name", ["scanning_stage", "light_truss", "oscillator"])
+def test_example_plants_round_trip(name: str):
+    root = ROOT
+    plant = load_plant(root / "plants" / f"{name}.toml")
+    again = parse_plant(dump_plant(plant))
+    assert again.fingerprint == plant.fingerprint
+    assert_plant_allclose(again, plant, rtol=1e-15)
+
+
+def readme_section() -> str:
+    text = (ROOT / "README.md").read_text(encoding="utf-8")
+    start = text.index("## The plant file")
+    return text[start : text.index("\n## ", start + 1)]
+
+
+def test_readme_documents_every_key():
+    from dampctl.model import plantfile
+
+    section = readme_section()
+    keys = set(plantfile._TOP_KEYS) | set(plantfile._REQUIREMENT_KEYS)
+    for required, optional in plantfile._KEYS.values():
+        keys |= required | optional
+    missing = sorted(k for k in keys if f"`{k}`" not in section and f"[{k}]" not in section)
+    assert not missing, f"README 'The plant file' does not document: {missing}"
+
+
+def test_readme_example_is_a_valid_plant():
+    section = readme_section()
+    example = section.split("```toml\n", 1)[1].split("```", 1)[0]
+    plant = parse_plant(example, source="README example")
+    assert plant.n_modes == 1
+    assert plant.omegas[0] == pytest.approx(200.0, rel=1e-12)

@@ -1,0 +1,159 @@
+"""The HTML report: self-contained, shows the stages' tables, renders in a real browser."""
+
+from __future__ import annotations
+
+import html
+import io
+import re
+import shutil
+import subprocess
+
+import pytest
+from repo import ROOT
+
+from dampctl.report.html import ReportInputs, render_report
+
+
+def _png() -> bytes:
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    fig, ax = plt.subplots(figsize=(2, 1.5))
+    ax.plot([0, 1], [0, 1])
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png")
+    plt.close(fig)
+    return buf.getvalue()
+
+
+def _inputs(met: bool = True) -> ReportInputs:
+    check = {"plant": "test stage", "fingerprint": "abc", "first_freq_hz": 100.0,
+             "modes": [{"mode": 1, "label": "x", "freq_hz": 100.0, "damping": 0.01,
+                        "modal_mass": 1.0}],
+             "pairs": [{"pair": "p1", "collocated": True, "kind": "force/velocity",
+                        "participation": [1.0]}],
+             "warnings": ["a warning"]}
+    design = {"law": "dvf", "pairs": ["p1"], "target_modes": [1],
+              "loops": [{"pair": "p1", "actuator": "f", "sensor": "v", "gain": 5.0,
+                         "branches": [{"gain": 5.0, "sections": [{"num": [1.0],
+                                                                  "den": [1e-4, 1.0]}]}]}]}
+    assessment = {"stable": True,
+                  "modes": [{"mode": 1, "open_freq_hz": 100.0, "open_damping": 0.01,
+                             "closed_freq_hz": 99.0, "closed_damping": 0.08,
+                             "peak_reduction_db": 18.0}],
+                  "loops": [{"pair": "p1", "gain_margin_db": 12.0, "phase_margin_deg": 80.0,
+                             "delay_margin_s": 1e-3, "crossover_hz": 120.0}],
+                  "requirements": [{"name": "min_damping", "required": 0.05,
+                                    "achieved": 0.08 if met else 0.03, "met": met}]}
+    return ReportInputs(check=check, design=design, assessment=assessment,
+                        figures={"a figure": _png()})
+
+
+def test_report_is_self_contained_and_has_the_tables():
+    text = render_report(_inputs())
+    assert text.startswith("<!DOCTYPE html>")
+    assert "Closed-loop modes" in text and "Stability margins" in text
+    assert "Safety." in text and "emergency stop" in text
+    assert 'src="data:image/png;base64,' in text
+    # nothing is fetched from elsewhere
+    assert not re.search(r'(src|href)="(https?:)?//', text)
+    assert "Every requirement of the plant file is met" in text
+
+
+def test_report_shows_a_missed_requirement():
+    text = render_report(_inputs(met=False))
+    assert "Requirements not met: min_damping" in text
+    assert "NOT MET" in text
+
+
+def _chromium() -> str | None:
+    for name in ("chromium", "chromium-browser", "google-chrome"):
+        path = shutil.which(name)
+        if path:
+            return path
+    return None
+
+
+@pytest.mark.skipif(_chromium() is None, reason="no Chromium installed to render the report")
+def test_report_renders_in_headless_chromium(tmp_path):
+    probe = ("<script>window.addEventListener('load', function () {"
+             "var imgs = document.images, ok = 0;"
+             "for (var i = 0; i < imgs.length; i++) {"
+             " if (imgs[i].complete && imgs[i].naturalWidth > 0) ok++; }"
+             "document.body.setAttribute('data-images', ok + '/' + imgs.length); });</script>")
+    text = render_report(_inputs()).replace("</body>", probe + "</body>")
+    page = tmp_path / "report.html"
+    page.write_text(text, encoding="utf-8")
+    result = subprocess.run(
+        [_chromium(), "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
+         "--no-first-run", "--disable-background-networking", "--disable-component-update",
+         "--disable-sync", f"--user-data-dir={tmp_path / 'profile'}",
+         "--virtual-time-budget=5000", "--dump-dom", page.as_uri()],
+        capture_output=True, text=True, timeout=120,
+    )
+    match = re.search(r'data-images="(\d+)/(\d+)"', result.stdout)
+    assert match, result.stderr[-2000:]
+    loaded, total = int(match.group(1)), int(match.group(2))
+    assert total >= 1 and loaded == total
+
+
+def test_unseen_mode_shares_are_not_shown():
+    inputs = _inputs()
+    check = dict(inputs.check, unseen_modes=[1])
+    check["pairs"] = [dict(check["pairs"][0], participation=[0.4321])]
+    text = render_report(ReportInputs(check=check, design=inputs.design,
+                                      assessment=inputs.assessment, figures={}))
+    assert "no pair sees the mode" in text and "0.4321" not in text
+
+
+def test_export_rate_is_printed_plainly():
+    inputs = _inputs()
+    text = render_report(ReportInputs(check=inputs.check, design=inputs.design,
+                                      assessment=inputs.assessment, figures={},
+                                      export={"rate_hz": 20000.0, "method": "tustin"}))
+    assert "20000 Hz, method tustin" in text and "2e+04" not in text
+
+
+def test_json_key_headings_show_units():
+    from dampctl.report.html import _label
+
+    assert _label("delay_margin_s") == "delay margin (s)"
+    assert _label("min_stable_hz") == "min stable (Hz)"
+    assert _label("reduction_db") == "reduction (dB)"
+    assert _label("max_real_per_s") == "max real (1/s)"
+    assert _label("rms") == "rms" and _label("cases") == "cases"
+
+
+def test_export_without_fixed_point_does_not_say_none():
+    inputs = _inputs()
+    text = render_report(ReportInputs(check=inputs.check, design=inputs.design,
+                                      assessment=inputs.assessment, figures={},
+                                      export={"rate_hz": 1000.0, "method": "zoh",
+                                              "fixed": "none"}))
+    assert "method zoh." in text and "fixed point none" not in text
+
+
+def test_robustness_and_design_read_as_sentences_with_all_values_kept():
+    # from a real assessment: the robustness lines are those `dampctl assess` prints (one
+    # formatter), the design's outcome is a sentence, and every value stays in <details>
+
+    import dampctl
+    from dampctl.analysis.assess_json import robustness_lines
+    from dampctl.laws import dvf
+
+    plant = dampctl.load_plant(ROOT / "plants" / "oscillator.toml")
+    design = dvf.design(plant, [plant.pairs[0].name])
+    assessment = dampctl.assess(plant, design).to_dict()
+    inputs = _inputs()
+    text = render_report(
+        ReportInputs(check=inputs.check, design=design.to_dict(), assessment=assessment)
+    )
+    for line in robustness_lines(assessment["robustness"]):
+        shown = line.replace("+-", "±").replace(" -> ", " → ")
+        assert f"<li>{html.escape(shown)}</li>" in text
+    assert "extra delay to instability:" in text
+    assert "<summary>All robustness values</summary>" in text
+    assert "Smallest damping on the target modes:" in text
+    assert "<summary>All design facts" in text
