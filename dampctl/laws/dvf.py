@@ -6,7 +6,8 @@ Law
     damper between the actuator's points. In the sign convention of :mod:`dampctl.design`
     (u = −K(s) y) the controller is K(s) = +g: a positive gain damps, since the generalized
     force on mode i is −g b_i c_i q_i' with b_i c_i > 0 for a collocated pair. On one mode of
-    modal mass m it adds exactly g/(2 m ω_n) to the damping ratio (REFERENCES §2).
+    modal mass m it adds exactly g/(2 m ω_n) to the damping ratio (Balas, J. Guidance and Control
+    2(3), 1979; from memory).
 
 Sensors
     A velocity sensor (``velocity`` / ``relative_velocity``) is used as is. A displacement

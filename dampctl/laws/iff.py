@@ -22,16 +22,16 @@ Gain normalization
     (m/N per second).
 
 Achievable damping
-    With the same g on every loop the closed loop above holds with b bᵀ summed over the struts,
-    and for mode i with open-loop pole ω_i and zero z_i (natural frequency of the structure with
-    the struts removed, z_i < ω_i) the single-mode model gives the maximum modal damping
-    ξ_i,max = (ω_i − z_i)/(2 z_i) at g_i = ω_i √(ω_i/z_i) (Preumont, *Vibration Control of
-    Active Structures*, 3rd ed. 2011, IFF; from memory; REFERENCES §3). The zeros are the
-    transmission zeros of the loops, eig(A − B D⁻¹ C) (the strut force has the feedthrough
-    D = −k_s), matched to the modes in order of frequency (removing stiffness lowers every
-    natural frequency, Courant–Fischer). These values are reported per target mode; the search
-    starts from them and refines the gains on the full model (all modes, leak, delay,
-    roll-offs), loop by loop.
+    With the same g on every loop the closed loop above holds with b bᵀ summed over the struts, and
+    for mode i with open-loop pole ω_i and zero z_i (natural frequency of the structure with the
+    struts removed, z_i < ω_i) the single-mode model gives the maximum modal damping ξ_i,max = (ω_i
+    − z_i)/(2 z_i) at g_i = ω_i √(ω_i/z_i) (Preumont, *Vibration Control of Active Structures*, 3rd
+    ed. 2011, IFF, from memory; Preumont, Dufour & Malekian, J. Guidance, Control, and Dynamics
+    15(2), 1992). The zeros are the transmission zeros of the loops, eig(A − B D⁻¹ C) (the strut
+    force has the feedthrough D = −k_s), matched to the modes in order of frequency (removing
+    stiffness lowers every natural frequency, Courant–Fischer). These values are reported per target
+    mode; the search starts from them and refines the gains on the full model (all modes, leak,
+    delay, roll-offs), loop by loop.
 """
 
 from __future__ import annotations

@@ -15,24 +15,24 @@ Tuning rule (named): equal damping by pole coalescence
 
         ω_f = ω √(1 + 4ζ_c²),   ζ_f = 2ζ_c / √(1 + 4ζ_c²),   g = 4ζ_c² / (1 + 4ζ_c²) (< 1)
 
-    (derived for dampctl, REFERENCES §4; the PPF analogue of the equal-damping tuned-mass
-    damper). Every loop gets one filter per target mode it sees; a mode seen by several loops
-    shares its g among them in proportion to each pair's residue, k_ki = g ω_i² r_ik / Σ_k r_ik²,
-    so Σ_k k_ki r_ik = g ω_i² (the single-mode derivation holds for the sum). With a target
-    damping the rule is applied at ζ_c = target and ζ_c is raised until the full model (all
-    modes, delay, roll-offs) reaches it; without one, ζ_c is scanned for the largest smallest
-    closed-loop damping, up to ζ_c = ``MAX_RULE_DAMPING`` (0.5, g = 0.5) and a DC loop gain of
-    at most ``MAX_DC_LOOP_GAIN`` (0.5): the static stiffness the loops see at most halves, a
-    static margin of 2 (our choice; 1 is the stability limit).
+    (derived for dampctl by matching to (s² + 2ζ_c ω s + ω²)²; the PPF analogue of the equal-damping
+    tuned-mass damper). Every loop gets one filter per target mode it sees; a mode seen by several
+    loops shares its g among them in proportion to each pair's residue, k_ki = g ω_i² r_ik / Σ_k
+    r_ik², so Σ_k k_ki r_ik = g ω_i² (the single-mode derivation holds for the sum). With a target
+    damping the rule is applied at ζ_c = target and ζ_c is raised until the full model (all modes,
+    delay, roll-offs) reaches it; without one, ζ_c is scanned for the largest smallest closed-loop
+    damping, up to ζ_c = ``MAX_RULE_DAMPING`` (0.5, g = 0.5) and a DC loop gain of at most
+    ``MAX_DC_LOOP_GAIN`` (0.5): the static stiffness the loops see at most halves, a static margin
+    of 2 (our choice; 1 is the stability limit).
 
 Static stability condition (enforced)
-    A single PPF loop on one mode is stable for every 0 ≤ g < 1 and unstable for g > 1, any
-    damping (Routh–Hurwitz on the polynomial above; REFERENCES §4 [derived]). In general the
-    positive-feedback loop of a collocated (negative-imaginary) plant with PPF filters is stable
-    iff the DC loop gain satisfies λ_max(G(0) K₊(0)) < 1, with K₊(0) = diag(Σ_i k_ki) the
-    filters' DC gains (negative-imaginary systems: Lanzon & Petersen, *IEEE TAC* 53(4), 2008,
-    and Moheimani, Vautier & Bhikkaji, *IEEE TCST* 14(3), 2006 — stated from memory). A tuned
-    design never breaks it; a target whose rule design breaks it is refused with
+    A single PPF loop on one mode is stable for every 0 ≤ g < 1 and unstable for g > 1, any damping
+    (Routh–Hurwitz on the polynomial above; agrees with Fanson & Caughey, AIAA J. 28(4), 1990, from
+    memory). In general the positive-feedback loop of a collocated (negative-imaginary) plant with
+    PPF filters is stable iff the DC loop gain satisfies λ_max(G(0) K₊(0)) < 1, with K₊(0) =
+    diag(Σ_i k_ki) the filters' DC gains (negative-imaginary systems: Lanzon & Petersen, *IEEE TAC*
+    53(4), 2008, and Moheimani, Vautier & Bhikkaji, *IEEE TCST* 14(3), 2006 — stated from memory). A
+    tuned design never breaks it; a target whose rule design breaks it is refused with
     :class:`~dampctl.errors.DesignRefused`; an explicit ``gain`` that breaks it is built and
     reported unstable.
 """

@@ -24,7 +24,7 @@ per set and one stacked eigenvalue call. Otherwise each matrix is built with
 **Low-gain estimate.** To first order in γ the pole of mode i moves by
 dλ_i = −γ Σ_p κ_p K_p(λ_i) R_ip, with R_ip the residue of the pair's transfer function at the
 open-loop pole λ_i (Preumont, *Vibration Control of Active Structures*, collocated control;
-for ideal velocity feedback this is ζ_i ≈ ζ_i0 + g φ_i(a)²/(2ω_i), REFERENCES §2). The damping
+for ideal velocity feedback this is ζ_i ≈ ζ_i0 + g φ_i(a)²/(2ω_i); Balas 1979). The damping
 slopes are additive over loops, so every set is ranked by them at no eigenvalue cost.
 
 **Mode identity.** Closed-loop poles are matched to the plant's modes by minimum total

@@ -33,7 +33,7 @@ def _dvf(plant, gains, pairs):
 
 def test_mode_matching_keeps_identity_for_modes_0_1_percent_apart():
     # Two modes 0.1 % apart; only mode 2 is seen by the pair, so mode 1 must keep its open-loop
-    # pole exactly and mode 2 gets ζ₂ + g/(2ω₂) (decoupled SDOF, REFERENCES §2). Sorting the
+    # pole exactly and mode 2 gets ζ₂ + g/(2ω₂) (decoupled SDOF, Balas 1979). Sorting the
     # closed-loop poles by imaginary part would swap the rows (mode 2 is damped below mode 1).
     f1 = 100.0
     plant = ModalPlant(
@@ -68,8 +68,8 @@ def _sdof_with_requirements(**req):
 
 
 def test_peak_reduction_sdof_closed_form():
-    # Displacement peak amplification 1/(2ζ√(1−ζ²)) (Rao, Mechanical Vibrations, 2017;
-    # REFERENCES §1); DVF raises ζ from 0.01 to 0.1 (§2), so the peak drops by
+    # Displacement peak amplification 1/(2ζ√(1−ζ²)) (Rao, Mechanical Vibrations, 2017, from
+    # memory); DVF raises ζ from 0.01 to 0.1 (Balas 1979), so the peak drops by
     # 20 log10[ζ_cl√(1−ζ_cl²) / (ζ√(1−ζ²))].
     plant = _sdof_with_requirements()
     a = assess(plant, _dvf(plant, [72.0], ["fv"]), delay_s=0.0, samples=0)
@@ -160,7 +160,8 @@ def test_iff_strut_closed_loop_poles_preumont_example():
     # Active strut (k_a = 0.2) between ground and m₁ in series with a force sensor, IFF
     # δ = g F/(k_a s), i.e. u = −K y with K = −g/(k_a s). 2-DOF example m₁ = m₂ = 1, k_p = 1,
     # k₂ = 1 at g = 0.7: poles −0.016407 ± 1.656364j, −0.020987 ± 0.638446j, −0.625211
-    # (Preumont, Dufour & Malekian, J. Guidance 15(2), 1992; values computed in REFERENCES §3).
+    # (Preumont, Dufour & Malekian, J. Guidance 15(2), 1992; values computed from their closed
+    # forms).
     # The force sensor's feedthrough (−k_a from δ) is in the loop.
     ka, g = 0.2, 0.7
     Mm = np.eye(2)
@@ -215,7 +216,7 @@ def test_iff_strut_closed_loop_poles_preumont_example():
 
 def test_balas_spillover_reported_by_assess_for_a_mimo_form_controller():
     # Observer-based controller on mode 1 destabilizes the residual mode 2 (Balas, "Feedback
-    # control of flexible systems", IEEE TAC 1978; poles computed in REFERENCES §8): the
+    # control of flexible systems", IEEE TAC 1978; poles computed with numpy): the
     # assessment must call the loop unstable and flag mode 2 as spillover.
     plant = ModalPlant(
         modes=[Mode(1 / (2 * np.pi), 0.005), Mode(3 / (2 * np.pi), 0.005)],
@@ -239,7 +240,8 @@ def test_balas_spillover_reported_by_assess_for_a_mimo_form_controller():
     assert not a.stable and a.max_real == pytest.approx(0.35873, abs=2e-5)
     (spill,) = a.robustness.spillover
     assert spill.mode == 2 and spill.unstable and spill.lost_damping
-    p1 = -0.70583 + 0.86409j  # the pole that mode 1 becomes (REFERENCES §8)
+    # the pole that mode 1 becomes (Balas 1978 example, computed with numpy)
+    p1 = -0.70583 + 0.86409j
     assert a.modes[0].closed_damping == pytest.approx(-p1.real / abs(p1), abs=2e-5)
     assert not a.all_met
 

@@ -40,8 +40,8 @@ def dvf(plant, pair: str, gain: float) -> Design:
 
 
 def test_sdof_direct_velocity_feedback():
-    # Balas 1979 / REFERENCES §2: m ẍ + (c+g) ẋ + k x = 0; m = 2, k = 8e4, c = 8, g = 72 gives
-    # poles −20 ± 198.997487j and ζ = 0.01 + 72/(2·2·200) = 0.1.
+    # Balas, J. Guidance and Control 2(3), 1979 (from memory): m ẍ + (c+g) ẋ + k x = 0; m = 2, k =
+    # 8e4, c = 8, g = 72 gives poles −20 ± 198.997487j and ζ = 0.01 + 72/(2·2·200) = 0.1.
     plant = sdof_plant(2.0, 8e4, 8.0)
     modes = closed_loop_modes(plant, dvf(plant, "fv", 72.0), delay_s=0.0, roll_off=False)
     assert modes.poles[0] == pytest.approx(-20 + 198.997487j, abs=1e-6)
@@ -112,7 +112,7 @@ def test_series_matrices_order():
 
 def test_sampling_delay():
     # ZOH lags ωT/2 and one sample of computation ωT: 1.5 T (Franklin, Powell & Workman,
-    # Digital Control of Dynamic Systems, 1998; REFERENCES §10)
+    # Digital Control of Dynamic Systems, 1998, from memory)
     assert sampling_delay_s(20000.0) == pytest.approx(7.5e-5, rel=1e-15)
     assert sampling_delay_s(None) == 0.0
     plant = ModalPlant(
@@ -142,7 +142,7 @@ def test_match_modes_keeps_identity_of_near_repeated_modes():
         sensors=[Sensor(name="v", kind="velocity", site="a")],
         pairs=[Pair(name="p", actuator="f", sensor="v")],
     )
-    gain = 2 * 0.05 * plant.omegas[0]  # Δζ = g φ²/(2ω) = 0.05 (REFERENCES §2)
+    gain = 2 * 0.05 * plant.omegas[0]  # Δζ = g φ²/(2ω) = 0.05 (Balas 1979)
     modes = closed_loop_modes(plant, dvf(plant, "p", gain), delay_s=0.0, roll_off=False)
     assert modes.damping[0] == pytest.approx(0.055, rel=1e-9)
     assert modes.damping[1] == pytest.approx(0.005, rel=1e-9)

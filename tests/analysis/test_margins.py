@@ -1,4 +1,5 @@
-"""Loop margins against python-control and published delay-margin values (REFERENCES §12)."""
+"""Loop margins against python-control and published delay-margin values (Åström & Murray, Feedback
+Systems, 2008)."""
 
 import warnings
 from dataclasses import replace
@@ -47,8 +48,8 @@ def _dvf(plant, pairs, gain):
 
 
 def test_integrator_delay_margin_reference_value():
-    # L = ω_c/s, ω_c = 2π·100: PM = 90°, DM = (π/2)/ω_c = 2.5 ms (Åström & Murray, Feedback
-    # Systems, 2008, frequency-domain robustness; value from REFERENCES §12, computed).
+    # L = ω_c/s, ω_c = 2π·100: PM = 90°, DM = (π/2)/ω_c = 2.5 ms (Åström & Murray, Feedback Systems,
+    # 2008, frequency-domain robustness; value computed from the closed form).
     wc = 2 * np.pi * 100
     m = siso_margins(_loop(lambda s: wc / s), GRID)
     assert m.phase_margin_deg == pytest.approx(90.0, abs=1e-9)
@@ -80,7 +81,7 @@ def test_undamped_pole_is_not_a_phase_crossover():
 
 def test_second_order_loop_reference_values():
     # L = 2ω²/(s(s+2ω)), ω = 2π·100: ω_c = 571.8828 rad/s, PM = 65.5302°, DM = 1.99992 ms
-    # (Åström & Murray 2008; values computed in REFERENCES §12).
+    # (Åström & Murray 2008; values computed from the closed form).
     w = 2 * np.pi * 100
     m = siso_margins(_loop(lambda s: 2 * w**2 / (s * (s + 2 * w))), GRID)
     assert 2 * np.pi * m.crossover_hz == pytest.approx(571.8828, rel=1e-6)

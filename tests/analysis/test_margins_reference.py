@@ -1,4 +1,5 @@
-"""Margins against closed forms and python-control (REFERENCES §12), loop-at-a-time vs feedback."""
+"""Margins against closed forms and python-control (Åström & Murray 2008), loop-at-a-time vs
+feedback."""
 
 import control
 import numpy as np
@@ -23,7 +24,7 @@ def second_order(f):
 
 def test_integrator_loop():
     # K. J. Åström & R. M. Murray, Feedback Systems (2008), frequency-domain robustness (from
-    # memory); REFERENCES §12: L = ω_c/s, ω_c = 2π·100 → PM = 90°, DM = (π/2)/ω_c = 2.5 ms.
+    # memory): L = ω_c/s, ω_c = 2π·100 → PM = 90°, DM = (π/2)/ω_c = 2.5 ms.
     m = siso_margins(integrator, GRID, name="int")
     assert m.phase_margin_deg == pytest.approx(90.0, rel=1e-9)
     assert m.delay_margin_s == pytest.approx(2.5e-3, rel=1e-9)
@@ -33,7 +34,7 @@ def test_integrator_loop():
 
 
 def test_second_order_loop_and_delay_insertion():
-    # REFERENCES §12: L = 2ω²/(s(s+2ω)), ω = 2π·100: ω_c = 571.8828 rad/s, PM = 65.5302°,
+    # Closed form: L = 2ω²/(s(s+2ω)), ω = 2π·100: ω_c = 571.8828 rad/s, PM = 65.5302°,
     # DM = 1.99992 ms; inserting e^{−s·DM} puts the loop phase at −180° at ω_c.
     m = siso_margins(second_order, GRID)
     assert 2 * np.pi * m.crossover_hz == pytest.approx(571.8828, rel=1e-6)

@@ -65,7 +65,7 @@ def test_drift_cases_corners_subset_and_seeded_samples():
 
 def test_drift_worst_damping_sdof_closed_form():
     # DVF on an SDOF: ζ_cl = ζ + g/(2 m ω) (Preumont, Vibration Control of Active Structures;
-    # REFERENCES §2). Drift keeps the structure's damping ratio ζ, so the worst case over
+    # Balas 1979). Drift keeps the structure's damping ratio ζ, so the worst case over
     # ω(1 ± δ) is the stiffest: ζ + g/(2 m ω (1 + δ)).
     m_kg, k, c, g = 2.0, 8e4, 8.0, 72.0
     plant = sdof_plant(m_kg, k, c)
@@ -104,7 +104,7 @@ def test_balas_spillover_example_poles():
     # Observer-based control designed on mode 1 of ω = 1, 3 rad/s (ζ = 0.005), actuator shape
     # (1, b₂ = 1), displacement sensor shape (1, c₂ = −1): the residual mode is destabilized,
     # poles +0.35873 ± 2.67885j, −2.6679 ± 2.97006j, −0.70583 ± 0.86409j (Balas, "Feedback
-    # control of flexible systems", IEEE TAC 1978; values computed in REFERENCES §8).
+    # control of flexible systems", IEEE TAC 1978; values computed with numpy).
     plant = ModalPlant(
         modes=[Mode(1 / (2 * np.pi), 0.005), Mode(3 / (2 * np.pi), 0.005)],
         sites={"a": [1.0, 1.0], "s": [1.0, -1.0]},

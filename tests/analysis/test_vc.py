@@ -1,4 +1,5 @@
-"""VC curves and one-third-octave bands against the published criterion table (REFERENCES §9)."""
+"""VC curves and one-third-octave bands against the published criterion table (Gordon, Proc. SPIE
+1619, 1991; IEST-RP-CC012)."""
 
 import numpy as np
 import pytest

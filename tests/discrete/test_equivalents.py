@@ -1,10 +1,10 @@
 """Discretization into second-order sections, checked against closed forms and libraries.
 
-References: G. F. Franklin, J. D. Powell, M. L. Workman, *Digital Control of Dynamic Systems*
-(3rd ed. 1998), discrete equivalents (ZOH maps poles z = e^{pT}; Tustin warps frequency as
-ω_d = (2/T) atan(ω_a T/2); prewarping makes the responses equal at ω₀) [from memory]; worked
-numbers from REFERENCES.md §10 [computed there]; python-control ``sample_system`` and
-scipy ``cont2discrete`` / ``sosfilt`` / ``dlsim`` compute the same things another way.
+References: G. F. Franklin, J. D. Powell, M. L. Workman, *Digital Control of Dynamic Systems* (3rd
+ed. 1998), discrete equivalents (ZOH maps poles z = e^{pT}; Tustin warps frequency as ω_d = (2/T)
+atan(ω_a T/2); prewarping makes the responses equal at ω₀) [from memory]; the worked numbers are
+computed from those formulas; python-control ``sample_system`` and scipy ``cont2discrete`` /
+``sosfilt`` / ``dlsim`` compute the same things another way.
 """
 
 from __future__ import annotations
@@ -39,8 +39,8 @@ def _freqs_damping(z):
 
 
 def test_plain_tustin_warps_1khz_resonance_to_968_922_hz():
-    # Franklin, Powell & Workman (1998), Tustin warping ω_d = (2/T) atan(ω_a T/2);
-    # REFERENCES §10: 1 kHz at 10 kHz -> 968.922 Hz, |z| = 0.99429749
+    # Franklin, Powell & Workman (1998), Tustin warping ω_d = (2/T) atan(ω_a T/2); Tustin warping
+    # (Franklin, Powell & Workman 1998): 1 kHz at 10 kHz -> 968.922 Hz, |z| = 0.99429749
     warped = 2 / T * np.arctan(W0 * T / 2) / (2 * np.pi)
     assert warped == pytest.approx(968.922, abs=1e-3)
     loop = discretize(resonance_design(), RATE, prewarp="none").loops[0]
@@ -49,7 +49,7 @@ def test_plain_tustin_warps_1khz_resonance_to_968_922_hz():
     # undamped pole angle maps exactly through the warping relation
     undamped = discretize(resonance_design(damping=0.0), RATE, prewarp="none").loops[0]
     assert np.angle(_pole(undamped)) * RATE / (2 * np.pi) == pytest.approx(warped, rel=1e-9)
-    # FRF peak at 968.83 Hz (REFERENCES §10, 1e-3 Hz grid)
+    # FRF peak at 968.83 Hz (computed from the warping formula, 1e-3 Hz grid)
     f = np.arange(968.0, 970.0, 1e-3)
     peak = f[np.argmax(np.abs(loop.cascade.response(f, RATE)))]
     assert peak == pytest.approx(968.83, abs=2e-3)
@@ -64,7 +64,8 @@ def test_prewarped_tustin_equals_continuous_at_the_prewarp_frequency():
         k_d = loop.cascade.response(np.array([1000.0]), RATE)[0]
         k_c = design.loops[0].response(np.array([1000.0]))[0]
         assert k_d == pytest.approx(k_c, rel=1e-10)
-    # REFERENCES §10: equivalent pole 1000.006 Hz, damping 0.009355, peak 50.003 at 999.906 Hz
+    # prewarped Tustin (Franklin, Powell & Workman 1998), computed: equivalent pole 1000.006 Hz,
+    # damping 0.009355, peak 50.003 at 999.906 Hz
     f_eq, zeta_eq = _freqs_damping(_pole(loop))
     assert f_eq == pytest.approx(1000.006, abs=1e-3)
     assert zeta_eq == pytest.approx(0.009355, abs=1e-6)
@@ -88,7 +89,8 @@ def test_auto_prewarp_is_exact_at_each_branch_centre_frequency():
 
 
 def test_zoh_poles_are_exp_of_pole_times_t():
-    # REFERENCES §10: z = 0.80396808 ± 0.58407841j, |z| = 0.99373651, same as exp(pT) to 1e-12
+    # ZOH maps poles as z = e^{pT} (Franklin, Powell & Workman 1998): z = 0.80396808 ± 0.58407841j,
+    # |z| = 0.99373651, same as exp(pT) to 1e-12
     loop = discretize(resonance_design(), RATE, method="zoh").loops[0]
     p = -0.01 * W0 + 1j * W0 * np.sqrt(1 - 0.01**2)
     z = _pole(loop)

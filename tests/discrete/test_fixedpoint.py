@@ -2,9 +2,9 @@
 
 References: A. V. Oppenheim & R. W. Schafer, *Discrete-Time Signal Processing* (3rd ed. 2010),
 coefficient quantization and pole sensitivity of direct vs cascade forms [from memory]; the
-worked numbers (f₀ = 100 Hz, ζ = 0.01, f_s = 10 kHz; the 4th-order counter-example) are from
-REFERENCES.md §11 [computed there]; scipy ``sosfilt`` is the independent reference for the
-integer routine.
+worked numbers (f₀ = 100 Hz, ζ = 0.01, f_s = 10 kHz; the 4th-order counter-example) are
+computed from their pole-sensitivity formulas; scipy ``sosfilt`` is the independent reference
+for the integer routine.
 """
 
 from __future__ import annotations
@@ -58,7 +58,8 @@ def test_q31_rounding_example_of_references_11():
 
 
 def test_fourth_order_direct_form_goes_unstable_while_biquads_stay_stable():
-    # REFERENCES §11: poles at 100 and 110 Hz, ζ = 0.01, f_s = 10 kHz
+    # direct form vs sections (Oppenheim & Schafer 2010), computed: poles at 100 and 110 Hz, ζ =
+    # 0.01, f_s = 10 kHz
     d1, d2 = _denominator(100.0, 0.01), _denominator(110.0, 0.01)
     den = np.polymul([1.0, *d1], [1.0, *d2])
     np.testing.assert_allclose(

@@ -1,10 +1,10 @@
 """Sampled closed loop: ZOH plant, one sample of computation delay, discrete controller.
 
 References: G. F. Franklin, J. D. Powell, M. L. Workman, *Digital Control of Dynamic Systems*
-(3rd ed. 1998), sampled-data loops and the ZOH + one-sample lag 1.5 ωT [from memory];
-REFERENCES.md §10 worked numbers; python-control ``sample_system`` + ``feedback`` compute the
-sampled loop another way; the continuous limit is the closed-form damping of velocity feedback
-on a single-degree-of-freedom oscillator, ζ_cl = ζ + g/(2 m ω_n) (REFERENCES §2).
+(3rd ed. 1998), sampled-data loops and the ZOH + one-sample lag 1.5 ωT [from memory], worked
+numbers computed from them; python-control ``sample_system`` + ``feedback`` compute the sampled
+loop another way; the continuous limit is the closed-form damping of velocity feedback
+on a single-degree-of-freedom oscillator, ζ_cl = ζ + g/(2 m ω_n) (Balas 1979).
 """
 
 from __future__ import annotations
@@ -26,7 +26,8 @@ from dampctl.testing import chain_plant, sdof_plant
 
 
 def test_phase_lost_is_one_and_a_half_samples():
-    # REFERENCES §10: 500 Hz at 10 kHz -> 27.0°; 540°/N for N samples per crossover period
+    # ZOH + one sample lag 1.5 ωT (Franklin, Powell & Workman 1998): 500 Hz at 10 kHz -> 27.0°;
+    # 540°/N for N samples per crossover period
     assert phase_lost_deg(500.0, 10e3) == pytest.approx(27.0, abs=1e-9)
     for n, deg in ((10, 54.0), (20, 27.0), (40, 13.5)):
         assert phase_lost_deg(1.0, float(n)) == pytest.approx(deg, abs=1e-9)

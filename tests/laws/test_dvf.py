@@ -1,4 +1,5 @@
-"""Direct velocity feedback against closed forms (REFERENCES §2) and python-control."""
+"""Direct velocity feedback against closed forms (Balas, J. Guidance and Control 2(3), 1979;
+Preumont 2011) and python-control."""
 
 import control
 import numpy as np
@@ -55,9 +56,9 @@ def test_sdof_target_tuning_inverts_the_closed_form():
 
 
 def test_low_gain_slopes_of_two_mass_chain():
-    # REFERENCES §2: m1 = 1, m2 = 0.5 kg, k1 = 5e5, k2 = 2e5 N/m, DVF at m1:
-    # dζ_i/dg = φ_i(1)²/(2 ω_i) = 2.7715e-4 and 3.9357e-4 per N·s/m (first-order
-    # perturbation; Preumont 2011, from memory).
+    # low-gain slopes ζ_i + g φ_i²/(2ω_i) (Preumont 2011, from memory): m1 = 1, m2 = 0.5 kg, k1 =
+    # 5e5, k2 = 2e5 N/m, DVF at m1: dζ_i/dg = φ_i(1)²/(2 ω_i) = 2.7715e-4 and 3.9357e-4 per N·s/m
+    # (first-order perturbation; Preumont 2011, from memory).
     plant = chain_plant([1.0, 0.5], [5e5, 2e5])
     design = dvf.design(plant, ["p1"], gain=1.0)
     damping = closed_loop_modes(plant, design).damping
@@ -65,7 +66,7 @@ def test_low_gain_slopes_of_two_mass_chain():
 
 
 def test_equal_chain_coalesces_at_zeta_half_for_gamma_two():
-    # Derived closed form (REFERENCES §2, palindromic characteristic polynomial
+    # Derived closed form (derived for dampctl from the palindromic characteristic polynomial
     # σ⁴ + γσ³ + 3σ² + γσ + 1): at γ = g/√(km) = 2 both modes have ω = √(k/m), ζ = 0.5.
     m, k = 1.0, 1.0e4
     plant = chain_plant([m, m], [k, k])

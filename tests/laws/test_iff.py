@@ -1,4 +1,5 @@
-"""Integral force feedback against Preumont's closed forms (REFERENCES §3)."""
+"""Integral force feedback against Preumont's closed forms (Preumont, Dufour & Malekian, J.
+Guidance, Control, and Dynamics 15(2), 1992)."""
 
 import numpy as np
 import pytest
@@ -21,7 +22,7 @@ def _one_mode(omega, zero):
 def test_single_mode_maximum_damping(omega, zero):
     # Preumont, Dufour & Malekian, J. Guidance Control Dyn. 15(2) 1992 / Preumont, Vibration
     # Control of Active Structures, 3rd ed. 2011 (from memory): ξ_max = (ω − z)/(2z) at
-    # g = ω √(ω/z); exact for the single-mode model (REFERENCES §3 [computed]).
+    # g = ω √(ω/z); exact for the single-mode model (checked numerically).
     plant = _one_mode(omega, zero)
     xi_max = (omega - zero) / (2 * zero)
     g_opt = omega * np.sqrt(omega / zero)
@@ -36,7 +37,7 @@ def test_single_mode_maximum_damping(omega, zero):
 
 
 def test_two_dof_example():
-    # REFERENCES §3 2-DOF example (Preumont's set-up, dimensionless): poles 0.658642,
+    # 2-DOF example (Preumont's set-up, dimensionless): poles 0.658642,
     # 1.663187; zeros 0.618034, 1.618034; formula ξ_max 0.032853 / 0.013953 at g 0.67994 /
     # 1.68623; exact maxima 0.032879 / 0.013964; closed-loop eigenvalues at g = 0.7.
     plant = strut_plant()

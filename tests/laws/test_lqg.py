@@ -30,7 +30,8 @@ def _zeta(poles):
 # w_cl = (w^4 + q1/r)^(1/4), zeta_cl = sqrt(2(w_cl² − w²) + q2/r) / (2 w_cl); q1 = 0 gives
 # zeta_cl = sqrt(q2/r)/(2w). H. Kwakernaak & R. Sivan, Linear Optimal Control Systems, 1972,
 # and B. D. O. Anderson & J. B. Moore, Optimal Control: Linear Quadratic Methods, 1990 (from
-# memory; the formula was worked out for REFERENCES §6 and is checked here with control.lqr).
+# memory; the formula was derived for dampctl from the 2×2 Riccati equation and is checked here
+# with control.lqr).
 # Table values at w = 1, r = 1 (normalized, as the solver loses accuracy in SI units).
 @pytest.mark.parametrize(
     ("q1", "q2", "gain", "w_cl", "zeta_cl"),
@@ -106,7 +107,7 @@ def test_single_mode_design_reaches_any_target(freq_hz, zeta, target, mass):
 def test_sdof_design_meets_target_and_separation_holds():
     # Design model = full plant, no delay: the closed-loop poles are the regulator poles and
     # the estimator poles (separation principle; Kwakernaak & Sivan 1972, from memory).
-    plant = sdof_plant(2.0, 8.0e4, 8.0)  # REFERENCES §1 oscillator, zeta 0.01
+    plant = sdof_plant(2.0, 8.0e4, 8.0)  # Rao 2017 oscillator, zeta 0.01
     design = lqg.design(plant, ["f"], ["v"], target_damping=0.2, delay_s=0.0)
     A, B, C, D = plant.statespace_matrices(["f"], ["v"])
     Ac, Bc, Cc, _ = design.controller
@@ -267,7 +268,7 @@ def _edge(stable, outside, inside, steps=40):
 
 # J. C. Doyle, "Guaranteed margins for LQG regulators", IEEE TAC 23(4):756–757, 1978: the
 # example and f = 2 + sqrt(4 + q), d = 2 + sqrt(4 + sigma); the upper limit 1 + 1/(f d) is from
-# the a0 coefficient of the closed-loop quartic (derived for REFERENCES §6), the lower ends
+# the a0 coefficient of the closed-loop quartic (derived for dampctl), the lower ends
 # from a fine scan there.
 @pytest.mark.parametrize(
     ("q", "lower", "upper_table"),
@@ -299,7 +300,7 @@ def test_doyle_margin_shrinks_as_weights_grow():
 
 # ---------------------------------------------------------------------- non-collocated chain
 def _noncollocated_chain() -> ModalPlant:
-    # REFERENCES §2 chain ground–k1–m1–k2–m2, m = 1, 0.5 kg, k = 5e5, 2e5 N/m; force at m1,
+    # two-mass chain ground–k1–m1–k2–m2, m = 1, 0.5 kg, k = 5e5, 2e5 N/m; force at m1,
     # velocity sensor at m2.
     M, Kmat = chain_matrices([1.0, 0.5], [5e5, 2e5])
     return ModalPlant.from_lumped(
@@ -317,7 +318,7 @@ def test_noncollocated_chain_is_damped_stably():
     plant = _noncollocated_chain()
     survey = survey_plant(plant)
     assert not survey.pairs[0].collocated
-    np.testing.assert_allclose(plant.omegas, [479.420, 932.822], rtol=1e-5)  # REFERENCES §2
+    np.testing.assert_allclose(plant.omegas, [479.420, 932.822], rtol=1e-5)  # computed with eigh
     design = lqg.design(plant, [], [], pairs=["nc"], target_damping=0.1, delay_s=0.0)
     assert design.pairs == ("nc",)
     info = design.info

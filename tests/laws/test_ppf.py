@@ -1,4 +1,5 @@
-"""Positive position feedback: static stability and the equal-damping rule (REFERENCES §4)."""
+"""Positive position feedback: static stability and the equal-damping rule (Fanson & Caughey
+1990)."""
 
 import numpy as np
 import pytest
@@ -17,7 +18,7 @@ def _mode(damping):
 
 
 def test_reference_stability_check():
-    # REFERENCES §4 [computed]: ω = 2π·100, ζ = 0.01, ζ_f = 0.196116, ω_f = 1.019804 ω:
+    # computed: ω = 2π·100, ζ = 0.01, ζ_f = 0.196116, ω_f = 1.019804 ω:
     # max Re(λ) = −18.03 (g = 0.99), 0.0 (g = 1.00), +14.00 (g = 1.01).
     plant = _mode(0.01)
     for g, expected in ((0.99, -18.03), (1.01, 14.00)):
@@ -32,7 +33,7 @@ def test_reference_stability_check():
 @pytest.mark.parametrize("rule", [0.05, 0.2, 0.45])
 def test_single_loop_stable_below_one_unstable_above(damping, rule):
     # Routh–Hurwitz on (s² + 2ζωs + ω²)(s² + 2ζ_f ω_f s + ω_f²) − g ω² ω_f²: only the constant
-    # term ω²ω_f²(1 − g) changes sign (REFERENCES §4 [derived]; Fanson & Caughey 1990, from
+    # term ω²ω_f²(1 − g) changes sign (Routh–Hurwitz; Fanson & Caughey 1990, from
     # memory), for any damping and filter.
     plant = _mode(damping)
     below = ppf.design(plant, ["fx"], gain=0.999, target_damping=rule, delay_s=0.0)
@@ -53,7 +54,7 @@ def test_single_loop_stable_below_one_unstable_above(damping, rule):
     ],
 )
 def test_equal_damping_rule_table(zeta_c, ratio, zeta_f, g):
-    # REFERENCES §4 table [derived by matching to (s² + 2ζ_c ω s + ω²)²]: on an undamped
+    # equal-damping rule [derived for dampctl by matching to (s² + 2ζ_c ω s + ω²)²]: on an undamped
     # mode all four closed-loop poles have damping ζ_c (repeated: compare sorted values).
     w_f, z_f, gain = ppf.equal_damping_rule(W, zeta_c)
     assert (w_f / W, z_f, gain) == pytest.approx((ratio, zeta_f, g), rel=2e-5)
@@ -70,7 +71,7 @@ def test_equal_damping_rule_table(zeta_c, ratio, zeta_f, g):
 
 
 def test_rule_with_structural_damping():
-    # REFERENCES §4: ζ = 0.01 with the ζ_c = 0.1 settings → ζ = 0.10185 and 0.10825 at
+    # computed: ζ = 0.01 with the ζ_c = 0.1 settings → ζ = 0.10185 and 0.10825 at
     # 1.0317 ω and 0.9693 ω.
     plant = _mode(0.01)
     design = ppf.design(

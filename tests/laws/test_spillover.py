@@ -14,7 +14,7 @@ from dampctl.laws.spillover import check_on_plant
 # ---------------------------------------------------------------------- spillover (Balas 1978)
 def _balas_plant(c2: float) -> ModalPlant:
     # Modes w = 1, 3 rad/s, zeta 0.005; actuator shape [1, 1], displacement sensor [1, c2]
-    # (REFERENCES §8 example with b2 = 1).
+    # (Balas 1978 example with b2 = 1, computed).
     return ModalPlant(
         modes=[
             Mode(freq_hz=1.0 / (2 * np.pi), damping=0.005),
@@ -50,7 +50,7 @@ def _balas_design(plant: ModalPlant) -> Design:
 
 
 # M. J. Balas, "Feedback control of flexible systems", IEEE TAC 23(4):673–679, 1978 (from
-# memory); worked numbers of REFERENCES §8.
+# memory); worked numbers computed with numpy.
 def test_spillover_example_reproduces_unstable_residual_pole():
     plant = _balas_plant(-1.0)
     design = _balas_design(plant)

@@ -16,7 +16,7 @@ from dampctl.testing import chain_matrices, chain_plant, sdof_plant
 # --------------------------------------------------------------------------- SDOF closed forms
 # S. S. Rao, Mechanical Vibrations (6th ed., 2017), free damped and harmonically excited
 # vibration (from memory); worked values m = 2 kg, k = 8e4 N/m, c = 8 N·s/m computed in
-# REFERENCES §1.
+# (Rao, Mechanical Vibrations, 6th ed. 2017, from memory).
 M_KG, K_N_M, C_NS_M = 2.0, 8.0e4, 8.0
 
 
@@ -66,9 +66,9 @@ def test_sdof_velocity_and_acceleration(sdof):
     assert sdof.frf([1e6], ["f"], ["a"])[0, 0, 0].real == pytest.approx(1 / M_KG, rel=1e-6)
 
 
-# --------------------------------------------------------------------------- 3-DOF chain
-# M, K of REFERENCES §8 (computed example for Miu 1991): M = diag(1, 2, 1.5) kg,
-# K = [[3e4, −1e4, 0], [−1e4, 3e4, −2e4], [0, −2e4, 2e4]] N/m = chain k = (2e4, 1e4, 2e4).
+# --------------------------------------------------------------------------- 3-DOF chain M, K of a
+# computed example for Miu, ASME J. Dyn. Syst. Meas. Control 113(3), 1991: M = diag(1, 2, 1.5) kg, K
+# = [[3e4, −1e4, 0], [−1e4, 3e4, −2e4], [0, −2e4, 2e4]] N/m = chain k = (2e4, 1e4, 2e4).
 CHAIN_M = [1.0, 2.0, 1.5]
 CHAIN_K = [2e4, 1e4, 2e4]
 
@@ -80,7 +80,7 @@ def test_chain_matrices_match_reference():
 
 
 def test_chain_poles_reference_values():
-    # REFERENCES §8: poles 41.6541, 150.3634, 184.3614 rad/s (printed to 4 decimals)
+    # eigh: poles 41.6541, 150.3634, 184.3614 rad/s (printed to 4 decimals)
     plant = chain_plant(CHAIN_M, CHAIN_K)
     np.testing.assert_allclose(plant.omegas, [41.6541, 150.3634, 184.3614], atol=5e-5)
 
@@ -121,7 +121,7 @@ def test_non_proportional_damping_is_refused():
 
 
 # --------------------------------------------------------------------------- strut physics
-# 2-DOF example of REFERENCES §3 (Preumont, Vibration Control of Active Structures, 2011,
+# 2-DOF example (Preumont, Vibration Control of Active Structures, 2011,
 # integral force feedback; from memory): m1 = m2 = 1, flexure k_p = 1 (ground–m1), strut
 # k_a = 0.2 (ground–m1), k2 = 1 (m1–m2). Poles 0.658642, 1.663187; zeros (strut removed)
 # 0.618034, 1.618034.
@@ -170,7 +170,7 @@ def test_strut_and_force_sensor_match_lumped_model():
 
 def test_strut_force_zeros_are_frequencies_without_strut():
     # IFF zeros = natural frequencies of the structure with the strut removed (Preumont 2011,
-    # from memory; values REFERENCES §3): 0.618034 and 1.618034 rad/s (golden ratio).
+    # from memory; values computed with eigh): 0.618034 and 1.618034 rad/s (golden ratio).
     plant, M, _, K_star, _, _ = strut_plant()
     zeros = np.asarray(plant.statespace(["s"], ["F"]).zeros())
     assert np.max(np.abs(zeros.real)) < 1e-9
@@ -312,7 +312,7 @@ def test_statespace_is_balanced_modal_form_with_names():
 
 # --------------------------------------------------------------------------- pole-zero alternation
 def test_collocated_zeros_reference_example():
-    # REFERENCES §8 (computed example for Miu 1991): zeros of the collocated pair at each dof
+    # computed example for Miu 1991: zeros of the collocated pair at each dof
     plant = chain_plant(CHAIN_M, CHAIN_K)
     expected = {1: [50.8884, 160.4484], 2: [115.4701, 173.2051], 3: [110.4185, 181.1291]}
     for dof, zeros_ref in expected.items():

@@ -21,11 +21,11 @@ def one_mode(freq_hz: float, zeta: float, b: float, c: float, kind: str) -> Moda
 
 @pytest.mark.parametrize("kind", ["velocity", "displacement", "acceleration"])
 def test_hsv_approximation_against_slycot(kind):
-    # W. K. Gawronski, Dynamics and Control of Structures: A Modal Approach (1998), balanced
-    # modal gramians (from memory): γ ≈ |b||c̃|/(4ζω) for a lightly damped mode, c̃ the output
-    # row on the balanced states. REFERENCES §7: ω = 2π·50, ζ = 0.01 gives 1/(4ζω) = 0.0795775
-    # exactly for the velocity output; approximation error ≈ ζ otherwise. Reference: Hankel
-    # singular values from python-control hsvd (slycot ab13ad).
+    # W. K. Gawronski, Dynamics and Control of Structures: A Modal Approach (1998), balanced modal
+    # gramians (from memory): γ ≈ |b||c̃|/(4ζω) for a lightly damped mode, c̃ the output row on the
+    # balanced states. (Gawronski, Dynamics and Control of Structures, 1998): ω = 2π·50, ζ = 0.01
+    # gives 1/(4ζω) = 0.0795775 exactly for the velocity output; approximation error ≈ ζ otherwise.
+    # Reference: Hankel singular values from python-control hsvd (slycot ab13ad).
     zeta = 0.01
     plant = one_mode(50.0, zeta, 0.8, 1.5, kind)
     ours = survey_plant(plant).pairs[0].hsv[0]
@@ -36,7 +36,8 @@ def test_hsv_approximation_against_slycot(kind):
     assert ours == pytest.approx(np.sqrt(hsv[0] * hsv[1]), rel=2 * zeta)
     assert hsv.max() == pytest.approx(ours, rel=2 * zeta)
     if kind == "displacement":
-        # REFERENCES §7: 0.8·1.5/(s² + 2ζωs + ω²) has HSVs 3.0702e-4 and 3.0094e-4, and the
+        # Gawronski 1998 approximation, values from slycot: 0.8·1.5/(s² + 2ζωs + ω²) has HSVs
+        # 3.0702e-4 and 3.0094e-4, and the
         # approximation b·c/(4ζω²) = 3.0396e-4
         np.testing.assert_allclose(np.sort(hsv)[::-1], [3.0702e-4, 3.0094e-4], atol=1e-8)
         assert ours == pytest.approx(3.0396e-4, abs=1e-8)

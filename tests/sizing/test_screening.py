@@ -63,7 +63,7 @@ def test_fast_matching_agrees_with_assignment_on_near_repeated_modes():
 
 def test_tuned_equal_chain_reaches_coalescence_damping():
     # Equal two-mass chain, DVF at m1: both modes coalesce at ζ = 0.5 for g = 2√(km), which
-    # maximizes the smallest damping (REFERENCES §2, derived from the palindromic
+    # maximizes the smallest damping (derived for dampctl from the palindromic
     # characteristic polynomial; DVF root locus, Preumont 2011).
     m, k = 1.0, 1e4
     plant = chain_plant([m, m], [k, k])
