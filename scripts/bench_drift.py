@@ -61,9 +61,9 @@ def main(n_modes: int = 40, n_pairs: int = 4, samples: int = 40) -> None:
         return worst
 
     t_ours, t_ct, result, worst = compare_times(ours, theirs, ROUNDS)
-    gap = abs(worst - result.max_real) / abs(worst)
+    gap = abs(worst - result.max_real_part) / abs(worst)
     if gap > 1e-6:
-        raise SystemExit(f"largest real parts disagree: {result.max_real!r} vs {worst!r}")
+        raise SystemExit(f"largest real parts disagree: {result.max_real_part!r} vs {worst!r}")
     print(
         f"{len(cases)} drift cases, {2 * n_modes} plant states, {n_pairs} loops; best of "
         f"{ROUNDS}: dampctl {t_ours:.3f} s (with mode matching), python-control feedback+poles "

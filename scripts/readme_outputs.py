@@ -65,7 +65,7 @@ def main_script() -> None:
     commands = {
         "check": ["check", plant],
         "size": ["size", plant],
-        "tune": ["tune", plant, "--law", "dvf", "--pairs", "vx1,vy2", "-o", "design.json"],
+        "tune": ["tune", plant, "--law", "dvf", "--pairs", "vx1,vy1", "-o", "design.json"],
         "assess": ["assess", plant, "design.json", "--plots", "plots"],
         "export": ["export", plant, "design.json", "--fixed", "q15", "-o", "export"],
     }

@@ -156,7 +156,7 @@ def assessment_dict(a) -> dict[str, Any]:
         "plant": a.plant_title,
         "law": a.law,
         "stable": bool(a.stable),
-        "max_real_part": _num(a.max_real),
+        "max_real_part": _num(a.max_real_part),
         "delay": {
             "delay_s": a.delay_s,
             "frequency_domain": "exact exp(-j w T)",
@@ -197,7 +197,7 @@ def assessment_dict(a) -> dict[str, Any]:
                 "corners": r.drift.n_corners,
                 "all_corners": r.drift.all_corners,
                 "unstable_cases": r.drift.unstable_cases,
-                "max_real_part": _num(r.drift.max_real),
+                "max_real_part": _num(r.drift.max_real_part),
                 "worst_damping": [
                     {"mode": m, "damping": _num(v)} for m, v in r.drift.worst_damping.items()
                 ],

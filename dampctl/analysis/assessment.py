@@ -207,7 +207,7 @@ class Assessment:
         For reports.
     stable : bool
         All closed-loop poles in the open left half plane (nominal, with delay and roll-offs).
-    max_real : float
+    max_real_part : float
         Largest closed-loop real part (1/s).
     delay_s : float
         Loop delay used (s).
@@ -236,7 +236,7 @@ class Assessment:
     plant_title: str
     law: str
     stable: bool
-    max_real: float
+    max_real_part: float
     delay_s: float
     pade_sections: int
     roll_off: bool
@@ -379,7 +379,7 @@ def assess(
         plant_title=plant.title,
         law=design.law,
         stable=matched.stable,
-        max_real=matched.max_real,
+        max_real_part=matched.max_real_part,
         delay_s=delay,
         pade_sections=delay_sections(delay, omega_ref),
         roll_off=bool(roll_off),

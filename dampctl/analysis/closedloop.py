@@ -328,7 +328,7 @@ class MatchedModes:
         half plane and real axis only.
     stable : bool
         True when every closed-loop pole has a negative real part.
-    max_real : float
+    max_real_part : float
         Largest real part (1/s) of any closed-loop pole.
     """
 
@@ -337,7 +337,7 @@ class MatchedModes:
     damping: np.ndarray
     other_poles: np.ndarray
     stable: bool
-    max_real: float
+    max_real_part: float
 
 
 def match_modes(open_poles: np.ndarray, closed_poles: np.ndarray) -> MatchedModes:
@@ -369,14 +369,14 @@ def match_modes(open_poles: np.ndarray, closed_poles: np.ndarray) -> MatchedMode
     chosen[rows] = candidates[cols]
     rest = np.delete(candidates, cols)
     omega, damping = modal_damping(chosen)
-    max_real = float(np.max(closed.real)) if closed.size else -np.inf
+    max_real_part = float(np.max(closed.real)) if closed.size else -np.inf
     return MatchedModes(
         poles=chosen,
         freq_hz=omega / (2.0 * np.pi),
         damping=damping,
         other_poles=rest[np.argsort(np.abs(rest))],
-        stable=bool(max_real < 0.0),
-        max_real=max_real,
+        stable=bool(max_real_part < 0.0),
+        max_real_part=max_real_part,
     )
 
 

@@ -87,7 +87,7 @@ class ClosedLoopTable:
         plane and real axis, by increasing magnitude.
     stable : bool
         Every closed-loop pole in the open left half plane.
-    max_real : float
+    max_real_part : float
         Largest real part of any closed-loop pole (1/s).
     delay_s : float
         Loop delay (s) included (cascade of [2/2] Padé sections).
@@ -103,7 +103,7 @@ class ClosedLoopTable:
     rows: tuple[ModeRow, ...]
     controller_poles: tuple[complex, ...]
     stable: bool
-    max_real: float
+    max_real_part: float
     delay_s: float
     roll_off: bool
     delay_sections: int = 0
@@ -159,13 +159,13 @@ class ClosedLoopTable:
         ]
 
     def to_dict(self) -> dict:
-        """JSON form: ``stable``, ``max_real``, ``delay_s``, ``delay_sections``, ``roll_off``,
+        """JSON form: ``stable``, ``max_real_part``, ``delay_s``, ``delay_sections``, ``roll_off``,
         ``note``, ``modes``, ``controller_poles``, ``controller_poles_note``,
         ``overdamped_modes``."""
         omega, damping = modal_damping(np.array(self.controller_poles, dtype=complex))
         return {
             "stable": self.stable,
-            "max_real": self.max_real,
+            "max_real_part": self.max_real_part,
             "delay_s": self.delay_s,
             "delay_sections": self.delay_sections,
             "roll_off": self.roll_off,
@@ -234,7 +234,7 @@ def closed_loop_table(
         rows=rows,
         controller_poles=tuple(complex(p) for p in matched.other_poles),
         stable=matched.stable,
-        max_real=float(matched.max_real),
+        max_real_part=float(matched.max_real_part),
         delay_s=delay,
         roll_off=roll_off,
         delay_sections=delay_sections(delay, reference_omega(plant)),

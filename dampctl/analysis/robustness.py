@@ -131,7 +131,7 @@ class DriftResult:
         True when every 2^n corner was evaluated.
     unstable_cases : int
         Cases with a closed-loop pole in the right half plane.
-    max_real : float
+    max_real_part : float
         Largest real part (1/s) over every case.
     worst_damping : dict of int to float
         Smallest closed-loop damping of each target mode (1-based) over the cases.
@@ -144,7 +144,7 @@ class DriftResult:
     n_corners: int
     all_corners: bool
     unstable_cases: int
-    max_real: float
+    max_real_part: float
     worst_damping: dict
     worst_case: np.ndarray
 
@@ -207,14 +207,14 @@ def drift_robustness(
             worst[m] = min(worst[m], value)
             if value < worst_value:
                 worst_value, worst_case = value, f
-    max_real = np.max(poles.real, axis=1)
+    largest = np.max(poles.real, axis=1)
     return DriftResult(
         drift=float(drift),
         n_cases=int(cases.shape[0]),
         n_corners=int(n_corners),
         all_corners=plant.n_modes <= ALL_CORNERS_UP_TO,
-        unstable_cases=int(np.sum(max_real >= 0.0)),
-        max_real=float(np.max(max_real)),
+        unstable_cases=int(np.sum(largest >= 0.0)),
+        max_real_part=float(np.max(largest)),
         worst_damping=worst,
         worst_case=np.array(worst_case),
     )

@@ -73,9 +73,44 @@ def jsonable(value: Any) -> Any:
     return value
 
 
-def print_json(payload: Any, out: TextIO) -> None:
-    """Write ``payload`` as indented JSON (non-finite floats as null)."""
-    out.write(json.dumps(jsonable(payload), indent=2, allow_nan=False) + "\n")
+#: version of the layout of every JSON document the commands print or write
+JSON_VERSION = 1
+
+
+def json_text(payload: dict[str, Any], kind: str) -> str:
+    """A JSON document of dampctl: ``format`` (``dampctl-<kind>``) and ``version`` first.
+
+    Parameters
+    ----------
+    payload : dict
+        The document's keys (numpy values and non-finite floats are converted, the latter to
+        null).
+    kind : str
+        What the document is (``check``, ``sizing``, ``tune``, ``assessment``, ...).
+
+    Returns
+    -------
+    str
+        Indented JSON with a final newline.
+    """
+    document = {"format": f"dampctl-{kind}", "version": JSON_VERSION}
+    document.update(payload)
+    return json.dumps(jsonable(document), indent=2, allow_nan=False) + "\n"
+
+
+def print_json(payload: dict[str, Any], out: TextIO, kind: str) -> None:
+    """Write ``payload`` to ``out`` as a dampctl JSON document (see :func:`json_text`).
+
+    Parameters
+    ----------
+    payload : dict
+        The document's keys.
+    out : TextIO
+        Where to write.
+    kind : str
+        What the document is; its ``format`` is ``dampctl-<kind>``.
+    """
+    out.write(json_text(payload, kind))
 
 
 def table(headers: Sequence[str], rows: Sequence[Sequence[Any]]) -> str:

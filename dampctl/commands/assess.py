@@ -125,7 +125,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         payload["delay_note"] = note
         payload["plots"] = [str(p) for p in written]
         payload["safety"] = list(SAFETY_LINES)
-        print_json(payload, out)
+        print_json(payload, out, "assessment")
     else:
         if note:
             out.write(f"note: {note}\n\n")
@@ -146,7 +146,7 @@ def _print_human(a, out: TextIO, *, plant_name: str) -> None:
     d = a.to_dict()
     out.write(
         f"{plant_name}: {a.law} design, {len(a.loops)} loop(s); "
-        f"{'STABLE' if a.stable else 'UNSTABLE'} (largest real part {a.max_real:.4g} 1/s)\n"
+        f"{'STABLE' if a.stable else 'UNSTABLE'} (largest real part {a.max_real_part:.4g} 1/s)\n"
     )
     out.write(
         f"loop delay {a.delay_s * 1e6:.4g} µs: exact in frequency responses, "

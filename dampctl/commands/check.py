@@ -59,7 +59,7 @@ def check_payload(plant, survey) -> dict:
                 "label": m.label,
                 "freq_hz": m.freq_hz,
                 "damping": m.damping,
-                "modal_mass": m.modal_mass_kg,
+                "modal_mass_kg": m.modal_mass_kg,
             }
             for k, m in enumerate(plant.modes)
         ],
@@ -111,7 +111,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     plant = load_plant(args.plant)
     survey = survey_plant(plant, cluster_tol=args.cluster_tol)
     if args.json:
-        print_json(check_payload(plant, survey), out)
+        print_json(check_payload(plant, survey), out, "check")
         return 0
     counts = ", ".join(
         _count(n, word)

@@ -10,12 +10,11 @@ from __future__ import annotations
 import argparse
 import importlib
 import importlib.resources
-import json
 import time
 from pathlib import Path
 from typing import TextIO
 
-from dampctl.commands._common import SAFETY_LINES, jsonable, print_json
+from dampctl.commands._common import SAFETY_LINES, json_text, print_json
 from dampctl.commands.check import check_payload
 from dampctl.commands.report import report_html
 from dampctl.errors import DampctlError, OutputError
@@ -123,10 +122,10 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
 
     files = {
         PLANT_FILE: text,
-        "check.json": _json(check),
-        "sizing.json": _json(sizing_dict),
+        "check.json": json_text(check, "check"),
+        "sizing.json": json_text(sizing_dict, "sizing"),
         "design.json": design.to_json(),
-        "assessment.json": _json(assessment.to_dict()),
+        "assessment.json": json_text(assessment.to_dict(), "assessment"),
         "report.html": html,
     }
     written = write_files(folder, files, replace=args.force)
@@ -159,7 +158,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         "seconds": seconds,
     }
     if args.json:
-        print_json(summary, out)
+        print_json(summary, out, "demo")
     else:
         _print_summary(summary, out)
     return 0 if assessment.all_met else 1
@@ -175,10 +174,6 @@ def _pick(sizing_by_law: dict):
         return (0, row.cost, row.pairs_used, -row.min_damping, LAWS.index(law))
 
     return min(sizing_by_law.items(), key=key)
-
-
-def _json(payload) -> str:
-    return json.dumps(jsonable(payload), indent=2, allow_nan=False) + "\n"
 
 
 def _print_summary(summary: dict, out: TextIO) -> None:

@@ -161,7 +161,12 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
             "prewarp": data["prewarp"],
             "fixed": data["fixed"],
             "loops": [
-                {"pair": lp["pair"], "form": lp["form"], "gain": lp["gain"], "sos": lp["sos"]}
+                {
+                    "pair": lp["pair"],
+                    "form": lp["form"],
+                    "cascade_gain": lp["cascade_gain"],
+                    "sos": lp["sos"],
+                }
                 for lp in data["loops"]
             ],
             "paths": data["paths"],
@@ -172,7 +177,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
             "notes": data["notes"] + extra_notes,
             "files": [str(p) for p in written],
         }
-        print_json(brief, out)
+        print_json(brief, out, "export")
     else:
         _human(result, failures, unmet, written, extra_notes, out)
     for line in failures:
@@ -217,13 +222,13 @@ def _human(result, failures, unmet, written, extra_notes, out: TextIO) -> None:
                 lp.pair,
                 lp.form,
                 len(lp.sos),
-                lp.gain,
+                lp.cascade_gain,
                 f"{lp.cascade_error:.1e}",
                 f"{lp.parallel_error:.1e}",
             )
             for lp in c.loops
         ]
-        headers = ["loop", "form", "sections", "gain", "cascade err", "parallel err"]
+        headers = ["loop", "form", "sections", "cascade gain", "cascade err", "parallel err"]
         out.write(table(headers, rows) + "\n")
     elif c.paths:
         out.write(f"MIMO controller: {len(c.paths)} paths of parallel modal biquads\n")

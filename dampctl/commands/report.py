@@ -10,7 +10,7 @@ from types import SimpleNamespace
 from typing import Any, TextIO
 
 from dampctl.analysis.assessment import assess
-from dampctl.commands._common import jsonable
+from dampctl.commands._common import jsonable, print_json
 from dampctl.commands.check import check_payload
 from dampctl.design import Design, load_design
 from dampctl.errors import UsageError
@@ -153,8 +153,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     path = write_text(args.output, html, inputs=inputs)
     unmet = [r.name for r in result.unmet]
     if args.json:
-        out.write(json.dumps({"report": str(path), "all_met": result.all_met,
-                              "unmet": unmet}, indent=2) + "\n")
+        print_json({"report": str(path), "all_met": result.all_met, "unmet": unmet}, out, "report")
     else:
         out.write(f"wrote {path}\n")
         if unmet:

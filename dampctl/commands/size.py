@@ -112,7 +112,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     payload["plots"] = [str(f) for f in files]
     payload["safety"] = list(SAFETY_LINES)
     if args.json:
-        print_json(payload, out)
+        print_json(payload, out, "sizing")
     else:
         _print_human(plant, result, files, out)
     return 0 if result.recommended is not None else 1

@@ -112,7 +112,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     modes = closed_loop_table(plant, design, delay_s=args.delay_s)
     payload = tune_payload(plant, design, modes, design_file=str(path))
     if args.json:
-        print_json(payload, out)
+        print_json(payload, out, "tune")
     else:
         _print_human(payload, modes, out)
     return 0 if payload["stable"] and payload["target_met"] is not False else 1
@@ -195,7 +195,7 @@ def tune_payload(plant, design, modes, *, design_file: str | None = None) -> dic
     -------
     dict
         Keys ``law``, ``plant``, ``plant_fingerprint``, ``pairs``, ``actuators``, ``sensors``,
-        ``loops``, ``stable``, ``max_real``, ``delay_s``, ``note``, ``target_modes``,
+        ``loops``, ``stable``, ``max_real_part``, ``delay_s``, ``note``, ``target_modes``,
         ``target_damping``, ``target_met``, ``min_damping``, ``modes``, ``controller_poles``,
         ``controller_poles_note``, ``overdamped_modes``, ``info``, ``design_file``,
         ``warnings``.
@@ -228,7 +228,8 @@ def tune_payload(plant, design, modes, *, design_file: str | None = None) -> dic
     warnings = list(info.get("warnings", []))
     if not modes.stable and not any("UNSTABLE" in w for w in warnings):
         warnings.append(
-            f"the closed loop is UNSTABLE (largest pole real part {modes.max_real:.4g} 1/s): do "
+            "the closed loop is UNSTABLE (largest pole real part "
+            f"{modes.max_real_part:.4g} 1/s): do "
             "not run it"
         )
     return {
@@ -240,7 +241,7 @@ def tune_payload(plant, design, modes, *, design_file: str | None = None) -> dic
         "sensors": list(design.sensors),
         "loops": loops,
         "stable": table_dict["stable"],
-        "max_real": table_dict["max_real"],
+        "max_real_part": table_dict["max_real_part"],
         "delay_s": table_dict["delay_s"],
         "note": table_dict["note"],
         "target_modes": list(design.target_modes),

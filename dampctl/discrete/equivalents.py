@@ -117,8 +117,8 @@ class DiscreteLoop:
         return self.cascade.sos
 
     @property
-    def gain(self) -> float:
-        """Gain of the cascade."""
+    def cascade_gain(self) -> float:
+        """Gain of the cascade (multiplies its normalized sections; not the law's gain)."""
         return self.cascade.gain
 
     def matrices(self) -> Matrices:

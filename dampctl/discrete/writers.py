@@ -15,8 +15,8 @@ be included in one translation unit without a library:
   accumulator (four states per section), rounding shift by the section's fractional bits and
   saturation to the word (see :mod:`dampctl.discrete.fixedpoint`). ``dampctl_<name>_q_branch<j>``
   runs one branch's cascade on integer samples and returns its integer output; the caller multiplies
-  by the branch gain (``dampctl_<name>_gain<j>``, a float in controller units), adds the
-  feedthrough and the branches, and negates, in its own signal scaling.
+  by the branch's cascade gain (``dampctl_<name>_cascade_gain<j>``, a float in controller units),
+  adds the feedthrough and the branches, and negates, in its own signal scaling.
 """
 
 from __future__ import annotations
@@ -59,7 +59,7 @@ def _form(form) -> dict:
     return {
         "feedthrough": form.feedthrough,
         "branches": [
-            {"label": b.label, "gain": b.gain, "sos": np.asarray(b.sos).tolist()}
+            {"label": b.label, "cascade_gain": b.gain, "sos": np.asarray(b.sos).tolist()}
             for b in form.branches
         ],
     }
@@ -113,7 +113,7 @@ def _fixed_dict(result: ExportResult) -> dict | None:
     if result.fixed == "none":
         return None
     return {
-        "format": result.fixed,
+        "number_format": result.fixed,
         "damping_tolerance": result.tolerance,
         "convention": "coefficient c stored as round(c * 2**frac_bits) in a word of word_bits; "
         "frac_bits = word_bits - 1 - shift; direct form I, int64 accumulator, "
@@ -125,7 +125,7 @@ def _fixed_dict(result: ExportResult) -> dict | None:
                 "branches": [
                     {
                         "label": branch.label,
-                        "gain": branch.gain,
+                        "cascade_gain": branch.gain,
                         "sections": [
                             {
                                 "integers": list(s.integers),
@@ -182,7 +182,7 @@ def payload(result: ExportResult) -> dict:
                 "actuator": lp.actuator,
                 "sensor": lp.sensor,
                 "form": lp.form,
-                "gain": lp.gain,
+                "cascade_gain": lp.cascade_gain,
                 "sos": np.asarray(lp.sos).tolist(),
                 "parallel": _form(lp.parallel),
                 "prewarp_hz": list(lp.prewarp_hz),
@@ -216,7 +216,7 @@ def json_text(result: ExportResult) -> str:
 def sections_csv(result: ExportResult) -> str:
     """Text of ``sections.csv``: one row per section of what runs on the target.
 
-    Columns: loop, branch, section (1-based), b0, b1, b2, a1, a2 (a0 = 1), gain (of the
+    Columns: loop, branch, section (1-based), b0, b1, b2, a1, a2 (a0 = 1), cascade_gain (of the
     whole branch cascade, repeated on each of its rows, not a per-section gain), feedthrough
     (of the loop); with fixed point also the stored integers, frac_bits and shift.
 
@@ -226,7 +226,8 @@ def sections_csv(result: ExportResult) -> str:
         The export (from :func:`dampctl.discrete.export.export_design`).
     """
     out = io.StringIO()
-    header = ["loop", "branch", "section", "b0", "b1", "b2", "a1", "a2", "gain", "feedthrough"]
+    header = ["loop", "branch", "section", "b0", "b1", "b2", "a1", "a2", "cascade_gain"]
+    header.append("feedthrough")
     fixed = result.fixed != "none"
     if fixed:
         header += ["b0_int", "b1_int", "b2_int", "a1_int", "a2_int", "frac_bits", "shift"]
@@ -375,7 +376,7 @@ def _c_fixed_realisation(real: Realisation) -> list[str]:
     out = [f"/* {real.name}, fixed point: branch cascades on integer samples */"]
     for j, (branch, secs) in enumerate(zip(real.form.branches, real.sections, strict=True)):
         out.append(f"#define DAMPCTL_{name.upper()}_Q{j}_STATES {4 * len(secs)}")
-        out.append(f"static const double dampctl_{name}_gain{j} = {branch.gain!r};")
+        out.append(f"static const double dampctl_{name}_cascade_gain{j} = {branch.gain!r};")
         out.append(f"static const dampctl_biquad_q dampctl_{name}_q{j}[{len(secs)}] = {{")
         for s in secs:
             vals = ", ".join(str(v) for v in s.integers)

@@ -111,7 +111,7 @@ def finish(
     evaluation: Evaluation,
     *,
     tuning: str,
-    target_reached: bool | None,
+    target_met: bool | None,
     info: dict,
     warnings: Sequence[str] = (),
 ) -> Design:
@@ -121,7 +121,7 @@ def finish(
     roll-offs). ``info["min_damping"]`` is the smallest closed-loop damping ratio over all
     target modes, ``info["objective_damping"]`` the value the tuning maximized (it leaves out
     modes the pairs cannot damp: unseen modes and the surplus of a rank-deficient cluster);
-    ``target_reached`` compares the former with the target.
+    ``target_met`` compares the former with the target.
     """
     plant = request.plant
     damping = evaluation.damping[0]
@@ -130,7 +130,7 @@ def finish(
     tuned = float(request.groups.score(damping[None, :])[0]) if objective else None
     achieved = float(np.min(damping[list(request.targets)]))
     if request.target_damping is not None:
-        target_reached = bool(achieved >= request.target_damping * (1.0 - 1e-6))
+        target_met = bool(achieved >= request.target_damping * (1.0 - 1e-6))
     notes = list(request.groups.warnings) + list(warnings)
     open_min = float(np.min(plant.dampings[list(request.targets)]))
     if request.target_damping is not None and open_min >= request.target_damping:
@@ -141,7 +141,7 @@ def finish(
     if not stable:
         notes.append(
             "the closed loop is UNSTABLE with the stated delay and roll-offs "
-            f"(largest pole real part {evaluation.max_real[0]:.4g} 1/s): do not run it"
+            f"(largest pole real part {evaluation.max_real_part[0]:.4g} 1/s): do not run it"
         )
     off = [lp.pair for lp in loops if lp.gain == 0.0]
     if off and not tuning.startswith("fixed"):
@@ -150,7 +150,7 @@ def finish(
             "them up does not raise the smallest target damping; leave them out, or give them "
             "other target modes"
         )
-    if request.target_damping is not None and target_reached is False:
+    if request.target_damping is not None and target_met is False:
         notes.append(
             f"target damping {request.target_damping:g} is not reached: the design reaches "
             f"{_fmt(achieved)} on the target modes"
@@ -158,7 +158,7 @@ def finish(
     common = {
         "tuning": tuning,
         "target_damping": request.target_damping,
-        "target_reached": target_reached,
+        "target_met": target_met,
         "min_damping": achieved,
         "objective_damping": tuned,
         "closed_loop_damping": [

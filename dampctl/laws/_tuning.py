@@ -54,7 +54,7 @@ class Evaluation:
     poles : ndarray of complex, shape (n_eval, n_modes)
         Matched poles (rad/s).
     stable : ndarray of bool, shape (n_eval,)
-    max_real : ndarray, shape (n_eval,)
+    max_real_part : ndarray, shape (n_eval,)
         Largest real part (1/s) of any closed-loop pole.
     score : ndarray, shape (n_eval,)
         Objective (−inf when unstable).
@@ -63,7 +63,7 @@ class Evaluation:
     damping: np.ndarray
     poles: np.ndarray
     stable: np.ndarray
-    max_real: np.ndarray
+    max_real_part: np.ndarray
     score: np.ndarray
 
 
@@ -146,7 +146,7 @@ class LoopModel:
             damping=damping,
             poles=np.array([r.poles for r in rows]),
             stable=stable,
-            max_real=np.array([r.max_real for r in rows]),
+            max_real_part=np.array([r.max_real_part for r in rows]),
             score=score,
         )
 

@@ -122,7 +122,7 @@ def design(
     -------
     Design
         ``law="dvf"``; ``Loop.gain`` is g in physical units; ``info`` holds the tuning facts
-        (``roll_off_hz``, ``min_damping``, ``target_reached``, ``warnings`` ...).
+        (``roll_off_hz``, ``min_damping``, ``target_met``, ``warnings`` ...).
 
     Raises
     ------
@@ -197,7 +197,7 @@ def design(
         loops,
         final,
         tuning=tuning,
-        target_reached=reached,
+        target_met=reached,
         info=info,
         warnings=warnings,
     )

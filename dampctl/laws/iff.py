@@ -215,7 +215,7 @@ def design(
         loops,
         final,
         tuning=tuning,
-        target_reached=reached,
+        target_met=reached,
         info=info,
         warnings=warnings,
     )

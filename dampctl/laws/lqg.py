@@ -541,7 +541,7 @@ def _better(new: dict, old: dict) -> bool:
         return (
             check["stable"],
             -len(check["spillover_unstable"]),
-            -check["max_real_per_s"],
+            -check["max_real_part"],
         )
 
     return rank(new) > rank(old)

@@ -61,7 +61,7 @@ class PlantCheck:
         Loop delay (s) used.
     stable : bool
         Every closed-loop pole (plant and controller side) has Re < 0.
-    max_real_per_s : float
+    max_real_part : float
         Largest real part (1/s) of the closed-loop poles.
     target_damping_min : float
         Smallest closed-loop damping over the target modes.
@@ -75,7 +75,7 @@ class PlantCheck:
 
     delay_s: float
     stable: bool
-    max_real_per_s: float
+    max_real_part: float
     target_damping_min: float
     modes: tuple[ModeCheck, ...]
     spillover_unstable: tuple[int, ...]
@@ -149,7 +149,7 @@ def check_on_plant(
     return PlantCheck(
         delay_s=delay,
         stable=bool(cl.stable),
-        max_real_per_s=float(cl.max_real),
+        max_real_part=float(cl.max_real_part),
         target_damping_min=float(min(rows[i].closed_loop_damping for i in targets)),
         modes=tuple(rows),
         spillover_unstable=tuple(unstable),

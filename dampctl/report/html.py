@@ -148,7 +148,7 @@ def _plant_section(check: Mapping[str, Any]) -> str:
                f"{_num(check.get('first_freq_hz'))} Hz.</p>")
     out.append(_table(modes, [("mode", "Mode"), ("label", "Label", "text"),
                               ("freq_hz", "Frequency (Hz)"), ("damping", "Damping ratio"),
-                              ("modal_mass", "Modal mass (kg)")]))
+                              ("modal_mass_kg", "Modal mass (kg)")]))
     pairs = check.get("pairs", [])
     if pairs:
         out.append("<h3>Candidate pairs</h3><p class='note'>Participation: share of each mode's "
@@ -228,7 +228,7 @@ def _design_summary(info: Mapping[str, Any]) -> str:
     parts = []
     if info.get("tuning"):
         parts.append(f"Tuning: {info['tuning']}.")
-    target, reached = info.get("target_damping"), info.get("target_reached")
+    target, reached = info.get("target_damping"), info.get("target_met")
     smallest = info.get("min_damping")
     if smallest is None and isinstance(info.get("closed_loop"), Mapping):
         smallest = info["closed_loop"].get("target_damping_min")  # model-based designs
@@ -305,10 +305,11 @@ def _export_section(export: Mapping[str, Any]) -> str:
            f"<p>{_num(export.get('rate_hz'))} Hz, method {_e(str(export.get('method', '')))}"
            f"{fixed_text}.</p>"]
     loops = export.get("loops") or []
-    rows = [{"pair": lp.get("pair"), "gain": lp.get("gain"),
+    rows = [{"pair": lp.get("pair"), "cascade_gain": lp.get("cascade_gain"),
              "sections": len(lp.get("sos") or [])} for lp in loops]
     if rows:
-        out.append(_table(rows, [("pair", "Loop", "text"), ("gain", "Gain"),
+        out.append(_table(rows, [("pair", "Loop", "text"),
+                                 ("cascade_gain", "Cascade gain (actuator per sensor unit)"),
                                  ("sections", "Second-order sections")]))
     verification = (export.get("verification") or {}).get("modes") or []
     if verification:
@@ -396,6 +397,8 @@ _UNITS = {"s": "s", "hz": "Hz", "db": "dB", "deg": "deg", "n": "N", "m": "m", "k
 
 def _label(key: str) -> str:
     """Heading for a JSON key: ``delay_margin_s`` -> ``delay margin (s)``, ``rms`` as is."""
+    if key == "max_real_part":
+        return "max real part (1/s)"
     for suffix in sorted(_UNITS, key=len, reverse=True):
         if key.endswith("_" + suffix) and len(key) > len(suffix) + 1:
             return f"{key[: -len(suffix) - 1].replace('_', ' ')} ({_UNITS[suffix]})"

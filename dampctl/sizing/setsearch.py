@@ -47,13 +47,19 @@ def all_sets(evaluator: SetEvaluator, candidates: Sequence[int], k: int) -> np.n
     return np.array(rows, dtype=int).reshape(len(rows), k)
 
 
+def _tie_key(score: np.ndarray) -> np.ndarray:
+    """Scores (damping ratios) rounded to 1e-9 for ranking: sets a symmetric plant makes equal
+    keep their lexicographic order instead of the order the last bits of LAPACK give them."""
+    return np.round(np.asarray(score, dtype=float), 9)
+
+
 def _ranked(parts: list[TunedSets]) -> TunedSets:
     sets = np.concatenate([p.sets for p in parts])
     gamma = np.concatenate([p.gamma for p in parts])
     score = np.concatenate([p.score for p in parts])
     _, first = np.unique(np.sort(sets, axis=1), axis=0, return_index=True)
     sets, gamma, score = sets[first], gamma[first], score[first]
-    order = np.lexsort((np.arange(score.size), -score))
+    order = np.lexsort((np.arange(score.size), -_tie_key(score)))
     return TunedSets(sets=np.sort(sets[order], axis=1), gamma=gamma[order], score=score[order])
 
 
@@ -104,7 +110,7 @@ def search_exhaustive(
             progress.advance(sets.shape[0])
         return _ranked(out)
     proxy = evaluator.low_gain_damping(sets, 1.0)[:, evaluator.targets].min(axis=1)
-    pilot_idx = np.argsort(-proxy, kind="stable")[:pilots]
+    pilot_idx = np.argsort(-_tie_key(proxy), kind="stable")[:pilots]
     pilot = evaluator.tune(sets[pilot_idx], points=7, rounds=5)
     gamma_p = float(np.exp(np.mean(np.log(pilot.gamma))))
     parts = [pilot]
@@ -118,7 +124,7 @@ def search_exhaustive(
         )
         if progress is not None:
             progress.advance(sets.shape[0])
-        order = np.argsort(-screen, kind="stable")
+        order = np.argsort(-_tie_key(screen), kind="stable")
         new = [i for i in order[:shortlist] if tuple(sets[i]) not in tuned]
         if new:
             part = evaluator.tune(

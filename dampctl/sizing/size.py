@@ -114,7 +114,7 @@ class SizingRow:
         Per loop ``{"pair", "gain_margin_db", "phase_margin_deg", "delay_margin_s"}``.
     stable : bool
         Closed loop stable with the stated delay and roll-offs.
-    meets_target, meets_margins : bool or None
+    target_met, margins_met : bool or None
         Against the target damping and the plant's margin requirements; None when none given.
     shortfall : tuple of dict
         Clusters the set cannot span: ``{"modes", "pairs_needed", "rank"}``.
@@ -136,8 +136,8 @@ class SizingRow:
     effort_rms: tuple[tuple[str, float, float | None], ...] | None
     margins: tuple[dict, ...]
     stable: bool
-    meets_target: bool | None
-    meets_margins: bool | None
+    target_met: bool | None
+    margins_met: bool | None
     shortfall: tuple[dict, ...]
 
     @property
@@ -145,8 +145,8 @@ class SizingRow:
         """Stable, target and margins met (or not required), and no cluster shortfall."""
         return (
             self.stable
-            and self.meets_target is not False
-            and self.meets_margins is not False
+            and self.target_met is not False
+            and self.margins_met is not False
             and not self.shortfall
         )
 
@@ -178,8 +178,8 @@ class SizingRow:
             else [{"actuator": a, "rms": r, "max_force_n": m} for a, r, m in self.effort_rms],
             "margins": [dict(m) for m in self.margins],
             "stable": self.stable,
-            "meets_target": self.meets_target,
-            "meets_margins": self.meets_margins,
+            "target_met": self.target_met,
+            "margins_met": self.margins_met,
             "cluster_shortfall": [dict(s) for s in self.shortfall],
         }
 
@@ -403,12 +403,16 @@ def size_pairs(
 # ---------------------------------------------------------------------- one row
 def _better_set(new: tuple, old: tuple, tol: float = SAME_DAMPING) -> bool:
     """Whether (spans clusters, maximized damping, cost) ``new`` beats ``old``: spanning first,
-    then damping larger by more than ``tol`` (relative), then, at equal damping, lower cost."""
+    then damping larger by more than ``tol`` (relative), then, at equal damping, lower cost,
+    then, at equal cost, the set that comes first in the plant file (``new[3]``, ``old[3]``: the
+    candidates' indices), so that a symmetric tie is decided the same way on every machine."""
     if new[0] != old[0]:
         return new[0]
     if new[1] > old[1] + tol * max(abs(old[1]), 1e-12):
         return True
-    return abs(new[1] - old[1]) <= tol * max(abs(old[1]), 1e-12) and new[2] < old[2]
+    if abs(new[1] - old[1]) > tol * max(abs(old[1]), 1e-12):
+        return False
+    return (new[2], new[3]) < (old[2], old[3])
 
 
 def _row(
@@ -436,8 +440,9 @@ def _row(
         tried += 1
         value = _min_damping(plant, design, targets)
         short = _shortfall(plant, chosen, clusters)
-        if best is None or _better_set((not short, value, _cost(plant, chosen)), best[0]):
-            best = ((not short, value, _cost(plant, chosen)), chosen, design, value, short)
+        key = (not short, value, _cost(plant, chosen), tuple(sorted(members.tolist())))
+        if best is None or _better_set(key, best[0]):
+            best = (key, chosen, design, value, short)
     _, chosen, achievable_design, achievable, short = best
     if target_damping is not None:
         design = module.design(plant, list(chosen), modes=modes, target_damping=target_damping)
@@ -472,10 +477,10 @@ def _row(
         effort_rms=actuator_effort(plant, design),
         margins=margins,
         stable=bool(matched.stable),
-        meets_target=None
+        target_met=None
         if target_damping is None
         else bool(value >= float(target_damping) - 1e-6),
-        meets_margins=_margins_met(plant, margins),
+        margins_met=_margins_met(plant, margins),
         shortfall=tuple(short),
     )
 
@@ -567,12 +572,12 @@ def _statement(rows, recommended, target, plant) -> tuple[str, int | None]:
         reasons.append(f"falls short of the rank rule on {names}")
     if not last.stable:
         reasons.append("is unstable with the stated delay and roll-offs")
-    if last.meets_target is False:
+    if last.target_met is False:
         reasons.append(
             f"reaches only {last.achievable_min_damping:.4g} against the target {target:g}, "
             f"limited by mode {last.limiting_mode}"
         )
-    if last.meets_margins is False:
+    if last.margins_met is False:
         req = plant.requirements
         reasons.append(
             "misses the margin requirement "

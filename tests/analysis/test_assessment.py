@@ -237,7 +237,7 @@ def test_balas_spillover_reported_by_assess_for_a_mimo_form_controller():
         controller=(A1 - B1 @ Kf - Lo @ C1, Lo, Kf, np.zeros((1, 1))),
     )
     a = assess(plant, design, delay_s=0.0, samples=0)
-    assert not a.stable and a.max_real == pytest.approx(0.35873, abs=2e-5)
+    assert not a.stable and a.max_real_part == pytest.approx(0.35873, abs=2e-5)
     (spill,) = a.robustness.spillover
     assert spill.mode == 2 and spill.unstable and spill.lost_damping
     # the pole that mode 1 becomes (Balas 1978 example, computed with numpy)

@@ -168,11 +168,11 @@ def test_inserting_delay_margin_puts_loop_at_boundary():
     assert abs(at + 1.0) < 1e-9
     wref = 2 * np.pi * fc * 1.5
 
-    def max_real(extra):
+    def max_real_part(extra):
         ctrl = loop_controller(plant, design, delay_s=1e-4 + extra, omega_ref=4 * wref)
         return np.max(loop_poles(plant, design, ctrl).real)
 
-    assert max_real(0.99 * m.delay_margin_s) < 0 < max_real(1.01 * m.delay_margin_s)
+    assert max_real_part(0.99 * m.delay_margin_s) < 0 < max_real_part(1.01 * m.delay_margin_s)
 
 
 def test_common_delay_margin_siso_equals_loop_delay_margin_and_mimo_boundary():

@@ -30,10 +30,10 @@ def test_json_keys(name):
     assert data["plant"] == plant.title
     assert [m["mode"] for m in data["modes"]] == list(range(1, plant.n_modes + 1))
     for row, mode in zip(data["modes"], plant.modes, strict=True):
-        assert set(row) >= {"mode", "label", "freq_hz", "damping", "modal_mass"}
+        assert set(row) >= {"mode", "label", "freq_hz", "damping", "modal_mass_kg"}
         assert row["freq_hz"] == mode.freq_hz
         assert row["damping"] == mode.damping
-        assert row["modal_mass"] == mode.modal_mass_kg
+        assert row["modal_mass_kg"] == mode.modal_mass_kg
         assert row["label"] == mode.label
     assert data["first_freq_hz"] == pytest.approx(min(plant.freqs_hz))
     assert [p["pair"] for p in data["pairs"]] == [p.name for p in plant.pairs]

@@ -43,6 +43,14 @@ def test_demo_runs_the_whole_job_inside_its_folder(tmp_path):
     assert summary["law"] == design["law"] and summary["pairs"] == design["pairs"]
     assert all(m["closed_damping"] > m["open_damping"] for m in summary["modes"])
     assert (code == 0) == summary["all_met"]
+    # every JSON document says what it is and which layout version it has
+    assert (summary["format"], summary["version"]) == ("dampctl-demo", 1)
+    for name, kind in (("check.json", "check"), ("sizing.json", "sizing"),
+                       ("design.json", "design"), ("assessment.json", "assessment"),
+                       ("export/controller.json", "discrete")):
+        document = json.loads((folder / name).read_text())
+        assert document["format"] == f"dampctl-{kind}", name
+        assert document["version"] == 1, name
 
 
 def test_demo_refuses_an_existing_folder(tmp_path):

@@ -139,7 +139,7 @@ def test_impulse_response_of_sections_matches_state_space():
     impulse[0] = 1.0
     A, B, C, D = loop.state_space
     _, y_ss, _ = scipy.signal.dlsim((A, B, C, D, T), impulse)
-    y_cascade = loop.gain * scipy.signal.sosfilt(np.array(loop.sos), impulse)
+    y_cascade = loop.cascade_gain * scipy.signal.sosfilt(np.array(loop.sos), impulse)
     y_parallel = sum(
         b.gain * scipy.signal.sosfilt(np.array(b.sos), impulse) for b in loop.parallel.branches
     )

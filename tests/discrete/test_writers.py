@@ -44,7 +44,7 @@ def test_json_holds_full_precision_and_metadata(plant):
     assert data["plant_fingerprint"] == plant.fingerprint
     lp = data["loops"][0]
     assert np.array_equal(np.array(lp["sos"]), result.controller.loops[0].sos)  # bit for bit
-    assert lp["gain"] == result.controller.loops[0].gain
+    assert lp["cascade_gain"] == result.controller.loops[0].cascade_gain
     assert lp["prewarp_hz"] == pytest.approx([120.0, 135.0])
     assert {"mode", "continuous_damping", "discrete_damping"} <= set(
         data["verification"]["modes"][0]
@@ -58,7 +58,7 @@ def test_csv_lists_every_section_of_the_realisation(plant):
     assert len(rows) == sum(len(b.sos) for b in real.form.branches)
     first = real.form.branches[0]
     assert float(rows[0]["a1"]) == first.sos[0, 4]
-    assert float(rows[0]["gain"]) == first.gain
+    assert float(rows[0]["cascade_gain"]) == first.gain
     fixed = result.fixed_realisations[0].sections[0][0]
     assert int(rows[0]["a1_int"]) == fixed.integers[3]
     assert int(rows[0]["frac_bits"]) == fixed.frac_bits == 30

@@ -76,7 +76,7 @@ def test_spillover_cures():
     report = check_on_plant(plant, _balas_design(plant), model_modes=[1], delay_s=0.0)
     report = report.to_dict()
     assert report["stable"] and report["spillover_unstable"] == []
-    assert report["max_real_per_s"] == pytest.approx(-0.1518, abs=1e-4)
+    assert report["max_real_part"] == pytest.approx(-0.1518, abs=1e-4)
     # Observation spillover removed (c2 = 0): spectrum = designed poles ∪ open-loop residual.
     plant0 = _balas_plant(0.0)
     mats = plant0.statespace_matrices(["fa"], ["xs"])

@@ -31,7 +31,7 @@ def _png() -> bytes:
 def _inputs(met: bool = True) -> ReportInputs:
     check = {"plant": "test stage", "fingerprint": "abc", "first_freq_hz": 100.0,
              "modes": [{"mode": 1, "label": "x", "freq_hz": 100.0, "damping": 0.01,
-                        "modal_mass": 1.0}],
+                        "modal_mass_kg": 1.0}],
              "pairs": [{"pair": "p1", "collocated": True, "kind": "force/velocity",
                         "participation": [1.0]}],
              "warnings": ["a warning"]}
@@ -122,7 +122,7 @@ def test_json_key_headings_show_units():
     assert _label("delay_margin_s") == "delay margin (s)"
     assert _label("min_stable_hz") == "min stable (Hz)"
     assert _label("reduction_db") == "reduction (dB)"
-    assert _label("max_real_per_s") == "max real (1/s)"
+    assert _label("max_real_part") == "max real part (1/s)"
     assert _label("rms") == "rms" and _label("cases") == "cases"
 
 
