@@ -15,6 +15,7 @@ from pathlib import Path
 from typing import Any
 
 import numpy as np
+import tomli_w
 
 from dampctl.errors import PlantError, PlantFileError
 from dampctl.model.plant import (
@@ -245,8 +246,15 @@ def _is_number(value: Any) -> bool:
 
 
 # ---------------------------------------------------------------------- writing
+_OPTIONAL_ZERO = {"cost", "noise_density"}  # written only when not 0 (their default)
+
+
 def dump_plant(plant: ModalPlant) -> str:
     """TOML text of a plant, readable by :func:`load_plant` (round trip).
+
+    Every key and every value is rendered by tomli-w, so any title, label or name (quotes,
+    backslashes, newlines, control characters, any Unicode) reads back unchanged. The layout
+    is the plant file's usual one: ``[[modes]]`` tables, one line per site in ``[sites]``.
 
     Parameters
     ----------
@@ -258,36 +266,52 @@ def dump_plant(plant: ModalPlant) -> str:
     str
         The plant file text.
     """
-    lines = [f"title = {_toml(plant.title)}", ""]
+    return _render(_document(plant))
+
+
+def _document(plant: ModalPlant) -> dict[str, Any]:
+    """The plant file as plain Python values (str, float, int, list, dict), in file order.
+
+    A key added to the plant file is added here; ``_render`` writes whatever this
+    holds.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant to describe.
+
+    Returns
+    -------
+    dict
+        ``title``, ``modes``, ``sites``, the groups (actuators, sensors, pairs, outputs,
+        disturbances) and ``requirements`` when the plant states any.
+    """
+    doc: dict[str, Any] = {"title": plant.title, "modes": []}
     for mode in plant.modes:
-        lines += ["[[modes]]"]
-        if mode.label:
-            lines.append(f"label = {_toml(mode.label)}")
-        lines += [
-            f"freq_hz = {_toml(mode.freq_hz)}",
-            f"damping = {_toml(mode.damping)}",
-            f"modal_mass_kg = {_toml(mode.modal_mass_kg)}",
-            "",
-        ]
-    lines.append("[sites]")
-    lines += [f"{_key(name)} = {_toml(row)}" for name, row in plant.sites.items()]
-    lines.append("")
+        row: dict[str, Any] = {"label": mode.label} if mode.label else {}
+        row |= {
+            "freq_hz": mode.freq_hz,
+            "damping": mode.damping,
+            "modal_mass_kg": mode.modal_mass_kg,
+        }
+        doc["modes"].append(_plain(row))
+    doc["sites"] = {name: _plain(row) for name, row in plant.sites.items()}
     for group in ("actuators", "sensors", "pairs", "outputs", "disturbances"):
+        rows = []
         for item in getattr(plant, group):
-            lines.append(f"[[{group}]]")
-            for key, value in item.__dict__.items():
-                if (
-                    value is None
-                    or (key == "cost" and value == 0.0)
-                    or (key == "noise_density" and value == 0.0)
-                ):
-                    continue
-                lines.append(f"{key} = {_toml(value)}")
-            lines.append("")
+            rows.append(
+                {
+                    key: _plain(value)
+                    for key, value in item.__dict__.items()
+                    if value is not None and not (key in _OPTIONAL_ZERO and value == 0.0)
+                }
+            )
+        if rows:
+            doc[group] = rows
     req = plant.requirements
-    entries = [
-        (k, getattr(req, k))
-        for k in (
+    stated = {
+        key: _plain(getattr(req, key))
+        for key in (
             "modes",
             "min_damping",
             "sample_rate_hz",
@@ -295,33 +319,73 @@ def dump_plant(plant: ModalPlant) -> str:
             "min_gain_margin_db",
             "min_phase_margin_deg",
         )
-    ]
-    entries = [(k, v) for k, v in entries if v not in (None, ())]
-    if entries or req.max_rms:
-        lines.append("[requirements]")
-        lines += [f"{k} = {_toml(v)}" for k, v in entries]
-        if req.max_rms:
-            limits = ", ".join(f"{_key(k)} = {_toml(v)}" for k, v in req.max_rms.items())
-            lines.append(f"max_rms = {{ {limits} }}")
-    return "\n".join(lines).rstrip() + "\n"
+        if getattr(req, key) not in (None, ())
+    }
+    if req.max_rms:
+        stated["max_rms"] = _plain(dict(req.max_rms))
+    if stated:
+        doc["requirements"] = stated
+    return doc
+
+
+def _render(document: Mapping[str, Any]) -> str:
+    """TOML text of a document of plain values, every key and value rendered by tomli-w.
+
+    Top-level values come first; a table becomes ``[name]``, a list of tables one
+    ``[[name]]`` per table. Inside them, lists stay on one line (tomli-w puts one item per
+    line, which makes a mode-shape row of a hundred modes a hundred lines) and tables become
+    inline tables.
+
+    Parameters
+    ----------
+    document : mapping of str to value
+        Plain Python values: str, bool, int, float, lists and mappings of them.
+
+    Returns
+    -------
+    str
+        TOML text ending with one newline.
+    """
+    head: list[str] = []
+    sections: list[str] = []
+    for key, value in document.items():
+        if isinstance(value, Mapping):
+            sections.append(_section(f"[{_key(key)}]", value))
+        elif isinstance(value, list | tuple) and value and all(
+            isinstance(v, Mapping) for v in value
+        ):
+            sections += [_section(f"[[{_key(key)}]]", row) for row in value]
+        else:
+            head.append(f"{_key(key)} = {_literal(value)}")
+    chunks = ["\n".join(head)] if head else []
+    return "\n\n".join(chunks + sections).rstrip() + "\n"
+
+
+def _section(header: str, table: Mapping[str, Any]) -> str:
+    return "\n".join([header] + [f"{_key(k)} = {_literal(v)}" for k, v in table.items()])
 
 
 def _key(name: str) -> str:
-    bare = name.replace("_", "").replace("-", "").isalnum() and name.isascii()
-    return name if bare else _toml(name)
+    # tomli-w writes a bare key when it can and a quoted, escaped one otherwise
+    return tomli_w.dumps({name: 0}).removesuffix(" = 0\n")
 
 
-def _toml(value: Any) -> str:
-    if isinstance(value, str):
-        return '"' + value.replace("\\", "\\\\").replace('"', '\\"') + '"'
-    if isinstance(value, bool):
-        return "true" if value else "false"
-    if isinstance(value, int | np.integer):
-        return str(int(value))
-    if isinstance(value, float | np.floating):
-        return repr(float(value))
-    if isinstance(value, np.ndarray):
-        return _toml(value.tolist())
+def _literal(value: Any) -> str:
+    if isinstance(value, Mapping):
+        return "{ " + ", ".join(f"{_key(k)} = {_literal(v)}" for k, v in value.items()) + " }"
     if isinstance(value, list | tuple):
-        return "[" + ", ".join(_toml(v) for v in value) + "]"
-    raise TypeError(f"cannot write {value!r} to TOML")
+        return "[" + ", ".join(_literal(v) for v in value) + "]"
+    return tomli_w.dumps({"v": value}).removeprefix("v = ").removesuffix("\n")
+
+
+def _plain(value: Any) -> Any:
+    """numpy arrays and scalars as Python lists and numbers (tomli-w takes only those)."""
+    if isinstance(value, np.ndarray):
+        return value.tolist()
+    if isinstance(value, np.generic):
+        return value.item()
+    if isinstance(value, Mapping):
+        return {str(k): _plain(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_plain(v) for v in value]
+    return value

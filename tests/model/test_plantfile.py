@@ -1,10 +1,13 @@
 """Plant files: every bad input gives one line naming file, field and problem; round trip."""
 
+import dataclasses
 import io
 from pathlib import Path
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from repo import ROOT
 
 from dampctl.commands.cli import main
@@ -390,3 +393,38 @@ def test_readme_example_is_a_valid_plant():
     plant = parse_plant(example, source="README example")
     assert plant.n_modes == 1
     assert plant.omegas[0] == pytest.approx(200.0, rel=1e-12)
+
+
+# Any text a user may put in a title, a label or a name reads back unchanged: the writer is
+# tomli-w (TOML 1.0 basic strings escape quotes, backslashes and every control character).
+AWKWARD = [
+    'two\nlines',
+    'tab\there, "quoted", back\\slash',
+    "bell\x07 escape\x1b delete\x7f nul\x00",
+    "carriage\rreturn",
+    "'''triple''' \"\"\"quotes\"\"\"",
+    "Ünïcødé ζ ω₀ 振動 \u2028 \ufeff",
+    "# not a comment",
+    "",
+]
+
+
+@pytest.mark.parametrize("text", AWKWARD)
+def test_any_title_label_and_name_round_trips(text: str):
+    plant = parse_plant(BASE)
+    mode = dataclasses.replace(plant.modes[0], label=text)
+    odd_site = text or "empty"  # a site name is a key; an empty key is allowed by TOML too
+    sites = {**plant.sites, odd_site: plant.sites["a"]}
+    plant = dataclasses.replace(plant, title=text, modes=(mode, *plant.modes[1:]), sites=sites)
+    again = parse_plant(dump_plant(plant))
+    assert again.title == text
+    assert again.modes[0].label == text
+    np.testing.assert_array_equal(again.sites[odd_site], plant.sites["a"])
+    assert again.fingerprint == plant.fingerprint
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.text())
+def test_any_text_title_round_trips(text: str):
+    plant = dataclasses.replace(parse_plant(BASE), title=text)
+    assert parse_plant(dump_plant(plant)).title == text
