@@ -1,7 +1,10 @@
 """A small progress bar on stderr for long searches.
 
-It stays silent for the first ``delay_s`` seconds so that quick runs print nothing, and only
-draws when stderr is a terminal or ``force`` is set.
+It stays silent for the first ``delay_s`` seconds so that quick runs print nothing, and it
+draws only on a terminal: a bar redraws itself with carriage returns, which in a log file or a
+pipe would leave a line of ``\\r``-joined frames. So a stream that is not a terminal (a file,
+a pipe, ``io.StringIO``) gets nothing unless ``force`` is set. Commands pass their error
+stream and let this rule decide; nothing else in dampctl should test ``isatty``.
 """
 
 from __future__ import annotations
@@ -10,7 +13,29 @@ import sys
 import time
 from typing import TextIO
 
-__all__ = ["Progress"]
+__all__ = ["Progress", "is_terminal"]
+
+
+def is_terminal(stream: TextIO | None) -> bool:
+    """Whether ``stream`` is an open terminal (where a redrawn bar belongs).
+
+    Parameters
+    ----------
+    stream : file-like or None
+        The stream to test; None, a closed stream or one without ``isatty`` is not a terminal.
+
+    Returns
+    -------
+    bool
+        True only for an open terminal.
+    """
+    isatty = getattr(stream, "isatty", None)
+    if isatty is None:
+        return False
+    try:
+        return bool(isatty())
+    except (ValueError, OSError):  # a closed or detached stream
+        return False
 
 
 class Progress:
@@ -27,7 +52,9 @@ class Progress:
     delay_s : float, optional
         Seconds before the bar first appears.
     enabled : bool, optional
-        False suppresses all output.
+        False suppresses all output (``--quiet``).
+    force : bool, optional
+        Draw even when ``stream`` is not a terminal (tests).
     """
 
     def __init__(
@@ -38,12 +65,13 @@ class Progress:
         stream: TextIO | None = None,
         delay_s: float = 2.0,
         enabled: bool = True,
+        force: bool = False,
     ):
         self.total = max(int(total), 1)
         self.label = label
         self.stream = stream if stream is not None else sys.stderr
         self.delay_s = delay_s
-        self.enabled = enabled
+        self.enabled = enabled and (force or is_terminal(self.stream))
         self.done = 0
         self._start = time.monotonic()
         self._drawn = False

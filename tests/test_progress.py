@@ -1,15 +1,17 @@
-"""Progress bar on a stream: drawn after its delay, shown finished when the work ends early."""
+"""Progress bar on a stream: drawn after its delay, shown finished when the work ends early,
+and only on a terminal."""
 
 import io
+import os
 
 import pytest
 
-from dampctl.progress import Progress
+from dampctl.progress import Progress, is_terminal
 
 
 def test_bar_ending_early_is_shown_finished():
     stream = io.StringIO()
-    with Progress(10, "work", stream=stream, delay_s=0.0) as bar:
+    with Progress(10, "work", stream=stream, delay_s=0.0, force=True) as bar:
         bar.advance(4)
     frames = stream.getvalue().split("\r")
     assert frames[-1] == "work [" + "#" * 30 + "] 10/10\n"
@@ -18,7 +20,7 @@ def test_bar_ending_early_is_shown_finished():
 def test_bar_is_left_as_is_when_the_work_fails():
     stream = io.StringIO()
     with pytest.raises(RuntimeError, match="stop"):
-        with Progress(10, "work", stream=stream, delay_s=0.0) as bar:
+        with Progress(10, "work", stream=stream, delay_s=0.0, force=True) as bar:
             bar.advance(4)
             raise RuntimeError("stop")
     assert stream.getvalue().endswith("4/10\n")
@@ -26,6 +28,51 @@ def test_bar_is_left_as_is_when_the_work_fails():
 
 def test_bar_silent_before_its_delay():
     stream = io.StringIO()
-    with Progress(10, "work", stream=stream, delay_s=60.0) as bar:
+    with Progress(10, "work", stream=stream, delay_s=60.0, force=True) as bar:
         bar.advance(10)
     assert stream.getvalue() == ""
+
+
+class FakeTerminal(io.StringIO):
+    def isatty(self) -> bool:
+        return True
+
+
+def test_bar_drawn_on_a_terminal():
+    stream = FakeTerminal()
+    with Progress(4, "work", stream=stream, delay_s=0.0) as bar:
+        bar.advance(4)
+    assert stream.getvalue().startswith("\rwork [")
+
+
+@pytest.mark.parametrize("kind", ["stringio", "file", "pipe"])
+def test_never_a_carriage_return_into_a_file_or_pipe(kind: str, tmp_path):
+    if kind == "stringio":
+        stream = io.StringIO()
+    elif kind == "file":
+        stream = open(tmp_path / "log.txt", "w")
+    else:
+        read_end, write_end = os.pipe()
+        os.close(read_end)  # any write would now fail with BrokenPipeError
+        stream = os.fdopen(write_end, "w")
+    with stream, Progress(10, "work", stream=stream, delay_s=0.0) as bar:
+        bar.advance(3)
+        bar.advance(7)
+        if kind == "stringio":
+            assert stream.getvalue() == ""
+    if kind == "file":
+        assert (tmp_path / "log.txt").read_text() == ""
+
+
+def test_quiet_wins_over_a_terminal():
+    stream = FakeTerminal()
+    with Progress(4, "work", stream=stream, delay_s=0.0, enabled=False) as bar:
+        bar.advance(4)
+    assert stream.getvalue() == ""
+
+
+def test_closed_stream_is_not_a_terminal(tmp_path):
+    stream = open(tmp_path / "log.txt", "w")
+    stream.close()  # isatty() on a closed file raises ValueError
+    assert not is_terminal(stream)
+    assert not is_terminal(None)
