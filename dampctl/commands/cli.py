@@ -14,13 +14,13 @@ from collections.abc import Sequence
 from typing import TextIO
 
 from dampctl import __version__
-from dampctl.commands import assess, check, demo, export, plant, report, size, tune
+from dampctl.commands import assess, check, demo, export, plant, report, schema, size, tune
 from dampctl.errors import DampctlError
 
 __all__ = ["build_parser", "entry_point", "main"]
 
 #: subcommand modules, in the order of the job
-COMMANDS = (plant, check, size, tune, assess, export, report, demo)
+COMMANDS = (plant, check, size, tune, assess, export, report, demo, schema)
 
 
 class _Parser(argparse.ArgumentParser):

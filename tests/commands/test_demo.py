@@ -18,9 +18,9 @@ def _run(argv):
     return code, out.getvalue(), err.getvalue()
 
 
-def test_demo_runs_the_whole_job_inside_its_folder(tmp_path):
-    folder = tmp_path / "demo"
-    code, out, err = _run(["demo", "-o", str(folder), "--json"])
+def test_demo_runs_the_whole_job_inside_its_folder(demo_run):
+    folder = demo_run.folder
+    code, out, err = demo_run.code, demo_run.out, demo_run.err
     assert code in (0, 1), err
     summary = json.loads(out)
     for name in ("scanning_stage.toml", "check.json", "sizing.json", "design.json",
@@ -33,7 +33,7 @@ def test_demo_runs_the_whole_job_inside_its_folder(tmp_path):
     for png in pngs:
         assert png.read_bytes()[:8] == PNG_SIGNATURE, png.name
     # nothing lands outside the folder
-    assert sorted(p.name for p in tmp_path.iterdir()) == ["demo"]
+    assert sorted(p.name for p in folder.parent.iterdir()) == ["demo"]
     html = (folder / "report.html").read_text(encoding="utf-8")
     for heading in ("Plant", "Sizing: how many pairs", "Design", "Closed-loop modes",
                     "Stability margins", "Requirements", "Discrete-time export", "Safety."):
