@@ -66,6 +66,31 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "(default 0.05)",
     )
     parser.add_argument(
+        "--frequency-tolerance",
+        type=float,
+        default=0.002,
+        metavar="FRACTION",
+        help="largest relative change of a section's pole frequency that rounding may cause "
+        "(default 0.002)",
+    )
+    parser.add_argument(
+        "--input-range",
+        default=None,
+        metavar="VALUE|PAIR=VALUE,...",
+        help="fixed point: the sensor signal at full scale of the input word, in sensor units "
+        "(m, m/s, m/s^2, N), for every loop or per loop; default: the input that asks the "
+        "actuator for its max_force_n (strut: max_stroke_m) at the frequency of largest "
+        "controller gain",
+    )
+    parser.add_argument(
+        "--scaling",
+        choices=("linf", "l2"),
+        default="linf",
+        help="fixed point: scale each section so the peak gain (linf: no overflow for any "
+        "sinusoid within the input range) or the 2-norm (l2: for white input) from the input "
+        "to its output is 1 (Jackson 1970; default linf)",
+    )
+    parser.add_argument(
         "--format",
         default=",".join(FORMATS),
         metavar="LIST",
@@ -92,6 +117,31 @@ def _prewarp(text: str):
     if not math.isfinite(value) or value <= 0:
         raise UsageError(f"--prewarp: frequency must be positive, got {text!r}") from None
     return value
+
+
+def _input_range(text: str | None):
+    """``--input-range``: one value, or ``PAIR=VALUE,...``."""
+    if text is None:
+        return None
+
+    def number(part: str, what: str) -> float:
+        try:
+            value = float(part)
+        except ValueError:
+            raise UsageError(f"--input-range: {what}: expected a number, got {part!r}") from None
+        if not (math.isfinite(value) and value > 0):
+            raise UsageError(f"--input-range: {what}: expected a positive number, got {part!r}")
+        return value
+
+    if "=" not in text:
+        return number(text.strip(), "value")
+    out = {}
+    for item in text.split(","):
+        name, sep, value = item.partition("=")
+        if not sep or not name.strip():
+            raise UsageError(f"--input-range: expected PAIR=VALUE, got {item!r}")
+        out[name.strip()] = number(value.strip(), name.strip())
+    return out
 
 
 def _formats(text: str) -> list[str]:
@@ -121,6 +171,11 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     prewarp = _prewarp(args.prewarp)
     if not (math.isfinite(args.tolerance) and args.tolerance > 0):
         raise UsageError(f"--tolerance: expected a fraction > 0, got {args.tolerance}")
+    if not (math.isfinite(args.frequency_tolerance) and args.frequency_tolerance > 0):
+        raise UsageError(
+            f"--frequency-tolerance: expected a fraction > 0, got {args.frequency_tolerance}"
+        )
+    input_range = _input_range(args.input_range)
     if Path(args.output).exists() and not Path(args.output).is_dir():
         raise UsageError(f"-o: {args.output} exists and is not a folder")
     plant = load_plant(args.plant)
@@ -137,6 +192,9 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         prewarp=prewarp,
         fixed=args.fixed,
         tolerance=args.tolerance,
+        frequency_tolerance=args.frequency_tolerance,
+        input_range=input_range,
+        scaling=args.scaling,
     )
     failures = list(result.failures)
     unmet = _unmet(plant, result)
@@ -235,42 +293,7 @@ def _human(result, failures, unmet, written, extra_notes, out: TextIO) -> None:
     else:
         out.write("MIMO controller: discrete state space only (no modal realisation)\n")
     if result.fixed != "none":
-        rows = []
-        for real in result.fixed_realisations:
-            for secs, peaks in zip(real.sections, real.peak_gains, strict=True):
-                for s, peak in zip(secs, peaks, strict=True):
-                    rows.append(
-                        (
-                            s.label,
-                            f"Q{s.shift}.{s.frac_bits}",
-                            s.after.radius,
-                            s.before.freq_hz,
-                            s.after.freq_hz,
-                            s.before.damping,
-                            s.after.damping,
-                            f"{100 * s.damping_change:+.2f} %",
-                            peak,
-                            s.accepted,
-                        )
-                    )
-        out.write("\nfixed-point sections (coefficient format Q<shift>.<fraction bits>)\n")
-        headers = [
-            "section",
-            "format",
-            "|z|",
-            "f (Hz)",
-            "f rounded",
-            "damping",
-            "rounded",
-            "change",
-            "peak gain",
-            "ok",
-        ]
-        out.write(table(headers, rows) + "\n")
-        out.write(
-            "peak gain: largest gain from the branch input to the section output; keep the "
-            "fixed-point input below full scale / peak gain\n"
-        )
+        _human_fixed(result, out)
     v, fv = result.verification, result.fixed_verification
     out.write(
         "\nsampled closed loop (ZOH plant, one sample of computation delay) beside the "
@@ -312,3 +335,75 @@ def _human(result, failures, unmet, written, extra_notes, out: TextIO) -> None:
     elif failures:
         out.write("\nno files written\n")
     out.write("\n" + "\n".join(SAFETY_LINES) + "\n")
+
+
+def _human_fixed(result, out: TextIO) -> None:
+    rows = []
+    for real in result.fixed_realisations:
+        s = real.scaling
+        rows.append(
+            (
+                real.name,
+                s.input_full_scale,
+                s.input_range_any_signal,
+                s.peak_command,
+                s.output_limit if s.output_limit is not None else "-",
+                real.noise_rms,
+                real.coefficient_error_rms,
+            )
+        )
+    out.write(
+        f"\nfixed point {result.fixed}: sections scaled ({result.scaling} norm, Jackson 1970) so "
+        "that no word overflows for inputs within the input range\n"
+    )
+    headers = [
+        "loop",
+        "input range",
+        "any signal",
+        "peak command",
+        "actuator limit",
+        "rounding noise RMS",
+        "coefficient error RMS",
+    ]
+    out.write(table(headers, rows) + "\n")
+    out.write(
+        "input range: sensor units at full scale (no overflow for a sinusoid of any "
+        "frequency within it; 'any signal': for every input); peak command, noise and error "
+        "in actuator units (noise: rounding every section output; error: rounded "
+        "coefficients, white input over the full range)\n"
+    )
+    rows = []
+    for real in result.fixed_realisations:
+        for secs, peaks in zip(real.sections, real.peak_gains, strict=True):
+            for s, peak in zip(secs, peaks, strict=True):
+                rows.append(
+                    (
+                        s.label,
+                        f"{s.num_frac_bits}/{s.a1_frac_bits}/{s.a2_frac_bits}",
+                        s.after.radius,
+                        s.before.freq_hz,
+                        f"{100 * s.frequency_change:+.3f} %",
+                        s.before.damping,
+                        f"{100 * s.damping_change:+.2f} %",
+                        peak,
+                        s.accepted,
+                    )
+                )
+    out.write("\nfixed-point sections (fraction bits of b / a1 / a2; pole shift on rounding)\n")
+    headers = [
+        "section",
+        "bits",
+        "|z|",
+        "f (Hz)",
+        "f change",
+        "damping",
+        "damping change",
+        "node gain",
+        "ok",
+    ]
+    out.write(table(headers, rows) + "\n")
+    out.write(
+        f"ok: pole frequency within {100 * result.frequency_tolerance:.3g} % and damping within "
+        f"{100 * result.tolerance:.3g} % after rounding; node gain: peak gain from the input "
+        "word to the section's output word (1 after scaling)\n"
+    )

@@ -40,7 +40,13 @@ import numpy as np
 
 from dampctl.analysis.closedloop import series_matrices
 from dampctl.design import Branch, Design, Section
-from dampctl.discrete.mimo import PREWARP_LIMIT, DiscretePath, _discrete_mimo, paths_matrices
+from dampctl.discrete.mimo import (
+    PREWARP_LIMIT,
+    DiscretePath,
+    _discrete_mimo,
+    _not_prewarped,
+    paths_matrices,
+)
 from dampctl.discrete.sections import (
     Cascade,
     ParallelForm,
@@ -153,6 +159,9 @@ class DiscreteController:
         hold the sections, or when no modal realisation was possible).
     notes : tuple of str
         What the engineer should know (sections not prewarped, no modal realisation ...).
+    block_prewarp_hz : tuple of float or None
+        MIMO design under Tustin: the prewarp frequency (Hz) of each modal block, None where
+        a block was not prewarped (the loops carry their sections' own ``prewarp_hz``).
     """
 
     rate_hz: float
@@ -167,6 +176,7 @@ class DiscreteController:
     state_space: Matrices
     paths: tuple[DiscretePath, ...] = ()
     notes: tuple[str, ...] = field(default=())
+    block_prewarp_hz: tuple[float | None, ...] = ()
 
     @property
     def sample_time_s(self) -> float:
@@ -267,10 +277,7 @@ def _branch_discrete(branch: Branch, method: str, T: float, prewarp, notes: list
         else:
             w = 2.0 * math.pi * float(prewarp)
         if w is not None and w * T / (2.0 * math.pi) >= PREWARP_LIMIT:
-            notes.append(
-                f"section at {w / (2 * math.pi):.6g} Hz is at or above {PREWARP_LIMIT} f_s: "
-                "not prewarped"
-            )
+            notes.append(_not_prewarped("section", w, T))
             w = None
         used.append(None if w is None else w / (2.0 * math.pi))
         system = series_matrices(system, _bilinear(mats, T, w))
@@ -339,13 +346,14 @@ def discretize(
     prewarp = _check_prewarp(prewarp, method, rate_hz)
     T = 1.0 / rate_hz
     notes: list[str] = []
+    block_prewarp: list[float | None] = []
     if design.loops:
         loops = tuple(_discrete_loop(lp, method, T, prewarp, notes) for lp in design.loops)
         state_space = _block_diagonal([lp.state_space for lp in loops])
         paths: tuple[DiscretePath, ...] = ()
     else:
         loops = ()
-        state_space, paths = _discrete_mimo(design, method, T, prewarp, notes)
+        state_space, paths = _discrete_mimo(design, method, T, prewarp, notes, block_prewarp)
     return DiscreteController(
         rate_hz=rate_hz,
         method=method,
@@ -359,6 +367,7 @@ def discretize(
         state_space=tuple(_readonly(m) for m in state_space),
         paths=paths,
         notes=tuple(dict.fromkeys(notes)),
+        block_prewarp_hz=tuple(block_prewarp),
     )
 
 

@@ -23,11 +23,15 @@ from dampctl.discrete.equivalents import (
 )
 from dampctl.discrete.fixedpoint import (
     DAMPING_TOLERANCE,
+    FORMATS,
+    FREQUENCY_TOLERANCE,
     QuantizedSection,
     cascade_peak_gains,
     quantize_cascade,
+    rate_for_format,
 )
 from dampctl.discrete.sampledloop import DiscreteVerification, sampled_reference, verify_discrete
+from dampctl.discrete.scaling import NORMS, LoopScaling, scale_form
 from dampctl.discrete.sections import ParallelForm, _block_diagonal
 from dampctl.errors import UsageError
 from dampctl.model.plant import ModalPlant
@@ -52,9 +56,20 @@ class Realisation:
     sections : tuple of tuple of QuantizedSection
         Fixed-point sections per branch; empty when not quantized.
     peak_gains : tuple of tuple of float
-        Per branch, the peak gain from the branch input to each section's output
-        (:func:`dampctl.discrete.fixedpoint.cascade_peak_gains`, rounded coefficients, without the
-        branch gain); empty when not quantized.
+        Per branch, the peak gain from the loop's input word (a fraction of the input full
+        scale) to each section's output word, with the rounded coefficients
+        (:func:`dampctl.discrete.fixedpoint.cascade_peak_gains`): 1 or a hair off it after
+        scaling; empty when not quantized.
+    scaling : LoopScaling or None
+        The signal scaling (input full scale, output scale per branch, the norms behind them);
+        None when not quantized.
+    noise_rms : float
+        RMS actuator-command noise (actuator units) from rounding each section output to the
+        word; 0 when not quantized.
+    coefficient_error_rms : float
+        RMS actuator-command error (actuator units) from rounding the coefficients, for a white
+        input spread uniformly over the full scale: X/√3 · RMS over frequency of
+        |K_rounded − K|; 0 when not quantized.
     """
 
     name: str
@@ -63,6 +78,9 @@ class Realisation:
     form: ParallelForm
     sections: tuple[tuple[QuantizedSection, ...], ...] = ()
     peak_gains: tuple[tuple[float, ...], ...] = ()
+    scaling: LoopScaling | None = None
+    noise_rms: float = 0.0
+    coefficient_error_rms: float = 0.0
 
 
 def realisations(controller: DiscreteController) -> tuple[Realisation, ...]:
@@ -89,20 +107,84 @@ def realisations(controller: DiscreteController) -> tuple[Realisation, ...]:
     return tuple(out)
 
 
-def _quantized(real: Realisation, rate_hz: float, fmt: str, tolerance: float) -> Realisation:
-    branches, sections, peaks = [], [], []
-    for b, branch in enumerate(real.form.branches):
+def _output_limit(plant: ModalPlant, actuator: str) -> float | None:
+    act = next((a for a in plant.actuators if a.name == actuator), None)
+    if act is None:
+        return None
+    return act.max_force_n if act.kind == "force" else act.max_stroke_m
+
+
+def _coefficient_error(float_form: ParallelForm, rounded: ParallelForm, rate_hz: float,
+                       input_full_scale: float) -> float:
+    freq = np.linspace(0.0, 0.5 * rate_hz, 16385)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        delta = rounded.response(freq, rate_hz) - float_form.response(freq, rate_hz)
+        value = float(input_full_scale / np.sqrt(3.0) * np.sqrt(np.mean(np.abs(delta) ** 2)))
+    return value if np.isfinite(value) else float("inf")  # a pole rounded onto |z| = 1
+
+
+def _quantized(
+    real: Realisation,
+    rate_hz: float,
+    fmt: str,
+    *,
+    tolerance: float,
+    frequency_tolerance: float,
+    input_full_scale: float | None,
+    output_limit: float | None,
+    norm: str,
+) -> Realisation:
+    scaling = scale_form(
+        real.form, input_full_scale=input_full_scale, output_limit=output_limit, norm=norm
+    )
+    scaled = scaling.form()
+    rounded_rows, sections, peaks = [], [], []
+    for b, branch in enumerate(scaled.branches):
         label = f"{real.name}, {branch.label or f'branch {b + 1}'}"
-        if len(real.form.branches) == 1:
+        if len(scaled.branches) == 1:
             label = real.name
         rounded, secs = quantize_cascade(
-            branch, rate_hz, fmt=fmt, label=f"loop {label}", tolerance=tolerance
+            branch,
+            rate_hz,
+            fmt=fmt,
+            label=f"loop {label}",
+            tolerance=tolerance,
+            frequency_tolerance=frequency_tolerance,
         )
-        branches.append(rounded)
+        rounded_rows.append(rounded.sos)
         sections.append(secs)
         peaks.append(tuple(float(g) for g in cascade_peak_gains(rounded.sos, rate_hz)))
-    form = ParallelForm(real.form.feedthrough, tuple(branches))
-    return Realisation(real.name, real.actuator, real.sensor, form, tuple(sections), tuple(peaks))
+    form = scaling.form(rounded_rows)
+    return Realisation(
+        real.name,
+        real.actuator,
+        real.sensor,
+        form,
+        tuple(sections),
+        tuple(peaks),
+        scaling=scaling,
+        noise_rms=scaling.noise_rms(FORMATS[fmt]),
+        coefficient_error_rms=_coefficient_error(
+            real.form, form, rate_hz, scaling.input_full_scale
+        ),
+    )
+
+
+def _advice(section: QuantizedSection, fmt: str, rate_hz: float) -> str:
+    """What to do about a refused section: the other format, or the rate it would hold at."""
+    if not section.stable or not section.before.complex_pair:
+        return "use q31" if fmt == "q15" else "use floating point"
+    limit = rate_for_format(
+        section.before.freq_hz,
+        section.before.damping,
+        fmt,
+        tolerance=section.tolerance,
+        frequency_tolerance=section.frequency_tolerance,
+    )
+    other = "use q31" if fmt == "q15" else "use floating point"
+    if limit < rate_hz:
+        return f"{other}, or a sample rate of at most about {limit:.3g} Hz"
+    return other
 
 
 def _matrices(controller: DiscreteController, reals: tuple[Realisation, ...]):
@@ -134,6 +216,10 @@ class ExportResult:
         One message per refused fixed-point section.
     tolerance : float
         Damping tolerance used for the refusal.
+    frequency_tolerance : float
+        Frequency tolerance used for the refusal.
+    scaling : {"linf", "l2"}
+        Node norm of the fixed-point scaling.
     """
 
     controller: DiscreteController
@@ -144,6 +230,8 @@ class ExportResult:
     fixed_verification: DiscreteVerification | None
     refused: tuple[str, ...]
     tolerance: float
+    frequency_tolerance: float = FREQUENCY_TOLERANCE
+    scaling: str = "linf"
 
     @property
     def stable(self) -> bool:
@@ -180,6 +268,9 @@ def export_design(
     prewarp: Literal["auto", "none"] | float = "auto",
     fixed: Literal["none", "q15", "q31"] = "none",
     tolerance: float = DAMPING_TOLERANCE,
+    frequency_tolerance: float = FREQUENCY_TOLERANCE,
+    input_range: float | dict[str, float] | None = None,
+    scaling: Literal["linf", "l2"] = "linf",
 ) -> ExportResult:
     """Discretize, optionally quantize, and verify a design in the sampled loop.
 
@@ -199,6 +290,15 @@ def export_design(
         Fixed-point format of the coefficients. Default ``"none"``.
     tolerance : float, optional
         Largest relative damping change a rounded section may cause. Default 0.05.
+    frequency_tolerance : float, optional
+        Largest relative pole-frequency change a rounded section may cause. Default 0.002.
+    input_range : float or dict of str to float, optional
+        Fixed point: sensor units at full scale of the input word, for every loop or per loop
+        (pair name, or ``actuator<-sensor`` for a MIMO path). Default: the input that asks the
+        actuator for its stated limit (``max_force_n`` or, for a strut, ``max_stroke_m``) at
+        the frequency of largest controller gain (:func:`dampctl.discrete.scaling.scale_form`).
+    scaling : {"linf", "l2"}, optional
+        Fixed point: node norm of the section scaling (Jackson 1970). Default ``"linf"``.
 
     Returns
     -------
@@ -230,8 +330,35 @@ def export_design(
                 "fixed point needs second-order sections, and this MIMO controller has no "
                 "modal realisation; export it in floating point (--fixed none)"
             )
-        fixed_reals = tuple(_quantized(r, controller.rate_hz, fixed, tolerance) for r in reals)
-        refused = [s.reason for r in fixed_reals for b in r.sections for s in b if s.reason]
+        if scaling not in NORMS:
+            raise UsageError(f"scaling must be one of {', '.join(NORMS)}, got {scaling!r}")
+        ranges = input_range if isinstance(input_range, dict) else {}
+        unknown = sorted(set(ranges) - {r.name for r in reals})
+        if unknown:
+            raise UsageError(
+                f"input range given for {', '.join(unknown)}: not a loop of this design "
+                f"(loops: {', '.join(r.name for r in reals)})"
+            )
+        fixed_reals = tuple(
+            _quantized(
+                r,
+                controller.rate_hz,
+                fixed,
+                tolerance=tolerance,
+                frequency_tolerance=frequency_tolerance,
+                input_full_scale=ranges.get(r.name) if ranges else input_range,
+                output_limit=_output_limit(plant, r.actuator),
+                norm=scaling,
+            )
+            for r in reals
+        )
+        refused = [
+            f"{s.reason}; {_advice(s, fixed, controller.rate_hz)}"
+            for r in fixed_reals
+            for b in r.sections
+            for s in b
+            if s.reason
+        ]
         fixed_verification = verify_discrete(
             plant,
             design,
@@ -248,6 +375,8 @@ def export_design(
         fixed_verification=fixed_verification,
         refused=tuple(refused),
         tolerance=float(tolerance),
+        frequency_tolerance=float(frequency_tolerance),
+        scaling=scaling,
     )
 
 

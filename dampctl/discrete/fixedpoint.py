@@ -1,25 +1,32 @@
-"""Fixed-point coefficients for second-order sections (Q15 / Q31 storage with a post-shift).
+"""Fixed-point coefficients for second-order sections (Q15 / Q31 storage).
 
-Convention (one format per section, for all five coefficients b0, b1, b2, a1, a2):
+Convention (per section):
 
-* storage word W = 16 bits (``"q15"``) or 32 bits (``"q31"``), two's complement;
-* a **shift** s ≥ 0, the smallest for which every rounded coefficient fits the word; the
-  coefficient c is stored as the integer ``round(c · 2^F)`` with F = W − 1 − s fractional bits
-  (s = 1 is the Q1.14 format for Q15 storage — needed because a lightly damped low-frequency
-  pole pair has |a1| close to 2 — and Q1.30 for Q31);
-* samples are Q15 (or Q31) fractions; the routine (direct form I, accumulator int64) forms
-  ``acc = b0 x[n] + b1 x[n−1] + b2 x[n−2] − a1 y[n−1] − a2 y[n−2]`` and
-  ``y[n] = saturate((acc + 2^(F−1)) >> F)``, i.e. it shifts by W − 1 − s: the product of a
-  Q(F) coefficient and a Q(W−1) sample has F + W − 1 fractional bits.
+* storage word W = 16 bits (``"q15"``) or 32 bits (``"q31"``), two's complement; samples are
+  Q(W−1) fractions of the loop's full scale (:mod:`dampctl.discrete.scaling` chooses it);
+* each denominator coefficient is stored as ``round(a · 2^F)`` with the most fractional bits
+  F ≤ W − 1 that fit the word: a1 of a lightly damped low-frequency pole pair is close to −2
+  and needs F1 = W − 2 (Q1.14 for a 16-bit word), while a2 = r² < 1 keeps all W − 1 bits (Q15),
+  which halves its rounding (the pole radius moves by ∂r/∂a2 = 1/(2r) per unit of a2);
+* the numerator (b0, b1, b2) has its own fractional bits Fb, the most that fit the word (up to
+  2(W − 1) for Q15): after signal scaling a resonant section's numerator is small, and one common
+  format would leave it a few counts (L. B. Jackson, *Bell Syst. Tech. J.* 49(2), 1970, on the
+  dynamic range of scaled sections). For Q31, whose products already fill the 64-bit
+  accumulator, all five share the most bits that fit;
+* the routine (direct form I, int64 accumulator) forms, with F = max(Fb, F1, F2),
+  ``acc = 2^(F−Fb) (b0 x[n] + b1 x[n−1] + b2 x[n−2]) − 2^(F−F1) a1 y[n−1] − 2^(F−F2) a2 y[n−2]``
+  and ``y[n] = saturate((acc + 2^(F−1)) >> F)``.
 
 Rounding moves the poles. For each section the pole radius, the equivalent s-plane frequency and
 damping ratio (from s = ln(z)/T) before and after rounding are reported; a section is
 **refused** when a quantized pole leaves the unit circle (a pole exactly on it, from an
-integrator, may stay there) or when the damping ratio of a complex pole pair changes by more
-than :data:`DAMPING_TOLERANCE` relative (5 %; for a real pole, its corner frequency by the same
-fraction). The pole sensitivities behind this are in Oppenheim & Schafer, *Discrete-Time Signal
-Processing* (3rd ed. 2010), coefficient quantization: ∂θ/∂a1 = 1/(2 r sin θ), large for poles
-near z = 1.
+integrator, may stay there), when the damping ratio of a complex pole pair changes by more than
+:data:`DAMPING_TOLERANCE` relative (5 %; for a real pole, its corner frequency by the same
+fraction), or when the pole frequency moves by more than :data:`FREQUENCY_TOLERANCE` (0.2 %).
+The pole sensitivities behind this are in A. V. Oppenheim & R. W. Schafer, *Discrete-Time
+Signal Processing* (3rd ed. 2010), coefficient quantization: ∂θ/∂a1 = 1/(2 r sin θ) and
+∂r/∂a2 = 1/(2r), large in relative terms for poles near z = 1; :func:`rate_for_format` turns
+them into the highest sample rate at which a section holds its tolerances.
 """
 
 from __future__ import annotations
@@ -36,12 +43,14 @@ from dampctl.errors import UsageError
 __all__ = [
     "DAMPING_TOLERANCE",
     "FORMATS",
+    "FREQUENCY_TOLERANCE",
     "QuantizedSection",
     "SectionPoles",
     "cascade_peak_gains",
     "quantize_cascade",
     "quantize_parallel",
     "quantize_section",
+    "rate_for_format",
     "run_fixed",
     "section_poles",
 ]
@@ -50,6 +59,10 @@ __all__ = [
 FORMATS = {"q15": 16, "q31": 32}
 #: largest relative change of a section's pole damping ratio (or real-pole corner) accepted
 DAMPING_TOLERANCE = 0.05
+#: largest relative change of a section's pole frequency accepted (complex pairs)
+FREQUENCY_TOLERANCE = 0.002
+#: most fractional bits of a numerator coefficient (Q15: products stay within 2^30)
+_NUM_FRAC_MAX = {16: 30, 32: 31}
 
 
 @dataclass(frozen=True)
@@ -109,8 +122,10 @@ class QuantizedSection:
     ----------
     label : str
         Which section ("loop p3, section 2").
-    word_bits, frac_bits, shift : int
-        Storage word W, fractional bits F = W − 1 − shift, and the shift.
+    word_bits : int
+        Storage word W.
+    num_frac_bits, a1_frac_bits, a2_frac_bits : int
+        Fractional bits of the numerator (Fb) and of a1 (F1) and a2 (F2).
     integers : tuple of int
         Stored (b0, b1, b2, a1, a2).
     sos : ndarray, shape (6,)
@@ -120,48 +135,67 @@ class QuantizedSection:
     damping_change : float
         Relative change of the damping ratio (complex pair) or of the corner frequency (real
         pole); 0 when the section has no pole.
+    frequency_change : float
+        Relative change of the pole frequency (complex pair; 0 otherwise).
     stable : bool
         Quantized poles inside the unit circle (or on it where the unrounded ones are).
     accepted : bool
-        Stable and ``|damping_change|`` ≤ the tolerance.
+        Stable, ``|damping_change|`` ≤ ``tolerance`` and ``|frequency_change|`` ≤
+        ``frequency_tolerance``.
     tolerance : float
-        The tolerance applied.
+        The damping tolerance applied.
+    frequency_tolerance : float
+        The frequency tolerance applied.
     """
 
     label: str
     word_bits: int
-    frac_bits: int
-    shift: int
+    num_frac_bits: int
+    a1_frac_bits: int
+    a2_frac_bits: int
     integers: tuple[int, ...]
     sos: np.ndarray
     before: SectionPoles
     after: SectionPoles
     damping_change: float
+    frequency_change: float
     stable: bool
     accepted: bool
     tolerance: float = DAMPING_TOLERANCE
+    frequency_tolerance: float = FREQUENCY_TOLERANCE
+
+    @property
+    def frac_bits(self) -> int:
+        """Fractional bits of the accumulator, F = max(Fb, F1, F2): the output shift."""
+        return max(self.num_frac_bits, self.a1_frac_bits, self.a2_frac_bits)
 
     @property
     def reason(self) -> str:
         """Why the section is refused ('' when accepted)."""
         if not self.stable:
             return f"{self.label}: quantized pole radius {self.after.radius:.9f} >= 1 (unstable)"
+        if abs(self.frequency_change) > self.frequency_tolerance:
+            return (
+                f"{self.label}: pole frequency moves by {100 * self.frequency_change:+.3f} % on "
+                f"rounding ({self.before.freq_hz:.6g} -> {self.after.freq_hz:.6g} Hz; tolerance "
+                f"{100 * self.frequency_tolerance:.3g} %)"
+            )
         if not self.accepted:
             what = "damping ratio" if self.before.complex_pair else "real-pole corner"
             return (
                 f"{self.label}: {what} moves by {100 * self.damping_change:+.2f} % on rounding "
-                f"(tolerance {100 * self.tolerance:.3g} %); use q31 or a higher rate"
+                f"(tolerance {100 * self.tolerance:.3g} %)"
             )
         return ""
 
 
-def _fit_shift(coeffs: np.ndarray, word_bits: int) -> tuple[int, np.ndarray]:
+def _fit(coeffs: np.ndarray, word_bits: int, most: int) -> tuple[int, np.ndarray]:
+    """The most fractional bits (≤ ``most``) whose rounded coefficients fit the word."""
     top = 2 ** (word_bits - 1)
-    for shift in range(word_bits - 1):
-        frac = word_bits - 1 - shift
+    for frac in range(most, -1, -1):
         ints = np.round(coeffs * 2.0**frac)
         if np.all(ints <= top - 1) and np.all(ints >= -top):
-            return shift, ints
+            return frac, ints
     raise UsageError(f"coefficients {coeffs} do not fit a {word_bits}-bit word")
 
 
@@ -172,8 +206,9 @@ def quantize_section(
     fmt: Literal["q15", "q31"] = "q15",
     label: str = "section",
     tolerance: float = DAMPING_TOLERANCE,
+    frequency_tolerance: float = FREQUENCY_TOLERANCE,
 ) -> QuantizedSection:
-    """Round one section's coefficients to a fixed-point format with the smallest shift.
+    """Round one section's coefficients to a fixed-point format (see the module doc).
 
     Parameters
     ----------
@@ -187,6 +222,8 @@ def quantize_section(
         Name of the section in messages.
     tolerance : float, optional
         Largest relative damping (or real-pole corner) change accepted. Default 0.05.
+    frequency_tolerance : float, optional
+        Largest relative pole-frequency change accepted. Default 0.002.
 
     Returns
     -------
@@ -196,14 +233,22 @@ def quantize_section(
         raise UsageError(f"fixed-point format must be one of {', '.join(FORMATS)}, got {fmt!r}")
     row = np.asarray(sos_row, dtype=float).ravel()
     word = FORMATS[fmt]
-    coeffs = np.array([row[0], row[1], row[2], row[4], row[5]])
-    shift, ints = _fit_shift(coeffs, word)
-    frac = word - 1 - shift
-    values = ints / 2.0**frac
-    sos = np.array([values[0], values[1], values[2], 1.0, values[3], values[4]])
+    if word == 16:
+        num_frac, num = _fit(np.array(row[:3]), word, _NUM_FRAC_MAX[word])
+        f1, a1 = _fit(np.array([row[4]]), word, word - 1)
+        f2, a2 = _fit(np.array([row[5]]), word, word - 1)
+    else:  # Q31: one format for all five (no room in the accumulator to align products)
+        num_frac, _ = _fit(np.array([row[0], row[1], row[2], row[4], row[5]]), word, word - 1)
+        f1 = f2 = num_frac
+        num = np.round(np.array(row[:3]) * 2.0**num_frac)
+        a1, a2 = np.round([row[4] * 2.0**f1]), np.round([row[5] * 2.0**f2])
+    ints = np.concatenate([num, a1, a2])
+    nv = num / 2.0**num_frac
+    dv = (float(a1[0]) / 2.0**f1, float(a2[0]) / 2.0**f2)
+    sos = np.array([nv[0], nv[1], nv[2], 1.0, dv[0], dv[1]])
     sos.setflags(write=False)
     before = section_poles(row[4], row[5], rate_hz)
-    after = section_poles(values[3], values[4], rate_hz)
+    after = section_poles(dv[0], dv[1], rate_hz)
     if before.radius == 0.0 and after.radius == 0.0:
         change = 0.0
     elif before.complex_pair:
@@ -218,21 +263,69 @@ def quantize_section(
             if before.freq_hz
             else (0.0 if after.freq_hz == 0.0 else math.inf)
         )
+    freq_change = 0.0
+    if before.complex_pair and before.freq_hz > 0:
+        freq_change = (after.freq_hz - before.freq_hz) / before.freq_hz
     stable = after.radius < 1.0 or (after.radius <= 1.0 + 1e-12 and before.radius >= 1.0 - 1e-12)
+    ok = stable and abs(change) <= tolerance and abs(freq_change) <= frequency_tolerance
     return QuantizedSection(
         label=label,
         word_bits=word,
-        frac_bits=frac,
-        shift=shift,
+        num_frac_bits=int(num_frac),
+        a1_frac_bits=int(f1),
+        a2_frac_bits=int(f2),
         integers=tuple(int(v) for v in ints),
         sos=sos,
         before=before,
         after=after,
         damping_change=float(change),
+        frequency_change=float(freq_change),
         stable=bool(stable),
-        accepted=bool(stable and abs(change) <= tolerance),
+        accepted=bool(ok),
         tolerance=float(tolerance),
+        frequency_tolerance=float(frequency_tolerance),
     )
+
+
+def rate_for_format(
+    freq_hz: float,
+    damping: float,
+    fmt: Literal["q15", "q31"],
+    *,
+    tolerance: float = DAMPING_TOLERANCE,
+    frequency_tolerance: float = FREQUENCY_TOLERANCE,
+) -> float:
+    """Highest sample rate at which a pole pair's rounding stays within the tolerances.
+
+    From the pole sensitivities of a second-order denominator (Oppenheim & Schafer 2010):
+    rounding a1 to half an LSB (ε = 2^−(F1+1), F1 = W − 2 for a lightly damped pair near
+    z = 1) moves the pole angle θ = ωT by up to ε/(2 r sin θ) and the radius by ε/(2r). For
+    small θ the relative frequency error is about ε/(2θ²) and the relative damping error about
+    ε/(2θ²ζ) (the radius error over ζθ), so θ must be at least sqrt(ε/(2 tol)) for each.
+    An estimate for advice ("at most N Hz"), not a guarantee: the export checks the rounded
+    sections themselves.
+
+    Parameters
+    ----------
+    freq_hz : float
+        Pole frequency (Hz).
+    damping : float
+        Pole damping ratio.
+    fmt : {"q15", "q31"}
+        Storage format.
+    tolerance, frequency_tolerance : float, optional
+        Relative damping and frequency tolerances.
+
+    Returns
+    -------
+    float
+        Sample rate (Hz) below which the section is expected to pass.
+    """
+    eps = 2.0 ** -(FORMATS[fmt] - 2 + 1)
+    theta_f = math.sqrt(eps / (2.0 * frequency_tolerance))
+    theta_d = math.sqrt(eps / (2.0 * tolerance * max(damping, 1e-9)))
+    theta = max(theta_f, theta_d)
+    return float(2.0 * math.pi * freq_hz / theta)
 
 
 def quantize_cascade(
@@ -242,6 +335,7 @@ def quantize_cascade(
     fmt: Literal["q15", "q31"] = "q15",
     label: str = "",
     tolerance: float = DAMPING_TOLERANCE,
+    frequency_tolerance: float = FREQUENCY_TOLERANCE,
 ) -> tuple[Cascade, tuple[QuantizedSection, ...]]:
     """Quantize every section of a cascade; the gain stays a float (applied by the caller).
 
@@ -255,7 +349,7 @@ def quantize_cascade(
         Storage format. Default ``"q15"``.
     label : str, optional
         Prefix of the section labels.
-    tolerance : float, optional
+    tolerance, frequency_tolerance : float, optional
         See :func:`quantize_section`.
 
     Returns
@@ -268,7 +362,12 @@ def quantize_cascade(
     prefix = label or cascade.label
     sections = tuple(
         quantize_section(
-            row, rate_hz, fmt=fmt, label=f"{prefix}, section {k + 1}", tolerance=tolerance
+            row,
+            rate_hz,
+            fmt=fmt,
+            label=f"{prefix}, section {k + 1}",
+            tolerance=tolerance,
+            frequency_tolerance=frequency_tolerance,
         )
         for k, row in enumerate(cascade.sos)
     )
@@ -283,6 +382,7 @@ def quantize_parallel(
     fmt: Literal["q15", "q31"] = "q15",
     label: str = "",
     tolerance: float = DAMPING_TOLERANCE,
+    frequency_tolerance: float = FREQUENCY_TOLERANCE,
 ) -> tuple[ParallelForm, tuple[QuantizedSection, ...]]:
     """Quantize every branch of a parallel form (see :func:`quantize_cascade`).
 
@@ -296,7 +396,7 @@ def quantize_parallel(
         Storage format.
     label : str, optional
         Prefix of the section labels.
-    tolerance : float, optional
+    tolerance, frequency_tolerance : float, optional
         See :func:`quantize_section`.
 
     Returns
@@ -309,7 +409,14 @@ def quantize_parallel(
     branches, sections = [], []
     for branch in form.branches:
         name = f"{label}, {branch.label}" if label else branch.label
-        rounded, secs = quantize_cascade(branch, rate_hz, fmt=fmt, label=name, tolerance=tolerance)
+        rounded, secs = quantize_cascade(
+            branch,
+            rate_hz,
+            fmt=fmt,
+            label=name,
+            tolerance=tolerance,
+            frequency_tolerance=frequency_tolerance,
+        )
         branches.append(rounded)
         sections.extend(secs)
     return ParallelForm(form.feedthrough, tuple(branches)), tuple(sections)
@@ -367,12 +474,15 @@ def run_fixed(sections, samples) -> np.ndarray:
     for sec in sections:
         top = 2 ** (sec.word_bits - 1)
         b0, b1, b2, a1, a2 = sec.integers
-        half = 1 << (sec.frac_bits - 1) if sec.frac_bits > 0 else 0
+        f = sec.frac_bits
+        kb = 1 << (f - sec.num_frac_bits)
+        k1, k2 = 1 << (f - sec.a1_frac_bits), 1 << (f - sec.a2_frac_bits)
+        half = 1 << (f - 1) if f > 0 else 0
         x1 = x2 = y1 = y2 = 0
         out = []
         for x in signal:
-            acc = b0 * x + b1 * x1 + b2 * x2 - a1 * y1 - a2 * y2
-            y = (acc + half) >> sec.frac_bits
+            acc = kb * (b0 * x + b1 * x1 + b2 * x2) - k1 * a1 * y1 - k2 * a2 * y2
+            y = (acc + half) >> f
             y = max(-top, min(top - 1, y))
             x2, x1, y2, y1 = x1, x, y1, y
             out.append(y)

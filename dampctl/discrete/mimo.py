@@ -160,7 +160,25 @@ def _path_cascades(design: Design, ss: Matrices, T: float, notes: list[str]):
     return tuple(paths)
 
 
-def _discrete_mimo(design: Design, method: str, T: float, prewarp, notes: list[str]):
+def _not_prewarped(what: str, w: float, T: float) -> str:
+    """Note for a section or block left unwarped: above Nyquist is said as such."""
+    f, nyquist = w / (2 * math.pi), 0.5 / T
+    if f >= nyquist:
+        return (
+            f"{what} at {f:.6g} Hz is above the Nyquist frequency ({nyquist:.6g} Hz): "
+            "not prewarped (it aliases in discrete time)"
+        )
+    return f"{what} at {f:.6g} Hz is at or above {PREWARP_LIMIT} f_s (near Nyquist): not prewarped"
+
+
+def _discrete_mimo(
+    design: Design,
+    method: str,
+    T: float,
+    prewarp,
+    notes: list[str],
+    prewarp_used: list[float | None] | None = None,
+):
     A, B, C, D = design.statespace_matrices()
     modal = _modal_blocks(A) if A.shape[0] else (np.zeros((0, 0)), [])
     if modal is None:
@@ -185,8 +203,10 @@ def _discrete_mimo(design: Design, method: str, T: float, prewarp, notes: list[s
         elif prewarp != "none":
             w = 2.0 * math.pi * float(prewarp)
         if w is not None and w * T / (2.0 * math.pi) >= PREWARP_LIMIT:
-            notes.append(f"modal block at {w / (2 * math.pi):.6g} Hz not prewarped (near Nyquist)")
+            notes.append(_not_prewarped("modal block", w, T))
             w = None
+        if prewarp_used is not None:
+            prewarp_used.append(None if w is None else w / (2.0 * math.pi))
         parts.append(_bilinear(sub, T, w))
     Ad = _block_diagonal([(p[0], p[1], p[2], p[3]) for p in parts])[0]
     Bd = np.vstack([p[1] for p in parts]) if parts else np.zeros((0, D.shape[1]))

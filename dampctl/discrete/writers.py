@@ -8,15 +8,19 @@ be included in one translation unit without a library:
 
 * floating point (always): sections in **direct form II transposed** (two states per section),
   ``y = b0 x + w1; w1 = b1 x − a1 y + w2; w2 = b2 x − a2 y``; the arithmetic type is
-  ``dampctl_real`` (``double`` unless ``DAMPCTL_REAL`` is defined, e.g. ``-DDAMPCTL_REAL=float``).
+  ``dampctl_real`` (``double`` unless ``DAMPCTL_REAL`` is defined, e.g. ``-DDAMPCTL_REAL=float``;
+  every constant goes through ``DAMPCTL_K`` so single precision stays single precision).
   ``dampctl_<name>_command(state, y)`` returns the actuator command **u = −K(z) y** for one
-  sample (the sign of negative feedback is included);
-* fixed point (with ``--fixed``): integer sections in **direct form I** with an ``int64_t``
-  accumulator (four states per section), rounding shift by the section's fractional bits and
-  saturation to the word (see :mod:`dampctl.discrete.fixedpoint`). ``dampctl_<name>_q_branch<j>``
-  runs one branch's cascade on integer samples and returns its integer output; the caller multiplies
-  by the branch's cascade gain (``dampctl_<name>_cascade_gain<j>``, a float in controller units),
-  adds the feedthrough and the branches, and negates, in its own signal scaling.
+  sample (the sign of negative feedback is included); a loop or branch whose gain is zero is
+  not emitted;
+* fixed point (with ``--fixed``): the sections scaled for the signal range
+  (:mod:`dampctl.discrete.scaling`) as integer sections in **direct form I** with an ``int64_t``
+  accumulator (four states per section), each coefficient with its own fractional bits, a
+  rounding shift and saturation to the word (see :mod:`dampctl.discrete.fixedpoint`).
+  ``dampctl_<name>_q_branch<j>`` runs one branch on an input word (the sensor value divided by
+  ``DAMPCTL_<NAME>_INPUT_FULL_SCALE``, as a fraction of full scale) and returns its output word;
+  the caller multiplies it by ``dampctl_<name>_output_scale<j>`` / 2^(W−1) (actuator units),
+  adds the feedthrough and the branches, and negates.
 """
 
 from __future__ import annotations
@@ -115,41 +119,55 @@ def _fixed_dict(result: ExportResult) -> dict | None:
     return {
         "number_format": result.fixed,
         "damping_tolerance": result.tolerance,
-        "convention": "coefficient c stored as round(c * 2**frac_bits) in a word of word_bits; "
-        "frac_bits = word_bits - 1 - shift; direct form I, int64 accumulator, "
-        "y = saturate((acc + 2**(frac_bits-1)) >> frac_bits)",
-        "loops": [
+        "frequency_tolerance": result.frequency_tolerance,
+        "scaling": result.scaling,
+        "convention": "input word = sensor value / input_full_scale (a fraction of full scale); "
+        "coefficients stored as round(c * 2**F) with their own fractional bits (numerator "
+        "num_frac_bits, a1 a1_frac_bits, a2 a2_frac_bits); direct form I, int64 accumulator, "
+        "F = max of the three, acc = 2**(F-num_frac_bits)*(b0 x0 + b1 x1 + b2 x2) "
+        "- 2**(F-a1_frac_bits)*a1 y1 - 2**(F-a2_frac_bits)*a2 y2, "
+        "y = saturate((acc + 2**(F-1)) >> F); branch command = output_scale * y / 2**(W-1); "
+        "u = -(feedthrough * sensor value + sum of branch commands)",
+        "loops": [_fixed_loop(r) for r in result.fixed_realisations],
+        "refused": list(result.refused),
+    }
+
+
+def _fixed_loop(r: Realisation) -> dict:
+    s = r.scaling
+    return {
+        "name": r.name,
+        "feedthrough": r.form.feedthrough,
+        "input_full_scale": s.input_full_scale,
+        "input_range_any_signal": s.input_range_any_signal,
+        "output_limit": s.output_limit,
+        "peak_command": s.peak_command,
+        "noise_rms": r.noise_rms,
+        "coefficient_error_rms": r.coefficient_error_rms,
+        "branches": [
             {
-                "name": r.name,
-                "feedthrough": r.form.feedthrough,
-                "branches": [
+                "label": scaled.label,
+                "output_scale": scaled.output_scale,
+                "sections": [
                     {
-                        "label": branch.label,
-                        "cascade_gain": branch.gain,
-                        "sections": [
-                            {
-                                "integers": list(s.integers),
-                                "word_bits": s.word_bits,
-                                "frac_bits": s.frac_bits,
-                                "shift": s.shift,
-                                "sos": np.asarray(s.sos).tolist(),
-                                "pole_before": _poles(s.before),
-                                "pole_after": _poles(s.after),
-                                "damping_change": _num(s.damping_change),
-                                "accepted": s.accepted,
-                                "peak_gain": _num(peak),
-                            }
-                            for s, peak in zip(secs, peaks, strict=True)
-                        ],
+                        "integers": list(q.integers),
+                        "word_bits": q.word_bits,
+                        "num_frac_bits": q.num_frac_bits,
+                        "a1_frac_bits": q.a1_frac_bits,
+                        "a2_frac_bits": q.a2_frac_bits,
+                        "sos": np.asarray(q.sos).tolist(),
+                        "pole_before": _poles(q.before),
+                        "pole_after": _poles(q.after),
+                        "damping_change": _num(q.damping_change),
+                        "frequency_change": _num(q.frequency_change),
+                        "accepted": q.accepted,
+                        "peak_gain": _num(peak),
                     }
-                    for branch, secs, peaks in zip(
-                        r.form.branches, r.sections, r.peak_gains, strict=True
-                    )
+                    for q, peak in zip(secs, peaks, strict=True)
                 ],
             }
-            for r in result.fixed_realisations
+            for scaled, secs, peaks in zip(s.branches, r.sections, r.peak_gains, strict=True)
         ],
-        "refused": list(result.refused),
     }
 
 
@@ -196,6 +214,7 @@ def payload(result: ExportResult) -> dict:
             {"actuator": p.actuator, "sensor": p.sensor, **_form(p.parallel)} for p in c.paths
         ],
         "state_space": _matrices(c.state_space),
+        "block_prewarp_hz": list(c.block_prewarp_hz),
         "fixed_point": _fixed_dict(result),
         "verification": verification_dict(result),
         "notes": list(c.notes),
@@ -218,7 +237,11 @@ def sections_csv(result: ExportResult) -> str:
 
     Columns: loop, branch, section (1-based), b0, b1, b2, a1, a2 (a0 = 1), cascade_gain (of the
     whole branch cascade, repeated on each of its rows, not a per-section gain), feedthrough
-    (of the loop); with fixed point also the stored integers, frac_bits and shift.
+    (of the loop). With fixed point the rows are the scaled sections in the order they run,
+    their floats the values the integers stand for, and the columns go on with the stored
+    integers, num_frac_bits, a1_frac_bits, a2_frac_bits, the branch's output_scale (actuator
+    units per full-scale output word) and the loop's input_full_scale (sensor units per
+    full-scale input word); cascade_gain is then output_scale / input_full_scale.
 
     Parameters
     ----------
@@ -230,20 +253,24 @@ def sections_csv(result: ExportResult) -> str:
     header.append("feedthrough")
     fixed = result.fixed != "none"
     if fixed:
-        header += ["b0_int", "b1_int", "b2_int", "a1_int", "a2_int", "frac_bits", "shift"]
+        header += ["b0_int", "b1_int", "b2_int", "a1_int", "a2_int"]
+        header += ["num_frac_bits", "a1_frac_bits", "a2_frac_bits"]
+        header += ["output_scale", "input_full_scale"]
     out.write(",".join(header) + "\n")
     reals = result.fixed_realisations if fixed else result.realisations
-    floats = {r.name: r for r in result.realisations}
     for real in reals:
-        base = floats[real.name]
-        for b, branch in enumerate(base.form.branches):
+        for b, branch in enumerate(real.form.branches):
             for k, row in enumerate(branch.sos):
                 cells = [real.name, str(b + 1), str(k + 1)]
                 cells += [repr(float(v)) for v in (row[0], row[1], row[2], row[4], row[5])]
-                cells += [repr(branch.gain), repr(base.form.feedthrough)]
+                cells += [repr(branch.gain), repr(real.form.feedthrough)]
                 if fixed:
                     sec = real.sections[b][k]
-                    cells += [str(v) for v in sec.integers] + [str(sec.frac_bits), str(sec.shift)]
+                    cells += [str(v) for v in sec.integers]
+                    cells += [str(sec.num_frac_bits), str(sec.a1_frac_bits)]
+                    cells += [str(sec.a2_frac_bits)]
+                    cells += [repr(real.scaling.branches[b].output_scale)]
+                    cells += [repr(real.scaling.input_full_scale)]
                 out.write(",".join(_csv_cell(c) for c in cells) + "\n")
     return out.getvalue()
 
@@ -262,6 +289,9 @@ _C_FLOAT = """
 #define DAMPCTL_REAL double
 #endif
 typedef DAMPCTL_REAL dampctl_real;
+/* every constant is written through DAMPCTL_K, so that with -DDAMPCTL_REAL=float the
+   arithmetic stays in single precision (no double promotion) */
+#define DAMPCTL_K(x) ((dampctl_real)(x))
 
 /* one section (b0 + b1 z^-1 + b2 z^-2) / (1 + a1 z^-1 + a2 z^-2) */
 typedef struct { dampctl_real b0, b1, b2, a1, a2; } dampctl_biquad;
@@ -283,20 +313,25 @@ static inline dampctl_real dampctl_cascade(const dampctl_biquad *s, int n_sectio
 _C_FIXED = """
 typedef {word} dampctl_q;
 
-/* one integer section; values are integer / 2^frac_bits */
-typedef struct {{ {word} b0, b1, b2, a1, a2; int frac_bits; }} dampctl_biquad_q;
+/* one integer section: b stored with frac_bits - shift_b fractional bits, a1 with
+   frac_bits - shift_a1, a2 with frac_bits - shift_a2; each product is brought to frac_bits
+   fractional bits by the left shift before the sum */
+typedef struct {{ {word} b0, b1, b2, a1, a2; int shift_b, shift_a1, shift_a2, frac_bits; }}
+    dampctl_biquad_q;
 
 /* Cascade in direct form I with an int64_t accumulator; st holds 4 states per section
-   (x[n-1], x[n-2], y[n-1], y[n-2]; zero them first). Keep signal headroom: the accumulator
-   of five products can overflow only with every sample near full scale. Right shifts of
-   negative values are arithmetic on every compiler this is meant for (gcc, clang, armcc). */
+   (x[n-1], x[n-2], y[n-1], y[n-2]; zero them first). The sections are scaled (L. B. Jackson,
+   Bell Syst. Tech. J. 49(2), 1970) so that no section output overflows for inputs within the
+   loop's input full scale; the saturation below only acts beyond it. Right shifts of negative
+   values are arithmetic on every compiler this is meant for (gcc, clang, armcc). */
 static inline dampctl_q dampctl_cascade_q(const dampctl_biquad_q *s, int n_sections,
                                           dampctl_q *st, dampctl_q x)
 {{
     for (int i = 0; i < n_sections; ++i, st += 4) {{
-        int64_t acc = (int64_t)s[i].b0 * x + (int64_t)s[i].b1 * st[0]
-                    + (int64_t)s[i].b2 * st[1] - (int64_t)s[i].a1 * st[2]
-                    - (int64_t)s[i].a2 * st[3];
+        int64_t acc = ((int64_t)s[i].b0 * x + (int64_t)s[i].b1 * st[0]
+                       + (int64_t)s[i].b2 * st[1]) * ((int64_t)1 << s[i].shift_b)
+                    - (int64_t)s[i].a1 * st[2] * ((int64_t)1 << s[i].shift_a1)
+                    - (int64_t)s[i].a2 * st[3] * ((int64_t)1 << s[i].shift_a2);
         acc = (acc + ((int64_t)1 << (s[i].frac_bits - 1))) >> s[i].frac_bits;
         if (acc > {top}) acc = {top};
         if (acc < -{top} - 1) acc = -{top} - 1;
@@ -323,8 +358,10 @@ def c_header(result: ExportResult) -> str:
         f"fixed point {result.fixed}",
         f" * plant fingerprint {c.plant_fingerprint}",
         " * Sign: every *_command routine returns u = -K(z) y (negative feedback).",
-        " * Safety: verify on hardware with limited gain first, ramp the gain up, keep",
-        " * hardware limits and an emergency stop. */",
+        " * Safety: an active loop can break the structure and piezo amplifiers run at",
+        " * hazardous voltage. Verify on hardware with limited gain first, ramp the gain up,",
+        " * keep hardware limits and an emergency stop, and follow the local electrical-safety",
+        " * codes and the lab's procedures. */",
         "#ifndef DAMPCTL_CONTROLLER_H",
         "#define DAMPCTL_CONTROLLER_H",
         "#include <stdint.h>",
@@ -345,12 +382,26 @@ def c_header(result: ExportResult) -> str:
     return "\n".join(lines) + "\n"
 
 
+def _k(value: float) -> str:
+    return f"DAMPCTL_K({float(value)!r})"
+
+
+def _live(branch) -> bool:
+    """A branch that contributes: non-zero gain and a numerator somewhere."""
+    return branch.gain != 0.0 and bool(np.any(np.asarray(branch.sos)[:, :3] != 0.0))
+
+
 def _c_float_realisation(real: Realisation) -> list[str]:
     name = _ident(real.name)
     out = [f"/* {real.name}: {real.actuator} from {real.sensor} */"]
-    states = sum(2 * len(b.sos) for b in real.form.branches)
-    out.append(f"#define DAMPCTL_{name.upper()}_STATES {states}")
-    for j, branch in enumerate(real.form.branches):
+    live = [(j, b) for j, b in enumerate(real.form.branches) if _live(b)]
+    if not live and real.form.feedthrough == 0.0:
+        out.append(f"/* {real.name} is zero (gain 0): no routine is emitted for it */")
+        out.append("")
+        return out
+    states = sum(2 * len(b.sos) for _, b in live)
+    out.append(f"#define DAMPCTL_{name.upper()}_STATES {max(states, 1)}")
+    for j, branch in live:
         out.append(f"static const dampctl_biquad dampctl_{name}_sos{j}[{len(branch.sos)}] = {{")
         out += [_c_row(row) for row in branch.sos]
         out.append("};")
@@ -358,12 +409,14 @@ def _c_float_realisation(real: Realisation) -> list[str]:
         f"static inline dampctl_real dampctl_{name}_command(dampctl_real *state, dampctl_real y)"
     )
     out.append("{")
-    out.append(f"    dampctl_real k = {real.form.feedthrough!r} * y;")
+    if not live:
+        out.append("    (void)state;")
+    out.append(f"    dampctl_real k = {_k(real.form.feedthrough)} * y;")
     offset = 0
-    for j, branch in enumerate(real.form.branches):
+    for j, branch in live:
         n = len(branch.sos)
         out.append(
-            f"    k += {branch.gain!r} * dampctl_cascade(dampctl_{name}_sos{j}, {n}, "
+            f"    k += {_k(branch.gain)} * dampctl_cascade(dampctl_{name}_sos{j}, {n}, "
             f"state + {offset}, y);"
         )
         offset += 2 * n
@@ -373,27 +426,44 @@ def _c_float_realisation(real: Realisation) -> list[str]:
 
 def _c_fixed_realisation(real: Realisation) -> list[str]:
     name = _ident(real.name)
-    out = [f"/* {real.name}, fixed point: branch cascades on integer samples */"]
+    scaling = real.scaling
+    out = [
+        f"/* {real.name}, fixed point: branch cascades on integer samples. Input word = "
+        f"sensor value / DAMPCTL_{name.upper()}_INPUT_FULL_SCALE (full scale = 2^(W-1)); "
+        f"branch j's command = dampctl_{name}_output_scale<j> * word / 2^(W-1) (actuator "
+        f"units); u = -(feedthrough * sensor value + sum of the branch commands). */",
+        f"#define DAMPCTL_{name.upper()}_INPUT_FULL_SCALE {_k(scaling.input_full_scale)}",
+    ]
     for j, (branch, secs) in enumerate(zip(real.form.branches, real.sections, strict=True)):
+        if not _live(branch):
+            out.append(f"/* branch {j} is zero: not emitted */")
+            continue
         out.append(f"#define DAMPCTL_{name.upper()}_Q{j}_STATES {4 * len(secs)}")
-        out.append(f"static const double dampctl_{name}_cascade_gain{j} = {branch.gain!r};")
+        out.append(
+            f"static const dampctl_real dampctl_{name}_output_scale{j} = "
+            f"{_k(scaling.branches[j].output_scale)};"
+        )
         out.append(f"static const dampctl_biquad_q dampctl_{name}_q{j}[{len(secs)}] = {{")
         for s in secs:
             vals = ", ".join(str(v) for v in s.integers)
-            out.append(f"    {{{vals}, {s.frac_bits}}}, /* shift {s.shift} */")
+            f = s.frac_bits
+            shifts = f"{f - s.num_frac_bits}, {f - s.a1_frac_bits}, {f - s.a2_frac_bits}, {f}"
+            out.append(f"    {{{vals}, {shifts}}},")
         out.append("};")
         out.append(
             f"static inline dampctl_q dampctl_{name}_q_branch{j}(dampctl_q *state, dampctl_q x)"
         )
         out.append(f"{{ return dampctl_cascade_q(dampctl_{name}_q{j}, {len(secs)}, state, x); }}")
-    out.append(f"static const double dampctl_{name}_feedthrough = {real.form.feedthrough!r};")
+    out.append(
+        f"static const dampctl_real dampctl_{name}_feedthrough = {_k(real.form.feedthrough)};"
+    )
     out.append("")
     return out
 
 
 def _c_row(row) -> str:
     b0, b1, b2, _a0, a1, a2 = (float(v) for v in row)
-    return f"    {{{b0!r}, {b1!r}, {b2!r}, {a1!r}, {a2!r}}},"
+    return f"    {{{_k(b0)}, {_k(b1)}, {_k(b2)}, {_k(a1)}, {_k(a2)}}},"
 
 
 def export_files(result: ExportResult, formats: Sequence[str] = FORMATS) -> dict[str, str]:

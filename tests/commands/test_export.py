@@ -17,7 +17,9 @@ from dampctl.testing import chain_plant
 
 @pytest.fixture(scope="module")
 def plant():
-    return chain_plant([1.0, 1.0, 1.0], [4e5, 4e5, 4e5], damping=0.005)
+    chain = chain_plant([1.0, 1.0, 1.0], [4e5, 4e5, 4e5], damping=0.005)
+    # the actuators' limit sets the fixed-point signal range by default
+    return replace(chain, actuators=tuple(replace(a, max_force_n=50.0) for a in chain.actuators))
 
 
 def _dvf(plant):
@@ -113,7 +115,9 @@ def test_oversensitive_q15_section_exits_1_naming_it(tmp_path, plant):
     assert "no files written" in out and not (tmp_path / "o").exists()
     code, _, err = _run([p, d, "--rate", "20000", "--fixed", "q15", "-o", str(tmp_path / "o")])
     assert code == 1
-    assert "loop q3, section 1: damping ratio moves by" in err
+    assert "loop q3, section 1: pole frequency moves by" in err
+    # the advice: the other format, or the rate the pole-sensitivity estimate allows
+    assert "use q31, or a sample rate of at most about" in err
     code, _, err = _run([p, d, "--rate", "50000", "--fixed", "q31", "-o", str(tmp_path / "o")])
     assert code == 0, err
 
@@ -205,3 +209,25 @@ def test_near_miss_of_the_sampled_damping_gets_a_retuning_hint():
     assert near.startswith("mode 1: sampled-loop damping 0.01499 < required 0.015 (0.067 % short")
     assert near.endswith("--target-damping 0.01515)")
     assert far == "mode 2: sampled-loop damping 0.012 < required 0.015"
+
+
+def test_fixed_point_needs_a_signal_range(tmp_path):
+    bare = chain_plant([1.0, 1.0, 1.0], [4e5, 4e5, 4e5], damping=0.005)  # no actuator limits
+    p, d = _files(tmp_path, bare, _dvf(bare))
+    code, _, err = _run([p, d, "--rate", "10000", "--fixed", "q15", "-o", str(tmp_path / "o")])
+    assert code == 2 and "--input-range" in err and err.count("\n") == 1
+    assert not (tmp_path / "o").exists()
+    code, out, err = _run(
+        [p, d, "--rate", "10000", "--fixed", "q15", "--input-range", "p3=0.02",
+         "-o", str(tmp_path / "o"), "--json"]
+    )
+    assert code == 0, err
+    loop = json.loads(out)["fixed_point"]["loops"][0]
+    assert loop["input_full_scale"] == 0.02 and loop["output_limit"] is None
+    assert loop["noise_rms"] > 0 and loop["coefficient_error_rms"] > 0
+    for bad, what in (("p9=1", "not a loop"), ("x", "expected a number"), ("-1", "positive")):
+        code, _, err = _run(
+            [p, d, "--rate", "10000", "--fixed", "q15", "--input-range", bad,
+             "-o", str(tmp_path / "bad")]
+        )
+        assert code == 2 and what in err, err

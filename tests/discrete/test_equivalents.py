@@ -205,7 +205,31 @@ def test_section_near_nyquist_is_not_prewarped_and_noted():
     design = ppf_bank([4800.0])
     dc = discretize(design, RATE)
     assert dc.loops[0].prewarp_hz == (None,)
-    assert any("not prewarped" in note for note in dc.notes)
+    assert any("near Nyquist): not prewarped" in note for note in dc.notes)
+    # a section above the Nyquist frequency is called that
+    dc = discretize(ppf_bank([7000.0]), RATE)
+    assert any("above the Nyquist frequency (5000 Hz)" in note for note in dc.notes)
+
+
+def test_auto_prewarp_records_every_modal_block_of_a_mimo_controller():
+    # one block at 80 Hz (prewarped there: its |eigenvalue| = √(σ² + ω²)) and one at 7 kHz,
+    # above the 5 kHz Nyquist frequency (not prewarped, and said so)
+    A = np.zeros((4, 4))
+    for k, (sigma, w) in enumerate([(-20.0, 2 * np.pi * 80), (-500.0, 2 * np.pi * 7000)]):
+        A[2 * k : 2 * k + 2, 2 * k : 2 * k + 2] = [[sigma, w], [-w, sigma]]
+    design = Design(
+        law="lqg",
+        plant_fingerprint="none",
+        actuators=("f1",),
+        sensors=("x1",),
+        target_modes=(1,),
+        controller=(A, np.ones((4, 1)), np.ones((1, 4)), np.zeros((1, 1))),
+    )
+    dc = discretize(design, RATE)
+    first, second = dc.block_prewarp_hz
+    assert first == pytest.approx(np.hypot(20.0, 2 * np.pi * 80) / (2 * np.pi), rel=1e-12)
+    assert second is None
+    assert any("above the Nyquist frequency" in note for note in dc.notes)
 
 
 def test_pure_gain_and_leaky_integrator():

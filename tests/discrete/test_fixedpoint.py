@@ -26,30 +26,30 @@ def _denominator(freq_hz, damping):
     return -2 * p.real, abs(p) ** 2
 
 
-def test_q15_rounding_example_of_references_11():
+def test_q15_rounding_of_a_lightly_damped_low_frequency_pair():
     a1, a2 = _denominator(100.0, 0.01)
     assert a1 == pytest.approx(-1.99480009, abs=1e-8)
     assert a2 == pytest.approx(0.99874415, abs=1e-8)
+    # both in Q1.14 (one format for the denominator): the pole moves to 99.5199 Hz, ζ 0.010256
+    common = section_poles(-1.9948120117, 0.9987182617, RATE)
+    assert common.freq_hz == pytest.approx(99.5199, abs=1e-4)
+    assert common.damping == pytest.approx(0.010256, abs=1e-6)
+    # dampctl stores a1 in Q1.14 (|a1| close to 2) and a2 = r² < 1 in Q15, which halves the
+    # radius error (∂r/∂a2 = 1/(2r), Oppenheim & Schafer 2010): 99.9073 Hz, ζ 0.009972
     q = quantize_section([1.0, 0.0, 0.0, 1.0, a1, a2], RATE, fmt="q15")
-    # Q1.14 storage: 16-bit word, 14 fractional bits, shift 1
-    assert (q.word_bits, q.frac_bits, q.shift) == (16, 14, 1)
+    assert (q.word_bits, q.a1_frac_bits, q.a2_frac_bits) == (16, 14, 15)
     assert q.sos[4] == pytest.approx(-1.9948120117, abs=1e-10)
-    assert q.sos[5] == pytest.approx(0.9987182617, abs=1e-10)
-    assert q.after.radius - q.before.radius == pytest.approx(-1.295e-5, abs=1e-8)
-    assert q.after.freq_hz == pytest.approx(99.5199, abs=1e-4)
-    assert q.after.damping == pytest.approx(0.010256, abs=1e-6)
-    assert q.damping_change == pytest.approx(0.0256, abs=1e-3)
-    assert q.accepted  # +2.6 % is inside the 5 % tolerance
-    # mixed storage row of the table (a1 in Q1.14, a2 in Q15): f 99.9073 Hz, ζ 0.009972
-    mixed = section_poles(-1.9948120117, 0.9987487793, RATE)
-    assert mixed.freq_hz == pytest.approx(99.9073, abs=1e-4)
-    assert mixed.damping == pytest.approx(0.009972, abs=1e-6)
+    assert q.sos[5] == pytest.approx(0.9987487793, abs=1e-10)
+    assert q.after.freq_hz == pytest.approx(99.9073, abs=1e-4)
+    assert q.after.damping == pytest.approx(0.009972, abs=1e-6)
+    assert q.frequency_change == pytest.approx(-0.000927, abs=2e-6)
+    assert q.accepted  # −0.09 % in frequency, −0.3 % in damping: inside 0.2 % and 5 %
 
 
 def test_q31_rounding_example_of_references_11():
     a1, a2 = _denominator(100.0, 0.01)
     q = quantize_section([1.0, 0.0, 0.0, 1.0, a1, a2], RATE, fmt="q31")
-    assert (q.word_bits, q.frac_bits, q.shift) == (32, 30, 1)
+    assert (q.word_bits, q.num_frac_bits, q.a1_frac_bits, q.a2_frac_bits) == (32, 30, 30, 30)
     assert q.sos[4] == pytest.approx(-1.9948000880, abs=1e-10)
     assert q.sos[5] == pytest.approx(0.9987441525, abs=1e-10)
     assert q.after.radius - q.before.radius == pytest.approx(1.6e-10, abs=0.1e-10)
@@ -68,24 +68,36 @@ def test_fourth_order_direct_form_goes_unstable_while_biquads_stay_stable():
     direct = np.round(den * 2**12) / 2**12  # Q3.12 to hold |a| < 8
     radii = np.sort(np.abs(np.roots(direct)))[::-1]
     np.testing.assert_allclose(radii, [1.0119, 1.0119, 1.0000, 0.9741], atol=1e-4)
+    # the same poles as two biquads with a1, a2 both in Q1.14 keep |z| = 0.999359, 0.999298
+    common = [np.round(np.array(d) * 2**14) / 2**14 for d in (d1, d2)]
+    radii_common = [np.max(np.abs(np.roots([1.0, *d]))) for d in common]
+    assert radii_common == pytest.approx([0.999359, 0.999298], abs=1e-6)
+    # dampctl's biquads (a2 in Q15) are stable too, and closer to the exact radii
     biquads = [quantize_section([1, 0, 0, 1, *d], RATE, fmt="q15") for d in (d1, d2)]
     assert [q.stable for q in biquads] == [True, True]
-    assert [q.after.radius for q in biquads] == pytest.approx([0.999359, 0.999298], abs=1e-6)
+    exact = [np.sqrt(d[1]) for d in (d1, d2)]
+    for q, r, rc in zip(biquads, exact, radii_common, strict=True):
+        assert abs(q.after.radius - r) < abs(rc - r)
 
 
 def test_oversensitive_low_frequency_section_is_refused_with_its_name():
     a1, a2 = _denominator(10.0, 0.01)  # θ = ωT tiny: ∂θ/∂a1 = 1/(2 r sin θ) ≈ 80
     q = quantize_section([1, 0, 0, 1, a1, a2], RATE, fmt="q15", label="loop p1, section 2")
     assert not q.accepted
-    assert q.reason.startswith("loop p1, section 2: damping ratio moves by")
+    assert q.reason.startswith("loop p1, section 2: pole frequency moves by")
     assert quantize_section([1, 0, 0, 1, a1, a2], RATE, fmt="q31").accepted
 
 
-def test_shift_is_the_smallest_that_fits():
+def test_each_coefficient_gets_the_most_fraction_bits_that_fit():
     q = quantize_section([0.25, 0.5, 0.25, 1.0, -0.4, 0.2], RATE, fmt="q15")
-    assert q.shift == 0 and q.frac_bits == 15
+    assert (q.num_frac_bits, q.a1_frac_bits, q.a2_frac_bits, q.frac_bits) == (15, 15, 15, 15)
     q = quantize_section([0.25, 0.5, 0.25, 1.0, -1.2, 0.5], RATE, fmt="q15")
-    assert q.shift == 1 and q.integers[3] == round(-1.2 * 2**14)
+    assert q.a1_frac_bits == 14 and q.integers[3] == round(-1.2 * 2**14)
+    # a small (scaled) numerator keeps its precision: 2.5e-4 gets 25 fraction bits, not 2
+    # counts of Q1.14
+    q = quantize_section([2.5e-4, 5e-4, 2.5e-4, 1.0, -1.2, 0.5], RATE, fmt="q15")
+    assert q.num_frac_bits == 25 and q.integers[1] == round(5e-4 * 2**25)
+    assert q.frac_bits == 25  # the accumulator works at the finest of the three
     with pytest.raises(UsageError, match="one of q15, q31"):
         quantize_section([1, 0, 0, 1, 0, 0], RATE, fmt="q7")
 

@@ -32,9 +32,13 @@ def plant():
     return sdof_plant(1.0, (2 * np.pi * 120.0) ** 2, 2 * 0.01 * 2 * np.pi * 120.0)
 
 
+#: sensor (displacement) at full scale of the input word in the fixed-point tests (m)
+INPUT_RANGE = 1e-3
+
+
 def _result(plant, fixed="none", freqs=(120.0, 135.0)):
     design = ppf_bank(freqs, fingerprint=plant.fingerprint, gain=0.3, damping=0.2)
-    return export_design(plant, design, RATE, fixed=fixed)
+    return export_design(plant, design, RATE, fixed=fixed, input_range=INPUT_RANGE)
 
 
 def test_json_holds_full_precision_and_metadata(plant):
@@ -52,16 +56,26 @@ def test_json_holds_full_precision_and_metadata(plant):
 
 
 def test_csv_lists_every_section_of_the_realisation(plant):
-    result = _result(plant, fixed="q31")
-    rows = list(csv.DictReader(io.StringIO(sections_csv(result))))
-    real = result.realisations[0]
+    rows = list(csv.DictReader(io.StringIO(sections_csv(_result(plant)))))
+    real = _result(plant).realisations[0]
     assert len(rows) == sum(len(b.sos) for b in real.form.branches)
     first = real.form.branches[0]
     assert float(rows[0]["a1"]) == first.sos[0, 4]
     assert float(rows[0]["cascade_gain"]) == first.gain
-    fixed = result.fixed_realisations[0].sections[0][0]
-    assert int(rows[0]["a1_int"]) == fixed.integers[3]
-    assert int(rows[0]["frac_bits"]) == fixed.frac_bits == 30
+    # fixed point: the scaled sections as they run, with the integers they are stored as
+    result = _result(plant, fixed="q31")
+    rows = list(csv.DictReader(io.StringIO(sections_csv(result))))
+    fixed_real = result.fixed_realisations[0]
+    section = fixed_real.sections[0][0]
+    assert int(rows[0]["a1_int"]) == section.integers[3]
+    assert int(rows[0]["a1_frac_bits"]) == section.a1_frac_bits == 30
+    assert float(rows[0]["a1"]) == section.integers[3] / 2**30
+    scale = fixed_real.scaling
+    assert float(rows[0]["input_full_scale"]) == scale.input_full_scale == INPUT_RANGE
+    assert float(rows[0]["output_scale"]) == scale.branches[0].output_scale
+    assert float(rows[0]["cascade_gain"]) == pytest.approx(
+        scale.branches[0].output_scale / INPUT_RANGE, rel=1e-15
+    )
 
 
 def _compile_and_run(tmp_path, header: str, main: str) -> list[float]:
@@ -101,39 +115,75 @@ int main(void) {{
     assert np.max(np.abs(got - want)) <= 1e-6 * np.max(np.abs(want))
 
 
+STRICT = ["-std=c99", "-Wall", "-Wextra", "-pedantic", "-Wdouble-promotion", "-Werror"]
+
+
 @needs_cc
-def test_c_fixed_routine_matches_integer_model_and_sosfilt(tmp_path, plant):
-    result = _result(plant, fixed="q15", freqs=(900.0,))
+def test_c_fixed_routine_on_a_full_scale_random_input(tmp_path, plant):
+    # A full-scale uniform random input word through the Q15 code of a PPF bank (the issue's
+    # case: unscaled sections saturated 8653 of 20 000 samples). After Jackson's L∞ scaling:
+    # no saturation, the integer model is bit exact, and the command error against the float
+    # controller stays within the predicted rounding noise plus the coefficient error
+    # (Oppenheim & Schafer, Discrete-Time Signal Processing, 2010: q²/12 per rounding).
+    result = _result(plant, fixed="q15")
+    assert not result.failures
     real = result.fixed_realisations[0]
-    sections = real.sections[0]
-    n = 600
+    n = 20_000
+    rng = np.random.default_rng(11)
+    x = rng.integers(-(2**15), 2**15, size=n)
+    (tmp_path / "x.txt").write_text("\n".join(str(int(v)) for v in x))
+    calls = "\n".join(
+        f"        y{j} = dampctl_fx_q_branch{j}(s{j}, x); printf(\" %d\", (int)y{j});"
+        for j in range(len(real.sections))
+    )
+    decls = "\n".join(
+        f"    dampctl_q s{j}[DAMPCTL_FX_Q{j}_STATES] = {{0}}; dampctl_q y{j};"
+        for j in range(len(real.sections))
+    )
     main = f"""#include <stdio.h>
 #include "controller.h"
 int main(void) {{
-    dampctl_q state[DAMPCTL_FX_Q0_STATES] = {{0}};
-    for (int k = 0; k < {n}; ++k)
-        printf("%d\\n", (int)dampctl_fx_q_branch0(state, k == 0 ? 8000 : 0));
+{decls}
+    int v;
+    while (scanf("%d", &v) == 1) {{
+        dampctl_q x = (dampctl_q)v;
+{calls}
+        printf("\\n");
+    }}
     return 0;
 }}
 """
-    got = np.array(_compile_and_run(tmp_path, c_header(result), main))
-    x = np.zeros(n, dtype=np.int64)
-    x[0] = 8000
-    np.testing.assert_array_equal(got, run_fixed(sections, x))  # bit exact
-    sos = np.array([s.sos for s in sections])
-    ref = scipy.signal.sosfilt(sos, x.astype(float))
-    assert np.max(np.abs(ref)) < 2**15 - 1
-    # rounding bound: ½ LSB per section output, through 1/A_k and the later sections
-    imp = np.zeros(5000)
-    imp[0] = 1.0
-    bound = sum(
-        0.5
-        * np.sum(
-            np.abs(scipy.signal.sosfilt(np.array([[1.0, 0, 0, *sos[k, 3:]], *sos[k + 1 :]]), imp))
-        )
-        for k in range(len(sos))
+    (tmp_path / "controller.h").write_text(c_header(result))
+    (tmp_path / "main.c").write_text(main)
+    exe = tmp_path / "run"
+    build = subprocess.run(
+        [COMPILER, *STRICT, "-DDAMPCTL_REAL=float", "-o", str(exe), str(tmp_path / "main.c")],
+        capture_output=True,
+        text=True,
+        timeout=60,
     )
-    assert np.max(np.abs(got - ref)) <= bound
+    assert build.returncode == 0, build.stderr  # single precision and strict warnings: silent
+    run = subprocess.run(
+        [str(exe)], input=(tmp_path / "x.txt").read_text(), capture_output=True, text=True
+    )
+    got = np.array([line.split() for line in run.stdout.splitlines()], dtype=np.int64)
+    assert got.shape == (n, len(real.sections))
+    full = 2**15
+    for j, secs in enumerate(real.sections):
+        np.testing.assert_array_equal(got[:, j], run_fixed(secs, x))  # bit exact
+        assert np.max(np.abs(got[:, j])) < full - 1  # no saturation
+    scale = real.scaling
+    command = sum(
+        b.output_scale * got[:, j] / full for j, b in enumerate(scale.branches)
+    )
+    sensor = x / full * scale.input_full_scale
+    float_real = result.realisations[0]
+    ideal = sum(
+        b.gain * scipy.signal.sosfilt(np.array(b.sos), sensor) for b in float_real.form.branches
+    )
+    error = np.std((command - ideal)[2000:])
+    predicted = np.hypot(real.noise_rms, real.coefficient_error_rms)
+    assert 0.5 * predicted < error < 1.5 * predicted
 
 
 def test_export_files_names(plant):
@@ -154,7 +204,7 @@ def test_c_header_of_a_mimo_design_compiles_in_single_precision(tmp_path, plant)
         target_modes=(1,),
         controller=(A, np.array([[1.0], [0.5]]), np.array([[20.0, 5.0]]), np.zeros((1, 1))),
     )
-    result = export_design(plant, design, RATE, fixed="q15")
+    result = export_design(plant, design, RATE, fixed="q15", input_range=INPUT_RANGE)
     path = result.realisations[0]
     (tmp_path / "controller.h").write_text(c_header(result))
     (tmp_path / "main.c").write_text(
@@ -166,16 +216,7 @@ def test_c_header_of_a_mimo_design_compiles_in_single_precision(tmp_path, plant)
     )
     exe = tmp_path / "run"
     build = subprocess.run(
-        [
-            COMPILER,
-            "-std=c99",
-            "-Wall",
-            "-Werror",
-            "-DDAMPCTL_REAL=float",
-            "-o",
-            str(exe),
-            str(tmp_path / "main.c"),
-        ],
+        [COMPILER, *STRICT, "-DDAMPCTL_REAL=float", "-o", str(exe), str(tmp_path / "main.c")],
         capture_output=True,
         text=True,
         timeout=60,
