@@ -202,3 +202,9 @@ def test_schema_command_prints_one_and_lists_them():
     err = io.StringIO()
     assert main(["schema", "plnat"], stdout=io.StringIO(), stderr=err) == 2
     assert "no schema named 'plnat'" in err.getvalue()
+
+
+def test_plant_new_output_and_starter_file_are_valid(tmp_path):
+    target = tmp_path / "starter.toml"
+    assert_valid(_run(["plant", "new", "-o", str(target), "--json"]), "plant-new")
+    assert_valid(tomllib.loads(target.read_text(encoding="utf-8")), "plant")
