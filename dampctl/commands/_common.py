@@ -19,6 +19,28 @@ SAFETY_LINES = (
 )
 
 
+def add_force_option(parser, what: str) -> None:
+    """``--force``: the one meaning it has on every command that writes.
+
+    Without it an existing output is never replaced; with it, outputs of the same names are
+    replaced whole (a folder's other files stay). Special files (devices, FIFOs, sockets) and
+    the command's own inputs are refused either way (:mod:`dampctl.fileio`).
+
+    Parameters
+    ----------
+    parser : argparse.ArgumentParser
+        The subcommand's parser.
+    what : str
+        What gets replaced, for the help text ("the design file", "files of the same names in
+        DIR").
+    """
+    parser.add_argument(
+        "--force",
+        action="store_true",
+        help=f"replace {what} if it exists (default: refuse and change nothing)",
+    )
+
+
 def name_list(text: str | None, option: str) -> list[str]:
     """Split ``a,b,c`` into names; empty or None gives []."""
     if text is None:

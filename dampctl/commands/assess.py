@@ -8,9 +8,10 @@ from typing import TextIO
 
 from dampctl.analysis.assess_json import robustness_lines
 from dampctl.analysis.assessment import PHASE_MARGIN_CONVENTION, assess
-from dampctl.commands._common import SAFETY_LINES, print_json, table
+from dampctl.commands._common import SAFETY_LINES, add_force_option, print_json, table
 from dampctl.design import load_design
 from dampctl.errors import UsageError
+from dampctl.fileio import check_output_folder
 from dampctl.model.plantfile import load_plant
 from dampctl.progress import Progress
 
@@ -62,9 +63,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument(
         "--plots", metavar="DIR", default=None, help="write PNG figures into DIR (default: none)"
     )
-    parser.add_argument(
-        "--force", action="store_true", help="replace existing figures in DIR (default: refuse)"
-    )
+    add_force_option(parser, "figures of the same names in DIR")
     parser.add_argument("--json", action="store_true", help="print JSON on stdout")
 
 
@@ -89,6 +88,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         raise UsageError(f"--delay-s: expected a delay >= 0 s, got {args.delay_s}")
     if args.samples < 0:
         raise UsageError(f"--samples: expected a count >= 0, got {args.samples}")
+    if args.plots:
+        check_output_folder(args.plots, inputs=(args.plant, args.design), replace=args.force)
     plant = load_plant(args.plant)
     design = load_design(args.design)
     design.check_plant(plant, source=args.design)

@@ -1,8 +1,14 @@
 """The ``dampctl`` command: one subcommand per stage of the job.
 
-Thin by design: parse arguments, call the public API, print. Exit codes: 0 done (and every
-requirement met), 1 done but a requirement of the plant file is not met, 2 bad input or usage
-(one line on stderr naming file, field and problem; no traceback).
+Thin by design: parse arguments, call the public API, print. Exit codes (:data:`EXIT_CODES`):
+
+* 0 done, and every stated requirement met;
+* 1 done, but a requirement stated in the plant file (or by an option) is not met;
+* 2 bad input or usage: one line on stderr naming the file, field or option and the problem;
+* 3 internal error: one line asking to report it (a dampctl bug, never "requirement not met");
+* 130 interrupted (Ctrl-C): one line; outputs are left whole (old or new, see fileio).
+
+The traceback of an error is printed only with ``--debug`` or ``DAMPCTL_DEBUG=1``.
 """
 
 from __future__ import annotations
@@ -10,6 +16,7 @@ from __future__ import annotations
 import argparse
 import os
 import sys
+import traceback
 from collections.abc import Sequence
 from typing import TextIO
 
@@ -17,10 +24,24 @@ from dampctl import __version__
 from dampctl.commands import assess, check, demo, export, plant, report, schema, size, tune
 from dampctl.errors import DampctlError
 
-__all__ = ["build_parser", "entry_point", "main"]
+__all__ = ["EXIT_CODES", "build_parser", "entry_point", "main"]
 
 #: subcommand modules, in the order of the job
 COMMANDS = (plant, check, size, tune, assess, export, report, demo, schema)
+
+#: what each exit code means
+EXIT_CODES = {
+    0: "done (every stated requirement met)",
+    1: "done, but a stated requirement is not met",
+    2: "bad input or usage",
+    3: "internal error (please report it)",
+    130: "interrupted",
+    141: "the reader of the output went away (a closed pipe)",
+}
+#: exit code after the reader of stdout went away (128 + SIGPIPE, as a shell shows it)
+BROKEN_PIPE_EXIT = 141
+#: environment variable that turns on tracebacks like --debug
+DEBUG_ENV = "DAMPCTL_DEBUG"
 
 
 class _Parser(argparse.ArgumentParser):
@@ -44,15 +65,28 @@ def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(
         prog="dampctl",
         description="Design active vibration damping from modal parameters.",
-        epilog="Exit codes: 0 done, 1 a plant-file requirement is not met, 2 bad input.",
+        epilog="Exit codes: 0 done, 1 a stated requirement is not met, 2 bad input or usage, "
+        "3 internal error (please report it), 130 interrupted.",
     )
     parser.add_argument("--version", action="version", version=f"dampctl {__version__}")
+    _debug_option(parser, False)
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     for module in COMMANDS:
         command = sub.add_parser(module.NAME, help=module.HELP, description=module.HELP)
         module.add_arguments(command)
+        _debug_option(command, argparse.SUPPRESS)
         command.set_defaults(_run=module.run)
     return parser
+
+
+def _debug_option(parser: argparse.ArgumentParser, default) -> None:
+    """``--debug``, before or after the subcommand name."""
+    parser.add_argument(
+        "--debug",
+        action="store_true",
+        default=default,
+        help=f"print the traceback of an error (also with {DEBUG_ENV}=1)",
+    )
 
 
 def main(
@@ -70,32 +104,78 @@ def main(
     Returns
     -------
     int
-        Exit code: 0 done, 1 requirement not met, 2 bad input or usage.
+        Exit code (:data:`EXIT_CODES`): 0 done, 1 requirement not met, 2 bad input or usage,
+        3 internal error, 130 interrupted.
     """
     out = stdout if stdout is not None else sys.stdout
     err = stderr if stderr is not None else sys.stderr
-    parser = build_parser()
+    argv = list(sys.argv[1:] if argv is None else argv)
+    debug = os.environ.get(DEBUG_ENV, "").strip() not in ("", "0")
+    name = "dampctl"
     try:
-        args = parser.parse_args(list(sys.argv[1:] if argv is None else argv))
-    except _UsageExit as exc:
-        err.write(f"{exc}\n")
-        return 2
-    except SystemExit as exc:  # --help / --version
-        return int(exc.code or 0)
-    if not getattr(args, "_run", None):
-        parser.print_help(out)
-        return 2
+        parser = build_parser()
+        try:
+            args = parser.parse_args(argv)
+        except _UsageExit as exc:
+            err.write(f"{exc}\n")
+            return 2
+        except SystemExit as exc:  # --help / --version
+            return int(exc.code or 0)
+        debug = debug or bool(getattr(args, "debug", False))
+        if not getattr(args, "_run", None):
+            parser.print_help(out)
+            return 2
+        name = f"dampctl {args.command}"
+        return _run(args, out, err, name, debug)
+    except KeyboardInterrupt:
+        _flush(out)
+        err.write(f"{name}: interrupted\n")
+        return 130
+
+
+def _run(args: argparse.Namespace, out: TextIO, err: TextIO, name: str, debug: bool) -> int:
+    """Run a parsed subcommand and map what it raises to an exit code."""
     try:
-        return int(args._run(args, out, err))
+        code = args._run(args, out, err)
     except DampctlError as exc:
-        err.write(f"dampctl {args.command}: error: {exc}\n")
+        _traceback(err, debug)
+        err.write(f"{name}: error: {_one_line(str(exc))}\n")
         return 2
-    except BrokenPipeError:
-        raise  # the reader went away: entry_point ends quietly
+    except (BrokenPipeError, KeyboardInterrupt):
+        raise  # the reader went away (entry_point ends quietly) / Ctrl-C (main says so)
     except OSError as exc:  # a file the system refuses (permissions, full disk ...)
+        _traceback(err, debug)
         where = f"{exc.filename}: " if exc.filename else ""
-        err.write(f"dampctl {args.command}: error: {where}{exc.strerror or exc}\n")
+        err.write(f"{name}: error: {where}{_one_line(exc.strerror or str(exc))}\n")
         return 2
+    except Exception as exc:  # a bug: never reported as "requirement not met"
+        _traceback(err, debug)
+        hint = "" if debug else f" (run with --debug or {DEBUG_ENV}=1 for the traceback)"
+        err.write(
+            f"{name}: internal error: {type(exc).__name__}: {_one_line(str(exc))[:300]}; "
+            f"this is a bug in dampctl, please report it with the command line{hint}\n"
+        )
+        return 3
+    if not isinstance(code, int) or isinstance(code, bool) or code not in (0, 1, 2):
+        err.write(f"{name}: internal error: the command returned {code!r}; please report it\n")
+        return 3
+    return code
+
+
+def _traceback(err: TextIO, debug: bool) -> None:
+    if debug:
+        err.write(traceback.format_exc())
+
+
+def _one_line(text: str) -> str:
+    return " ".join(text.split())
+
+
+def _flush(stream: TextIO) -> None:
+    try:
+        stream.flush()
+    except (OSError, ValueError):
+        pass
 
 
 def entry_point() -> None:
@@ -108,8 +188,9 @@ def entry_point() -> None:
         code = main()
         sys.stdout.flush()
     except BrokenPipeError:
-        # the reader closed the pipe: drop what is left of stdout without a second error
+        # the reader closed the pipe: drop what is left of stdout without a second error, and
+        # exit as a program ended by SIGPIPE shows in a shell (never 1: that is "not met")
         devnull = os.open(os.devnull, os.O_WRONLY)
         os.dup2(devnull, sys.stdout.fileno())
-        code = 1
+        code = BROKEN_PIPE_EXIT
     sys.exit(code)

@@ -14,7 +14,7 @@ import time
 from pathlib import Path
 from typing import TextIO
 
-from dampctl.commands._common import SAFETY_LINES, json_text, print_json
+from dampctl.commands._common import SAFETY_LINES, add_force_option, json_text, print_json
 from dampctl.commands.check import check_payload
 from dampctl.commands.report import report_html
 from dampctl.errors import DampctlError, OutputError
@@ -40,9 +40,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     """
     parser.add_argument("-o", "--output", default="dampctl-demo", metavar="DIR",
                         help="folder to create for every file (default ./dampctl-demo)")
-    parser.add_argument("--force", action="store_true",
-                        help="write into DIR even if it exists, replacing the demo's files "
-                        "(default: refuse)")
+    add_force_option(parser, "the demo's files in DIR (DIR is otherwise refused when it exists)")
     parser.add_argument("--json", action="store_true", help="print a JSON summary on stdout")
 
 
@@ -128,11 +126,13 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         "assessment.json": json_text(assessment.to_dict(), "assessment"),
         "report.html": html,
     }
-    written = write_files(folder, files, replace=args.force)
-    written += write_files(folder / "plots", {**assessment_pngs(assessment), **sizing_figs},
-                           replace=args.force)
+    for name, png in {**assessment_pngs(assessment), **sizing_figs}.items():
+        files[f"plots/{name}"] = png
     if not exported.refused:
-        written += write_files(folder / "export", export_files(exported), replace=args.force)
+        for name, content in export_files(exported).items():
+            files[f"export/{name}"] = content
+    # one set: a failure or an interrupt leaves the folder's old demo files or the new ones
+    written = write_files(folder, files, replace=args.force, owned=("plots/*.png", "export/*"))
     seconds = time.monotonic() - start
 
     damping = assessment.to_dict()

@@ -4,15 +4,20 @@ from __future__ import annotations
 
 import argparse
 import math
-from pathlib import Path
 from typing import TextIO
 
-from dampctl.commands._common import SAFETY_LINES, print_json, table
+from dampctl.commands._common import SAFETY_LINES, add_force_option, print_json, table
 from dampctl.design import load_design
 from dampctl.discrete.export import export_design
-from dampctl.discrete.writers import FORMATS, export_files, payload, verification_dict
+from dampctl.discrete.writers import (
+    FILE_NAMES,
+    FORMATS,
+    export_files,
+    payload,
+    verification_dict,
+)
 from dampctl.errors import UsageError
-from dampctl.fileio import write_files
+from dampctl.fileio import check_output_folder, write_files
 from dampctl.model.plantfile import load_plant
 
 NAME = "export"
@@ -97,10 +102,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="files to write, comma-separated from json, csv, c (default json,csv,c)",
     )
     parser.add_argument("-o", "--output", required=True, metavar="DIR", help="output folder")
-    parser.add_argument(
-        "--force",
-        action="store_true",
-        help="replace files of the same names in DIR (default: refuse)",
+    add_force_option(
+        parser, "the export files in DIR (other formats of an earlier export there are removed)"
     )
     parser.add_argument("--json", action="store_true", help="print JSON on stdout")
 
@@ -176,8 +179,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
             f"--frequency-tolerance: expected a fraction > 0, got {args.frequency_tolerance}"
         )
     input_range = _input_range(args.input_range)
-    if Path(args.output).exists() and not Path(args.output).is_dir():
-        raise UsageError(f"-o: {args.output} exists and is not a folder")
+    names = [FILE_NAMES[f] for f in formats]
+    check_output_folder(args.output, names, inputs=[args.plant, args.design], replace=args.force)
     plant = load_plant(args.plant)
     design = load_design(args.design)
     design.check_plant(plant, source=args.design)
@@ -208,7 +211,11 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if not failures:
         files = export_files(result, formats)
         written = write_files(
-            args.output, files, inputs=[args.plant, args.design], replace=args.force
+            args.output,
+            files,
+            inputs=[args.plant, args.design],
+            replace=args.force,
+            owned=list(FILE_NAMES.values()),
         )
     code = 1 if failures or unmet else 0
     if args.json:

@@ -10,11 +10,11 @@ from types import SimpleNamespace
 from typing import Any, TextIO
 
 from dampctl.analysis.assessment import assess
-from dampctl.commands._common import jsonable, print_json
+from dampctl.commands._common import add_force_option, jsonable, print_json
 from dampctl.commands.check import check_payload
 from dampctl.design import Design, load_design
 from dampctl.errors import UsageError
-from dampctl.fileio import write_text
+from dampctl.fileio import check_output, write_text
 from dampctl.model.plant import ModalPlant
 from dampctl.model.plantfile import load_plant
 from dampctl.model.survey import survey_plant
@@ -36,6 +36,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("design", help="design file written by dampctl tune (JSON)")
     parser.add_argument("-o", "--output", required=True, metavar="FILE",
                         help="report file to write (HTML)")
+    add_force_option(parser, "the report file")
     parser.add_argument("--sizing", metavar="FILE",
                         help="sizing result saved from `dampctl size --json` (optional)")
     parser.add_argument("--export", metavar="FILE",
@@ -136,6 +137,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     int
         Exit code (bad input raises a DampctlError, turned into exit 2 by the CLI).
     """
+    inputs = [p for p in (args.plant, args.design, args.sizing, args.export) if p]
+    check_output(args.output, inputs=inputs, replace=args.force)
     plant = load_plant(args.plant)
     design = load_design(args.design)
     design.check_plant(plant, source=args.design)
@@ -149,8 +152,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
             "the controller.json written by dampctl export)"
         )
     html, result = report_html(plant, design, sizing=sizing, export=export, delay_s=args.delay_s)
-    inputs = [p for p in (args.plant, args.design, args.sizing, args.export) if p]
-    path = write_text(args.output, html, inputs=inputs)
+    path = write_text(args.output, html, inputs=inputs, replace=args.force)
     unmet = [r.name for r in result.unmet]
     if args.json:
         print_json({"report": str(path), "all_met": result.all_met, "unmet": unmet}, out, "report")

@@ -5,9 +5,16 @@ from __future__ import annotations
 import argparse
 from typing import TextIO
 
-from dampctl.commands._common import SAFETY_LINES, mode_list, name_list, print_json, table
+from dampctl.commands._common import (
+    SAFETY_LINES,
+    add_force_option,
+    mode_list,
+    name_list,
+    print_json,
+    table,
+)
 from dampctl.errors import UsageError
-from dampctl.fileio import write_files
+from dampctl.fileio import check_output_folder, write_files
 from dampctl.model.plantfile import load_plant
 from dampctl.sizing.size import LAWS, size_pairs
 
@@ -63,9 +70,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="write PNG figures (damping and cost against pair count, damping per mode) to DIR "
         "(default none)",
     )
-    parser.add_argument(
-        "--force", action="store_true", help="replace existing figures in DIR (default off)"
-    )
+    add_force_option(parser, "figures of the same names in DIR")
     parser.add_argument("--json", action="store_true", help="print JSON on stdout")
 
 
@@ -85,6 +90,10 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         0 with a recommendation, 1 when no count up to K meets the requirements.
     """
     plant = load_plant(args.plant)
+    if args.plots:
+        from dampctl.report.figures_sizing import SIZING_FIGURES
+
+        check_output_folder(args.plots, SIZING_FIGURES, inputs=[args.plant], replace=args.force)
     if args.target_damping is not None and not 0.0 < args.target_damping < 1.0:
         raise UsageError(f"--target-damping must be in (0, 1), got {args.target_damping}")
     if args.max_pairs is not None and args.max_pairs < 1:

@@ -8,9 +8,16 @@ from dataclasses import replace
 from typing import TextIO
 
 from dampctl.analysis.modetable import TABLE_HEADERS, closed_loop_table
-from dampctl.commands._common import SAFETY_LINES, mode_list, name_list, print_json, table
+from dampctl.commands._common import (
+    SAFETY_LINES,
+    add_force_option,
+    mode_list,
+    name_list,
+    print_json,
+    table,
+)
 from dampctl.errors import MissingFeatureError, UsageError
-from dampctl.fileio import write_text
+from dampctl.fileio import check_output, write_text
 from dampctl.model.plantfile import load_plant
 
 NAME = "tune"
@@ -88,6 +95,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument(
         "-o", "--output", required=True, metavar="DESIGN", help="design file to write (JSON)"
     )
+    add_force_option(parser, "the design file")
     parser.add_argument("--json", action="store_true", help="print JSON on stdout")
 
 
@@ -107,8 +115,9 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         0 done, 1 the loop is unstable or the target damping is not met.
     """
     plant = load_plant(args.plant)
+    check_output(args.output, inputs=[args.plant], replace=args.force)
     design = make_design(plant, args)
-    path = write_text(args.output, design.to_json(), inputs=[args.plant])
+    path = write_text(args.output, design.to_json(), inputs=[args.plant], replace=args.force)
     modes = closed_loop_table(plant, design, delay_s=args.delay_s)
     payload = tune_payload(plant, design, modes, design_file=str(path))
     if args.json:

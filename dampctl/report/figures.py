@@ -466,14 +466,10 @@ def write_assessment_pngs(
     list of Path
         The files written.
     """
-    from dampctl.errors import OutputError
-    from dampctl.fileio import check_not_input, write_files
+    from dampctl.fileio import check_output_folder, write_files
 
-    for name in _names(assessment):  # refuse before spending time on rendering
-        target = Path(folder) / name
-        check_not_input(target, inputs)
-        if target.exists() and not replace:
-            raise OutputError("already exists (use --force to replace)", source=str(target))
+    # refuse before spending time on rendering
+    check_output_folder(folder, _names(assessment), inputs=inputs, replace=replace)
     return write_files(folder, assessment_pngs(assessment), inputs=inputs, replace=replace)
 
 

@@ -10,7 +10,10 @@ import io
 
 import numpy as np
 
-__all__ = ["plot_damping_and_cost", "plot_mode_damping", "sizing_pngs"]
+__all__ = ["SIZING_FIGURES", "plot_damping_and_cost", "plot_mode_damping", "sizing_pngs"]
+
+#: file names of the sizing figures, as :func:`sizing_pngs` keys them
+SIZING_FIGURES = ("sizing_damping_cost.png", "sizing_mode_damping.png")
 
 
 def _axes(ax):
@@ -129,10 +132,7 @@ def sizing_pngs(result) -> dict[str, bytes]:
         ``sizing_damping_cost.png`` and ``sizing_mode_damping.png``.
     """
     out = {}
-    for name, plot in (
-        ("sizing_damping_cost.png", plot_damping_and_cost),
-        ("sizing_mode_damping.png", plot_mode_damping),
-    ):
+    for name, plot in zip(SIZING_FIGURES, (plot_damping_and_cost, plot_mode_damping), strict=True):
         figure = plot(result)["figure"]
         buffer = io.BytesIO()
         figure.savefig(buffer, format="png", dpi=110)

@@ -186,7 +186,8 @@ def test_one_two_four_pairs(chain_file, tmp_path):
     seen = []
     for pairs in ("p1", "p1,p4", "p1,p2,p3,p4"):
         code, out, _ = _run(
-            chain_file, "--law", "dvf", "--pairs", pairs, "--json", "-o", tmp_path / "d.json"
+            chain_file, "--law", "dvf", "--pairs", pairs, "--json", "-o", tmp_path / "d.json",
+            "--force",
         )
         payload = json.loads(out)
         assert code == 0 and len(payload["loops"]) == len(pairs.split(","))
