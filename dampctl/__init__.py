@@ -51,6 +51,12 @@ Discrete time
     discretize, export_design
         second-order sections / state space at a sample rate, fixed point, verified in the
         sampled loop (:mod:`dampctl.discrete.equivalents`)
+    simulate_move, simulate_disturbance
+        time simulation, open loop and as the loop will run (:mod:`dampctl.discrete.simulate`)
+
+Input shaping
+    design_shaper, load_shaper
+        ZV/ZVD/ZVDD/EI shapers for a plant's modes, and the shaper file
 
 Errors
     DampctlError and its subclasses (see :mod:`dampctl.errors`)
@@ -60,6 +66,7 @@ from dampctl.analysis.assessment import Assessment, assess
 from dampctl.design import Branch, Design, Loop, Section, load_design
 from dampctl.discrete.equivalents import discretize
 from dampctl.discrete.export import export_design
+from dampctl.discrete.simulate import simulate_disturbance, simulate_move
 from dampctl.errors import (
     DampctlError,
     DesignError,
@@ -70,6 +77,8 @@ from dampctl.errors import (
     PlantFileError,
     UsageError,
 )
+from dampctl.laws.shapers import load_shaper
+from dampctl.laws.shaping import design_shaper
 from dampctl.model.plant import (
     Actuator,
     Disturbance,
@@ -110,12 +119,16 @@ __all__ = [
     "SizingResult",
     "UsageError",
     "assess",
+    "design_shaper",
     "discretize",
     "dump_plant",
     "export_design",
     "load_design",
     "load_plant",
+    "load_shaper",
     "parse_plant",
+    "simulate_disturbance",
+    "simulate_move",
     "size_pairs",
     "survey_plant",
 ]

@@ -18,11 +18,18 @@ export
     export_design(): discretize, quantize, verify
 writers
     export file texts: JSON, CSV, C header with reference routines
+modalzoh, timeloop
+    the exact sampled modal structure (per mode, lags and sub-sample switching) and the loop
+    that steps it with the exported controller, the loop delay and saturation
+profiles, simulate, simresult
+    move profiles and random records; simulate_move() and simulate_disturbance(), open loop
+    and as the loop will run; their results
 
 Imports the model, the design and the analysis.
 """
 
 from dampctl.discrete.equivalents import discretize
 from dampctl.discrete.export import export_design
+from dampctl.discrete.simulate import simulate_disturbance, simulate_move
 
-__all__ = ["discretize", "export_design"]
+__all__ = ["discretize", "export_design", "simulate_disturbance", "simulate_move"]

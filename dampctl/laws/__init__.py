@@ -18,6 +18,11 @@ Model-based (MIMO)
     lqg
         observer-based controller on a reduced modal model (its own module)
 
+Command shaping (no feedback)
+    shapers (ZV, ZVD, ZVDD and EI impulse sequences, residual vibration, the shaper file),
+    shaping (design_shaper(): shapers for a plant's open- or closed-loop modes, with their
+    insensitivity and drift robustness)
+
 Shared pieces
     _checks (pairs, collocation, clusters), _tuning (batched gain search), _assemble,
     _lqg_gains (LQG weights, Riccati solves, goal corrections), spillover (full-plant check
