@@ -41,6 +41,23 @@ def add_force_option(parser, what: str) -> None:
     )
 
 
+def add_quiet(parser) -> None:
+    """Give a subcommand the ``-q/--quiet`` option every command has.
+
+    Parameters
+    ----------
+    parser : argparse.ArgumentParser
+        The subcommand's parser.
+    """
+    parser.add_argument(
+        "-q",
+        "--quiet",
+        action="store_true",
+        help="no progress bar and no step messages on standard error (results, warnings and "
+        "errors still print)",
+    )
+
+
 def name_list(text: str | None, option: str) -> list[str]:
     """Split ``a,b,c`` into names; empty or None gives []."""
     if text is None:

@@ -27,7 +27,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser : argparse.ArgumentParser
         The subcommand's parser.
     """
-    parser.add_argument("plant", help="plant file (TOML)")
+    parser.add_argument("plant", help="plant file (TOML); - reads it from standard input")
     parser.add_argument("design", help="design file (JSON) written by dampctl tune")
     parser.add_argument(
         "--delay-s",

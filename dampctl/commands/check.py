@@ -22,7 +22,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser : argparse.ArgumentParser
         The subcommand's parser.
     """
-    parser.add_argument("plant", help="plant file (TOML)")
+    parser.add_argument("plant", help="plant file (TOML); - reads it from standard input")
     parser.add_argument(
         "--cluster-tol",
         type=float,

@@ -22,6 +22,7 @@ from typing import TextIO
 
 from dampctl import __version__
 from dampctl.commands import assess, check, demo, export, plant, report, schema, size, tune
+from dampctl.commands._common import add_quiet
 from dampctl.errors import DampctlError
 
 __all__ = ["EXIT_CODES", "build_parser", "entry_point", "main"]
@@ -55,6 +56,24 @@ class _UsageExit(Exception):
     pass
 
 
+class _Quiet:
+    """The error stream under ``--quiet``: writes pass through, but it never claims to be a
+    terminal, so no progress bar draws (:mod:`dampctl.progress`); step messages check
+    ``args.quiet`` themselves."""
+
+    def __init__(self, stream: TextIO):
+        self._stream = stream
+
+    def write(self, text: str) -> int:
+        return self._stream.write(text)
+
+    def flush(self) -> None:
+        self._stream.flush()
+
+    def isatty(self) -> bool:
+        return False
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser with every subcommand.
 
@@ -75,6 +94,8 @@ def build_parser() -> argparse.ArgumentParser:
         command = sub.add_parser(module.NAME, help=module.HELP, description=module.HELP)
         module.add_arguments(command)
         _debug_option(command, argparse.SUPPRESS)
+        if not hasattr(module, "SUBCOMMANDS"):  # a dispatcher gives each of its own --quiet
+            add_quiet(command)
         command.set_defaults(_run=module.run)
     return parser
 
@@ -126,6 +147,8 @@ def main(
             parser.print_help(out)
             return 2
         name = f"dampctl {args.command}"
+        if getattr(args, "quiet", False):
+            err = _Quiet(err)
         return _run(args, out, err, name, debug)
     except KeyboardInterrupt:
         _flush(out)

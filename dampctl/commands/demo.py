@@ -80,7 +80,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     start = time.monotonic()
     text = importlib.resources.files("dampctl").joinpath("data", PLANT_FILE).read_text("utf-8")
     plant = parse_plant(text, source=PLANT_FILE)
-    quiet = args.json
+    quiet = args.json or getattr(args, "quiet", False)
 
     _say(err, quiet, f"[1/6] check: {plant.title}, {plant.n_modes} modes, "
                      f"{len(plant.pairs)} candidate pairs")

@@ -11,6 +11,7 @@ import argparse
 from typing import TextIO
 
 from dampctl.commands import plant_new
+from dampctl.commands._common import add_quiet
 
 NAME = "plant"
 HELP = "write a plant file: a commented starter, or from FE matrices, mode tables, measurements"
@@ -31,6 +32,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     for module in SUBCOMMANDS:
         command = sub.add_parser(module.NAME, help=module.HELP, description=module.HELP)
         module.add_arguments(command)
+        add_quiet(command)
         # ``command`` names the whole subcommand in error lines ("dampctl plant new: error: ...")
         command.set_defaults(_plant_run=module.run, command=f"{NAME} {module.NAME}")
 

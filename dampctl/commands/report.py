@@ -32,7 +32,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser : argparse.ArgumentParser
         The subcommand's parser.
     """
-    parser.add_argument("plant", help="plant file (TOML)")
+    parser.add_argument("plant", help="plant file (TOML); - reads it from standard input")
     parser.add_argument("design", help="design file written by dampctl tune (JSON)")
     parser.add_argument("-o", "--output", required=True, metavar="FILE",
                         help="report file to write (HTML)")

@@ -34,7 +34,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser : argparse.ArgumentParser
         The subcommand's parser.
     """
-    parser.add_argument("plant", help="plant file (TOML)")
+    parser.add_argument("plant", help="plant file (TOML); - reads it from standard input")
     parser.add_argument(
         "--law",
         required=True,
@@ -93,7 +93,12 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "1.5 samples at its sample_rate_hz)",
     )
     parser.add_argument(
-        "-o", "--output", required=True, metavar="DESIGN", help="design file to write (JSON)"
+        "-o",
+        "--output",
+        required=True,
+        metavar="DESIGN",
+        help="design file to write (JSON); - writes the design on standard output and the "
+        "summary on standard error",
     )
     add_force_option(parser, "the design file")
     parser.add_argument("--json", action="store_true", help="print JSON on stdout")
@@ -114,16 +119,27 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     int
         0 done, 1 the loop is unstable or the target damping is not met.
     """
+    to_stdout = args.output == "-"
+    if to_stdout and args.json:
+        raise UsageError("-o - writes the design on standard output; --json would print there too "
+                         "(give a design file with --json, or drop --json)")
     plant = load_plant(args.plant)
-    check_output(args.output, inputs=[args.plant], replace=args.force)
+    if not to_stdout:
+        check_output(args.output, inputs=[args.plant], replace=args.force)
     design = make_design(plant, args)
-    path = write_text(args.output, design.to_json(), inputs=[args.plant], replace=args.force)
     modes = closed_loop_table(plant, design, delay_s=args.delay_s)
-    payload = tune_payload(plant, design, modes, design_file=str(path))
-    if args.json:
-        print_json(payload, out, "tune")
+    if to_stdout:
+        out.write(design.to_json())
+        payload = tune_payload(plant, design, modes, design_file="<stdout>")
+        if not getattr(args, "quiet", False):
+            _print_human(payload, modes, err)  # the summary goes beside the design, not into it
     else:
-        _print_human(payload, modes, out)
+        path = write_text(args.output, design.to_json(), inputs=[args.plant], replace=args.force)
+        payload = tune_payload(plant, design, modes, design_file=str(path))
+        if args.json:
+            print_json(payload, out, "tune")
+        else:
+            _print_human(payload, modes, out)
     return 0 if payload["stable"] and payload["target_met"] is not False else 1
 
 

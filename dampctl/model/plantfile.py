@@ -9,6 +9,7 @@ Every problem is reported as a :class:`~dampctl.errors.PlantFileError` (or its p
 from __future__ import annotations
 
 import math
+import sys
 import tomllib
 from collections.abc import Callable, Mapping
 from pathlib import Path
@@ -30,6 +31,9 @@ from dampctl.model.plant import (
 )
 
 __all__ = ["dump_plant", "load_plant", "parse_plant"]
+
+#: the plant-file name that means standard input
+STDIN = "-"
 
 _TOP_KEYS = {
     "title",
@@ -91,7 +95,8 @@ def load_plant(path: str | Path) -> ModalPlant:
     Parameters
     ----------
     path : str or path-like
-        A TOML plant file (SI units; frequencies in Hz).
+        A TOML plant file (SI units; frequencies in Hz). The string ``"-"`` reads the plant
+        from standard input, as command-line programs do (``cat plant.toml | dampctl check -``).
 
     Returns
     -------
@@ -105,14 +110,20 @@ def load_plant(path: str | Path) -> ModalPlant:
     PlantError
         When a value is invalid; the message names the file and the field.
     """
-    path = Path(path)
-    source = str(path)
-    try:
-        raw = path.read_bytes()
-    except OSError as exc:
-        raise PlantFileError(
-            f"cannot read the plant file ({exc.strerror or exc})", source=source
-        ) from None
+    if isinstance(path, str) and path == STDIN:
+        source = "<stdin>"
+        raw = sys.stdin.buffer.read() if hasattr(sys.stdin, "buffer") else sys.stdin.read()
+        if isinstance(raw, str):
+            return parse_plant(raw, source=source)
+    else:
+        path = Path(path)
+        source = str(path)
+        try:
+            raw = path.read_bytes()
+        except OSError as exc:
+            raise PlantFileError(
+                f"cannot read the plant file ({exc.strerror or exc})", source=source
+            ) from None
     try:
         text = raw.decode("utf-8")
     except UnicodeDecodeError:
