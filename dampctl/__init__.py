@@ -39,6 +39,9 @@ Sizing
 Design
     Design, Loop, Branch, Section, load_design
         a damping design (``u = −K(s) y``) and its file form
+    design_from_statespace
+        any linear controller (python-control ``StateSpace`` or arrays) as a design
+        (``law = "custom"``)
 
 Damping laws
     dampctl.laws.dvf, .iff, .ppf, .lqg: ``design(plant, ...) -> Design``
@@ -46,6 +49,9 @@ Damping laws
 Assessment
     assess, Assessment
         closed-loop modes, margins, robustness, RMS response, effort, requirements
+    closed_loop, signal_name
+        the closed loop as a named python-control ``StateSpace``; names ``interconnect`` can
+        address
 
 Discrete time
     discretize, export_design
@@ -63,6 +69,7 @@ Errors
 """
 
 from dampctl.analysis.assessment import Assessment, assess
+from dampctl.analysis.interconnect import closed_loop
 from dampctl.design import Branch, Design, Loop, Section, load_design
 from dampctl.discrete.equivalents import discretize
 from dampctl.discrete.export import export_design
@@ -77,6 +84,7 @@ from dampctl.errors import (
     PlantFileError,
     UsageError,
 )
+from dampctl.laws.custom import design_from_statespace
 from dampctl.laws.shapers import load_shaper
 from dampctl.laws.shaping import design_shaper
 from dampctl.model.plant import (
@@ -88,6 +96,7 @@ from dampctl.model.plant import (
     Pair,
     Requirements,
     Sensor,
+    signal_name,
 )
 from dampctl.model.plantfile import dump_plant, load_plant, parse_plant
 from dampctl.model.survey import survey_plant
@@ -119,6 +128,8 @@ __all__ = [
     "SizingResult",
     "UsageError",
     "assess",
+    "closed_loop",
+    "design_from_statespace",
     "design_shaper",
     "discretize",
     "dump_plant",
@@ -127,6 +138,7 @@ __all__ = [
     "load_plant",
     "load_shaper",
     "parse_plant",
+    "signal_name",
     "simulate_disturbance",
     "simulate_move",
     "size_pairs",

@@ -2,7 +2,8 @@
 
 Sign convention, for every law: the controller maps sensor signals y to actuator commands u by
 **negative feedback**, ``u = −K(s) y``. A decentralized design has one SISO loop per pair,
-``u_k = −K_k(s) y_k``; a model-based (LQG) design holds one MIMO state space. Either way
+``u_k = −K_k(s) y_k``; a model-based (LQG) or a user's own (``custom``) design holds one MIMO
+state space. Either way
 :meth:`Design.statespace` gives the whole K(s) (sensors in, actuators out), which is what
 assessment, sizing and export use, so they never depend on the law.
 
@@ -13,6 +14,13 @@ sections (polynomials in s, highest power first, degree ≤ 2):
 
 which holds a velocity-feedback gain with its roll-off, a leaky integrator, or a bank of
 positive-position filters (one branch per targeted mode) in physical units.
+
+A ``custom`` controller may also be discrete, at its own sample rate (``controller_rate_hz``):
+its matrices are then x[k+1] = A x[k] + B y[k], u[k] = −(C x[k] + D y[k]). The export uses them
+as they are (at that rate only); the continuous analyses use the continuous controller whose
+Tustin (bilinear) discretization at that rate is exactly this one (the inverse bilinear map of
+G. F. Franklin, J. D. Powell & M. L. Workman, *Digital Control of Dynamic Systems*, 3rd ed.
+1998, from memory), with the sampling delay of 1.5 samples that dampctl's analyses add.
 """
 
 from __future__ import annotations
@@ -29,11 +37,18 @@ import numpy as np
 from scipy.linalg import block_diag
 
 from dampctl.errors import DesignError
-from dampctl.model.plant import ModalPlant
+from dampctl.model.plant import ModalPlant, signal_name
 
-__all__ = ["Branch", "Design", "Loop", "Section", "design_from_dict", "load_design"]
+__all__ = [
+    "Branch",
+    "Design",
+    "Loop",
+    "Section",
+    "design_from_dict",
+    "load_design",
+]
 
-LAWS: tuple[str, ...] = ("dvf", "iff", "ppf", "lqg")
+LAWS: tuple[str, ...] = ("dvf", "iff", "ppf", "lqg", "custom")
 FORMAT = "dampctl-design"
 FORMAT_VERSION = 1
 
@@ -187,8 +202,8 @@ class Design:
 
     Parameters
     ----------
-    law : {"dvf", "iff", "ppf", "lqg"}
-        The damping law.
+    law : {"dvf", "iff", "ppf", "lqg", "custom"}
+        The damping law (``custom``: a controller given by the user).
     plant_fingerprint : str
         :attr:`ModalPlant.fingerprint` of the plant it was designed for.
     actuators, sensors : sequence of str
@@ -199,7 +214,8 @@ class Design:
         Decentralized loops (dvf, iff, ppf): loop k reads ``sensors[k]`` and drives
         ``actuators[k]``.
     controller : tuple of arrays (A, B, C, D), optional
-        MIMO controller state space (lqg): u = −(C x_c + D y), x_c' = A x_c + B y.
+        MIMO controller state space (lqg, custom): u = −(C x_c + D y), x_c' = A x_c + B y
+        (x_c[k+1] = A x_c[k] + B y[k] when ``controller_rate_hz`` is given).
     pairs : sequence of str, optional
         Pair names the loops use (decentralized designs; may be given for lqg).
     plant_title : str, optional
@@ -207,6 +223,9 @@ class Design:
     info : mapping, optional
         Law-specific facts (target damping, leak frequency, achievable damping, reduction
         error bound ...), JSON-serializable.
+    controller_rate_hz : float, optional
+        Sample rate (Hz) of a discrete ``controller`` (custom designs only); None for a
+        continuous one.
     """
 
     law: str
@@ -219,6 +238,7 @@ class Design:
     pairs: tuple[str, ...] = ()
     plant_title: str = ""
     info: Mapping[str, Any] = field(default_factory=dict)
+    controller_rate_hz: float | None = None
 
     def __post_init__(self) -> None:
         if self.law not in LAWS:
@@ -252,6 +272,26 @@ class Design:
                     raise DesignError("controller matrices must be finite")
                 m.setflags(write=False)
             object.__setattr__(self, "controller", (A, B, C, D))
+        if self.controller_rate_hz is not None:
+            rate = float(self.controller_rate_hz)
+            if self.law != "custom" or self.controller is None:
+                raise DesignError(
+                    "controller_rate_hz is for a custom design's discrete controller only",
+                    field="controller_rate_hz",
+                )
+            if not (math.isfinite(rate) and rate > 0):
+                raise DesignError(
+                    f"must be a positive sample rate in Hz, got {self.controller_rate_hz!r}",
+                    field="controller_rate_hz",
+                )
+            object.__setattr__(self, "controller_rate_hz", rate)
+            A = self.controller[0]
+            if A.shape[0] and np.linalg.cond(A + np.eye(A.shape[0])) > 1e12:
+                raise DesignError(
+                    "the discrete controller has a pole at z = -1 (the Nyquist frequency): it "
+                    "has no continuous equivalent to analyse",
+                    field="controller",
+                )
         for name in (*self.actuators, *self.sensors):
             if not isinstance(name, str) or not name:
                 raise DesignError(f"invalid signal name {name!r}")
@@ -261,31 +301,67 @@ class Design:
         """True for one SISO loop per pair (dvf, iff, ppf)."""
         return bool(self.loops)
 
+    @property
+    def discrete(self) -> bool:
+        """True for a custom design whose controller is given in discrete time."""
+        return self.controller_rate_hz is not None
+
     def statespace_matrices(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-        """(A, B, C, D) of the whole controller, sensors in, actuators out, ``u = −(Cx + Dy)``."""
+        """(A, B, C, D) of the whole continuous controller, sensors in, actuators out,
+        ``u = −(Cx + Dy)`` (for a discrete controller: its continuous bilinear equivalent)."""
         if self.controller is not None:
+            if self.controller_rate_hz is not None:
+                return _inverse_bilinear(self.controller, 1.0 / self.controller_rate_hz)
             return tuple(np.array(m) for m in self.controller)
         return _block_diagonal([lp.statespace_matrices() for lp in self.loops])
 
-    def statespace(self):
-        """The controller K(s) as a python-control ``StateSpace`` (u = −K y).
+    def discrete_matrices(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """(A, B, C, D) of a discrete controller as given (``controller_rate_hz``).
+
+        Raises
+        ------
+        DesignError
+            The controller is continuous.
+        """
+        if self.controller_rate_hz is None:
+            raise DesignError("the controller is continuous: discretize it (dampctl export)")
+        return tuple(np.array(m) for m in self.controller)
+
+    def statespace(self, *, negate: bool = False):
+        """The controller as a python-control ``StateSpace``.
+
+        Parameters
+        ----------
+        negate : bool, optional
+            False (default): K itself, to be closed with negative feedback (u = −K y).
+            True: −K, the map from sensors to actuator commands, for a positive interconnection
+            (``control.interconnect``), with the signal names kept.
 
         Returns
         -------
         control.StateSpace
-            Inputs named after the sensors, outputs after the actuators.
+            Inputs named after the sensors, outputs after the actuators (identifiers where the
+            names are, see :func:`signal_name`); discrete (``dt`` = 1/rate) for a discrete
+            custom controller.
         """
         import control
 
-        A, B, C, D = self.statespace_matrices()
+        if self.controller_rate_hz is not None:
+            A, B, C, D = self.discrete_matrices()
+            dt = 1.0 / self.controller_rate_hz
+        else:
+            A, B, C, D = self.statespace_matrices()
+            dt = 0
+        sign = -1.0 if negate else 1.0
         return control.ss(
             A,
             B,
-            C,
-            D,
-            inputs=list(self.sensors),
-            outputs=list(self.actuators),
-            name=f"{self.law} controller",
+            sign * C,
+            sign * D,
+            dt,
+            inputs=[signal_name(s) for s in self.sensors],
+            outputs=[signal_name(a) for a in self.actuators],
+            name=signal_name(f"{self.law}_controller"),
         )
 
     def response(self, freq_hz: np.ndarray) -> np.ndarray:
@@ -379,6 +455,8 @@ class Design:
         else:
             A, B, C, D = self.controller
             out["controller"] = {"A": A.tolist(), "B": B.tolist(), "C": C.tolist(), "D": D.tolist()}
+            if self.controller_rate_hz is not None:
+                out["controller_rate_hz"] = self.controller_rate_hz
         out["info"] = _jsonable(dict(self.info))
         return out
 
@@ -442,6 +520,7 @@ def design_from_dict(data: Mapping[str, Any], *, source: str | None = None) -> D
             pairs=tuple(data.get("pairs", ())),
             plant_title=data.get("plant_title", ""),
             info=data.get("info", {}),
+            controller_rate_hz=data.get("controller_rate_hz"),
         )
     except DesignError as exc:
         raise DesignError(exc.message, source=source, field=exc.field) from None
@@ -478,6 +557,20 @@ def load_design(path: str | Path) -> Design:
 
 
 # ---------------------------------------------------------------------- helpers
+def _inverse_bilinear(mats, sample_time_s: float):
+    """Continuous (A, B, C, D) whose bilinear discretization at T is the given one."""
+    Ad, Bd, Cd, Dd = (np.asarray(m, dtype=float) for m in mats)
+    n = Ad.shape[0]
+    if n == 0:
+        return Ad.copy(), Bd.copy(), Cd.copy(), Dd.copy()
+    inv = np.linalg.inv(Ad + np.eye(n))
+    A = (2.0 / sample_time_s) * (np.eye(n) - 2.0 * inv)
+    B = (2.0 / sample_time_s) * inv @ Bd
+    C = 2.0 * Cd @ inv
+    D = Dd - Cd @ inv @ Bd
+    return A, B, C, D
+
+
 def _shape(ctrl, key, data):
     n = len(ctrl["A"])
     n_in, n_out = len(data["sensors"]), len(data["actuators"])

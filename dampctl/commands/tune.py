@@ -1,4 +1,5 @@
-"""``dampctl tune PLANT --law dvf|iff|ppf|lqg ...``: design damping loops, write the design file."""
+"""``dampctl tune PLANT --law dvf|iff|ppf|lqg|custom ...``: design damping loops, write the design
+file (``custom``: the user's own controller from a file, assessed like any design)."""
 
 from __future__ import annotations
 
@@ -23,7 +24,7 @@ from dampctl.model.plantfile import load_plant
 NAME = "tune"
 HELP = "tune damping loops (dvf, iff, ppf on collocated pairs, or lqg) and write a design file"
 
-LAWS = ("dvf", "iff", "ppf", "lqg")
+LAWS = ("dvf", "iff", "ppf", "lqg", "custom")
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -40,7 +41,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         required=True,
         choices=LAWS,
         help="damping law: dvf (velocity feedback), iff (integral force feedback), ppf "
-        "(positive position feedback) or lqg (model-based); required",
+        "(positive position feedback), lqg (model-based) or custom (your own controller from "
+        "--controller); required",
     )
     parser.add_argument(
         "--pairs",
@@ -49,10 +51,23 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "give the actuators and sensors)",
     )
     parser.add_argument(
-        "--actuators", metavar="A1,A2", help="lqg only: actuators to use (default from --pairs)"
+        "--actuators",
+        metavar="A1,A2",
+        help="lqg and custom: actuators to use, in the controller's output order (default from "
+        "--pairs)",
     )
     parser.add_argument(
-        "--sensors", metavar="S1,S2", help="lqg only: sensors to use (default from --pairs)"
+        "--sensors",
+        metavar="S1,S2",
+        help="lqg and custom: sensors to use, in the controller's input order (default from "
+        "--pairs)",
+    )
+    parser.add_argument(
+        "--controller",
+        metavar="FILE",
+        help="custom only: the controller, u = -K y, as .npz with arrays A, B, C, D (and "
+        "optional dt, the sample time in s, for a discrete controller) or JSON "
+        '{"A": [[...]], "B": ..., "C": ..., "D": ..., "dt": ...}',
     )
     parser.add_argument(
         "--modes",
@@ -171,6 +186,10 @@ def make_design(plant, args: argparse.Namespace):
         raise UsageError("--leak-hz applies to --law iff only")
     if args.order is not None and law != "lqg":
         raise UsageError("--order applies to --law lqg only")
+    if law != "custom" and getattr(args, "controller", None):
+        raise UsageError("--controller applies to --law custom only")
+    if law == "custom":
+        return _custom_design(plant, args, pairs, gain)
     if law != "lqg" and (args.actuators or args.sensors):
         raise UsageError(f"--actuators/--sensors apply to --law lqg; {law} uses --pairs")
     common = {"modes": modes, "target_damping": args.target_damping}
@@ -200,6 +219,34 @@ def make_design(plant, args: argparse.Namespace):
     from dampctl.laws import ppf
 
     return ppf.design(plant, pairs, **common)
+
+
+def _custom_design(plant, args: argparse.Namespace, pairs, gain):
+    """``--law custom``: the controller file read and checked against the plant."""
+    from dampctl.laws.custom import controller_from_file, design_from_statespace
+
+    if not args.controller:
+        raise UsageError("--law custom needs --controller FILE (.npz or .json with A, B, C, D)")
+    if gain is not None or args.target_damping is not None or args.modes:
+        raise UsageError(
+            "--gain, --target-damping and --modes do not apply to --law custom: the controller "
+            "is used as given"
+        )
+    actuators = name_list(args.actuators, "--actuators")
+    sensors = name_list(args.sensors, "--sensors")
+    if pairs:
+        found = [plant.pair(name) for name in pairs]
+        actuators = actuators or [p.actuator for p in found]
+        sensors = sensors or [p.sensor for p in found]
+    if not actuators or not sensors:
+        raise UsageError("--law custom needs --actuators and --sensors (or --pairs)")
+    K = controller_from_file(args.controller)
+    try:
+        return design_from_statespace(
+            plant, K, actuators, sensors, name=f"controller from {args.controller}"
+        )
+    except UsageError as exc:
+        raise UsageError(exc.message, source=args.controller) from None
 
 
 def tune_payload(plant, design, modes, *, design_file: str | None = None) -> dict:

@@ -44,6 +44,7 @@ from dampctl.discrete.mimo import (
     PREWARP_LIMIT,
     DiscretePath,
     _discrete_mimo,
+    _given_discrete,
     _not_prewarped,
     paths_matrices,
 )
@@ -140,8 +141,8 @@ class DiscreteController:
     ----------
     rate_hz : float
         Sample rate f_s (Hz).
-    method : {"tustin", "zoh"}
-        Discretization method.
+    method : {"tustin", "zoh", "given"}
+        Discretization method (``"given"``: a discrete custom controller used as it is).
     prewarp : str
         ``"auto"``, ``"none"`` or the fixed prewarp frequency in Hz as text; ``"none"`` for ZOH.
     law, plant_fingerprint : str
@@ -343,6 +344,29 @@ def discretize(
         raise UsageError(f"sample rate must be a positive number of Hz, got {rate_hz!r}")
     if method not in METHODS:
         raise UsageError(f"method must be one of {', '.join(METHODS)}, got {method!r}")
+    if design.controller_rate_hz is not None:
+        own = design.controller_rate_hz
+        if abs(rate_hz - own) > 1e-9 * own:
+            raise UsageError(
+                f"this controller is discrete at {own:.6g} Hz and runs at that rate only: "
+                f"export it with --rate {own:.6g} (got {rate_hz:.6g} Hz)"
+            )
+        notes_given: list[str] = []
+        state_space, paths = _given_discrete(design, 1.0 / own, notes_given)
+        return DiscreteController(
+            rate_hz=own,
+            method="given",
+            prewarp="none",
+            law=design.law,
+            plant_fingerprint=design.plant_fingerprint,
+            actuators=design.actuators,
+            sensors=design.sensors,
+            target_modes=design.target_modes,
+            loops=(),
+            state_space=tuple(_readonly(np.asarray(m, dtype=float)) for m in state_space),
+            paths=paths,
+            notes=tuple(dict.fromkeys(notes_given)),
+        )
     prewarp = _check_prewarp(prewarp, method, rate_hz)
     T = 1.0 / rate_hz
     notes: list[str] = []

@@ -160,6 +160,29 @@ def _path_cascades(design: Design, ss: Matrices, T: float, notes: list[str]):
     return tuple(paths)
 
 
+def _given_discrete(design: Design, T: float, notes: list[str]):
+    """A discrete controller used as given: its modal realisation (or path cascades)."""
+    Ad, Bd, Cd, Dd = design.discrete_matrices()
+    notes.append(
+        f"discrete controller used as given at {1.0 / T:.6g} Hz (no discretization, no prewarp)"
+    )
+    modal = _modal_blocks(Ad) if Ad.shape[0] else (np.zeros((0, 0)), [])
+    if modal is None:
+        return (Ad, Bd, Cd, Dd), _path_cascades(design, (Ad, Bd, Cd, Dd), T, notes)
+    Tm, blocks = modal
+    Tinv = np.linalg.inv(Tm) if Tm.size else Tm
+    Am, Bm, Cm = Tinv @ Ad @ Tm, Tinv @ Bd, Cd @ Tm
+    paths = []
+    for o, act in enumerate(design.actuators):
+        for j, sen in enumerate(design.sensors):
+            terms = [
+                _biquad_of_block(Am[sl, sl], Bm[sl, j], Cm[o, sl], f"block {b + 1}")
+                for b, sl in enumerate(blocks)
+            ]
+            paths.append(DiscretePath(act, sen, ParallelForm(float(Dd[o, j]), tuple(terms))))
+    return (Ad, Bd, Cd, Dd), tuple(paths)
+
+
 def _not_prewarped(what: str, w: float, T: float) -> str:
     """Note for a section or block left unwarped: above Nyquist is said as such."""
     f, nyquist = w / (2 * math.pi), 0.5 / T

@@ -56,6 +56,7 @@ __all__ = [
     "Pair",
     "Requirements",
     "Sensor",
+    "signal_name",
 ]
 
 
@@ -66,6 +67,25 @@ class _Channel:
     row: np.ndarray
     order: int
     feed: Mapping[str, float]
+
+
+def signal_name(name: str) -> str:
+    """A name python-control's ``interconnect`` can address: an identifier.
+
+    Names that are identifiers already (the usual ``coil_x1``) are kept; other characters
+    become ``_`` (``"probe x"`` → ``probe_x``) and a leading digit gets a ``_`` in front.
+
+    Parameters
+    ----------
+    name : str
+        Actuator, sensor, disturbance or output name.
+
+    Returns
+    -------
+    str
+    """
+    out = "".join(ch if ch.isalnum() or ch == "_" else "_" for ch in name)
+    return out if out and not out[0].isdigit() else f"_{out}"
 
 
 @dataclass(frozen=True)
@@ -534,7 +554,8 @@ class ModalPlant:
         Returns
         -------
         control.StateSpace
-            Balanced modal form (states ``w1q1, dq1, w2q2, dq2, ...``).
+            Balanced modal form (states ``wq1, dq1, wq2, dq2, ...``); signal and system names
+            are identifiers (:func:`signal_name`) so ``control.interconnect`` can address them.
         """
         import control
 
@@ -545,10 +566,10 @@ class ModalPlant:
             B,
             C,
             D,
-            inputs=list(actuators),
-            outputs=list(sensors),
+            inputs=[signal_name(a) for a in actuators],
+            outputs=[signal_name(s) for s in sensors],
             states=states,
-            name=self.title or "plant",
+            name=signal_name(self.title or "plant"),
         )
 
     def frf(
