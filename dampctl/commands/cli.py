@@ -21,14 +21,26 @@ from collections.abc import Sequence
 from typing import TextIO
 
 from dampctl import __version__
-from dampctl.commands import assess, check, demo, export, plant, report, schema, size, tune
+from dampctl.commands import (
+    assess,
+    check,
+    demo,
+    export,
+    plant,
+    report,
+    schema,
+    shape,
+    simulate,
+    size,
+    tune,
+)
 from dampctl.commands._common import add_quiet
 from dampctl.errors import DampctlError
 
 __all__ = ["EXIT_CODES", "build_parser", "entry_point", "main"]
 
 #: subcommand modules, in the order of the job
-COMMANDS = (plant, check, size, tune, assess, export, report, demo, schema)
+COMMANDS = (plant, check, size, tune, shape, simulate, assess, export, report, demo, schema)
 
 #: what each exit code means
 EXIT_CODES = {

@@ -200,18 +200,23 @@ def static_targets(plant, design, controller, channels, final_inputs) -> tuple[n
 
 
 def output_result(name, unit, values, target, time, *, move, band, end_s, rms_error=None):
-    peak = float(values[np.argmax(np.abs(values))])
-    deviation = values - target
-    overshoot = settling = None
-    if move is not None and unit == "m":
+    """Figures of one output (a run that diverged holds NaN at its end: figures that need the
+    end of the record are None, the others come from the part before)."""
+    done = int(np.argmin(np.isfinite(values))) if not np.all(np.isfinite(values)) else None
+    ran = values[:done]
+    peak = float(ran[np.argmax(np.abs(ran))]) if ran.size else math.nan
+    deviation = ran - target
+    overshoot = settling = residual = None
+    if move is not None and unit == "m" and ran.size:
         overshoot = 100.0 * max(0.0, float(np.max(np.sign(move) * deviation))) / abs(move)
         outside = np.flatnonzero(np.abs(deviation) > band)
-        if outside.size == 0:
+        if outside.size == 0 and done is None:
             settling = 0.0
-        elif outside[-1] < values.size - 1:
+        elif done is None and outside[-1] < values.size - 1:
             settling = float(time[outside[-1] + 1])
-    after = deviation[time >= end_s - 1e-12]
-    residual = float(np.sqrt(np.mean(after**2))) if after.size else None
+    after = deviation[time[: ran.size] >= end_s - 1e-12]
+    if after.size and done is None:
+        residual = float(np.sqrt(np.mean(after**2)))
     return OutputResult(
         name=name, unit=unit, values=values, target=float(target), peak=peak,
         final=float(values[-1]), overshoot=overshoot, settling_time_s=settling,
@@ -225,7 +230,7 @@ def output_unit(plant: ModalPlant, name: str) -> str:
 
 
 def run_case(plant, design, channels, rate, steps, commands, disturbance, *, closed, controller,
-             saturation, noise):
+             saturation, noise, engine="auto"):
     """Sample the structure for this case and run the loop; returns (record, limits)."""
     T = 1.0 / rate
     delay = float(plant.requirements.loop_delay_s or 0.0) if closed else 0.0
@@ -249,7 +254,7 @@ def run_case(plant, design, channels, rate, steps, commands, disturbance, *, clo
             "delay_piece": int(np.searchsorted(theta, frac[0])),
             "noise": noise,
         }
-    return run_loop(model, planned, limits=limits, **kwargs), limits
+    return run_loop(model, planned, limits=limits, engine=engine, **kwargs), limits
 
 
 def actuator_results(plant, channels, record, limits, keep) -> tuple[ActuatorResult, ...]:
@@ -261,14 +266,14 @@ def actuator_results(plant, channels, record, limits, keep) -> tuple[ActuatorRes
         u = record.forces[keep, j]
         if act.kind == "strut":
             force = act.stiffness_n_per_m * (stroke - u)
-            travel = float(np.max(np.abs(u)))
+            travel = float(np.nanmax(np.abs(u)))
         else:
             force = u
-            travel = float(np.max(np.abs(stroke)))
+            travel = float(np.nanmax(np.abs(stroke)))
         limit = None if limits is None or not np.isfinite(limits[j]) else float(limits[j])
         out.append(ActuatorResult(
-            name=name, force=force, peak_force_n=float(np.max(np.abs(force))),
-            rms_force_n=float(np.sqrt(np.mean(force**2))),
+            name=name, force=force, peak_force_n=float(np.nanmax(np.abs(force))),
+            rms_force_n=float(np.sqrt(np.nanmean(force**2))),
             saturated_s=float(record.saturated_s[j]), stroke_m=travel, limit=limit,
         ))
     return tuple(out)
@@ -336,9 +341,8 @@ def statistical_errors(plant, design, name, outputs, rate, length_s):
     f = grid[grid_ok]
     first = np.trapezoid(G, f, axis=1)
     second = np.trapezoid(G**2, f, axis=1)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        bandwidth = np.where(second > 0, first**2 / np.where(second > 0, second, 1.0), np.inf)
-    return 1.0 / (2.0 * np.sqrt(bandwidth * length_s))
+    bandwidth = np.where(second > 0, first**2 / np.where(second > 0, second, 1.0), np.nan)
+    return 1.0 / (2.0 * np.sqrt(bandwidth * length_s))  # NaN where the output does not move
 
 
 def open_grid(plant: ModalPlant) -> np.ndarray:

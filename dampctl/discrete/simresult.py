@@ -121,11 +121,15 @@ class Run:
         The plant's performance outputs (and a moved sensor).
     actuators : tuple of ActuatorResult
         The moving actuator and the design's actuators.
+    diverged_s : float or None
+        When the states grew past 1e100 and the run was stopped (the loop as it runs is
+        unstable); None when it ran to the end.
     """
 
     loop: str
     outputs: tuple[OutputResult, ...]
     actuators: tuple[ActuatorResult, ...]
+    diverged_s: float | None = None
 
     def output(self, name: str) -> OutputResult:
         """The output called ``name``.
@@ -156,10 +160,11 @@ class Run:
         return next(a for a in self.actuators if a.name == name)
 
     def to_dict(self) -> dict[str, Any]:
-        """``{"outputs": {name: …}, "actuators": {name: …}}``."""
+        """``{"outputs": {name: …}, "actuators": {name: …}, "diverged_s": …}``."""
         return {
             "outputs": {o.name: o.to_dict() for o in self.outputs},
             "actuators": {a.name: a.to_dict() for a in self.actuators},
+            "diverged_s": self.diverged_s,
         }
 
 

@@ -76,6 +76,19 @@ def _loops(design: Design | None) -> list[bool]:
     return [False, True] if design is not None else [False]
 
 
+def _finish(closed: bool, outs, acts, record, run_in: int, T: float, notes: list) -> Run:
+    """The run's result, with a note when it diverged."""
+    diverged = None
+    if record.diverged_at is not None:
+        diverged = max(record.diverged_at - run_in, 0) * T
+        loop = "the closed loop as it runs" if closed else "the open loop"
+        notes.append(
+            f"{loop} is unstable: its response grew without bound and the run was stopped at "
+            f"{diverged:.6g} s (figures come from the part before)"
+        )
+    return Run("closed" if closed else "open", outs, acts, diverged)
+
+
 def simulate_move(
     plant: ModalPlant,
     design: Design | None = None,
@@ -93,6 +106,7 @@ def simulate_move(
     rate_hz: float | None = None,
     saturation: bool = True,
     method: str = "tustin",
+    engine: str = "auto",
 ) -> Simulation:
     """Move a displacement output by ``distance_m`` with one actuator; open and closed loop.
 
@@ -129,6 +143,9 @@ def simulate_move(
     method : {"tustin", "zoh"}, optional
         Discretization of the controller, as ``dampctl export`` (default ``"tustin"``, each
         section prewarped at its own frequency).
+    engine : {"auto", "numpy", "compiled"}, optional
+        How the closed loop is stepped (:mod:`dampctl.discrete.timeloop`; ``"compiled"``
+        needs numba, ``"auto"`` uses it when installed). Same numbers either way.
 
     Returns
     -------
@@ -172,7 +189,7 @@ def simulate_move(
     for closed in _loops(design):
         rec, limits = setup.run_case(
             plant, design, channels, rate, steps, [command], None, closed=closed,
-            controller=controller, saturation=saturation, noise=None,
+            controller=controller, saturation=saturation, noise=None, engine=engine,
         )
         targets, used = setup.static_targets(
             plant, design if closed else None, controller, channels, final
@@ -189,7 +206,7 @@ def simulate_move(
             for k, name in enumerate(channels.reported)
         )
         acts = setup.actuator_results(plant, channels, rec, limits, slice(None))
-        runs.append(Run("closed" if closed else "open", outs, acts))
+        runs.append(_finish(closed, outs, acts, rec, 0, T, notes))
     if end >= time[-1]:
         notes.append(f"the command ends at {end:.6g} s, at or after the end of the record "
                      f"({time[-1]:.6g} s): no settling or residual figures")
@@ -225,6 +242,7 @@ def simulate_disturbance(
     saturation: bool = True,
     sensor_noise: bool = True,
     method: str = "tustin",
+    engine: str = "auto",
 ) -> Simulation:
     """Response to one disturbance, open loop and closed loop as it will run.
 
@@ -253,6 +271,8 @@ def simulate_disturbance(
         True).
     method : {"tustin", "zoh"}, optional
         Discretization of the controller (default ``"tustin"``).
+    engine : {"auto", "numpy", "compiled"}, optional
+        How the closed loop is stepped, as in :func:`simulate_move`.
 
     Returns
     -------
@@ -297,13 +317,13 @@ def simulate_disturbance(
         densities = np.array([plant.sensor(s).noise_density for s in design.sensors])
         rng = np.random.default_rng([seed, 1])
         noise = rng.standard_normal((total, densities.size)) * densities * math.sqrt(rate / 2)
-    runs = []
+    runs, notes = [], []
     for closed in _loops(design):
         rec, limits = setup.run_case(
             plant, design, channels, rate, total, [], (channels.inputs.index(disturbance),
                                                        values),
             closed=closed, controller=controller, saturation=saturation,
-            noise=noise if closed else None,
+            noise=noise if closed else None, engine=engine,
         )
         errors = (None if record is not None else setup.statistical_errors(
             plant, design if closed else None, disturbance, channels.reported, rate,
@@ -313,12 +333,13 @@ def simulate_disturbance(
                 name, setup.output_unit(plant, name),
                 rec.outputs[keep, channels.outputs.index(name)], 0.0, time, move=None,
                 band=math.inf, end_s=0.0,
-                rms_error=None if errors is None else float(errors[k]),
+                rms_error=None if errors is None or not np.isfinite(errors[k])
+                else float(errors[k]),
             )
             for k, name in enumerate(channels.reported)
         )
         acts = setup.actuator_results(plant, channels, rec, limits, keep)
-        runs.append(Run("closed" if closed else "open", outs, acts))
+        runs.append(_finish(closed, outs, acts, rec, run_in, T, notes))
     info = {
         "disturbance": disturbance,
         "source": "record" if record is not None else "psd",
@@ -329,4 +350,4 @@ def simulate_disturbance(
         "controller_method": None if design is None else method,
         "saturation": bool(saturation),
     }
-    return Simulation("disturbance", time, rate, runs[-1], runs[0], info, ())
+    return Simulation("disturbance", time, rate, runs[-1], runs[0], info, tuple(notes))

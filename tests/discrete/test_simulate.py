@@ -359,3 +359,43 @@ def test_two_mode_shaper_on_a_chain_kills_both_modes():
     sim = simulate_move(plant, drive="f1", output="x2", distance_m=1e-6, rate_hz=5000,
                         shaper=shaper, duration_s=0.3)
     assert sim.result.output("x2").residual_rms < 1e-6 * 1e-6
+
+
+def test_engines_give_the_same_numbers():
+    # the numpy step loop and the compiled one (numba, in the test extra) run the same
+    # arithmetic; the open loop's whole-record filter equals the step loop with zero gain
+    plant = _loop_plant(max_force=0.4)
+    design = dvf.design(plant, ["p1", "p2"], gain=[30.0, 20.0], roll_off_hz=900.0)
+    kwargs = {"drive": "f1", "output": "tip", "distance_m": 1e-6, "duration_s": 0.1,
+              "shaper": shaper_for_mode(plant.freqs_hz[0], 0.01, "zvd")}
+    a = simulate_move(plant, design, engine="numpy", **kwargs)
+    b = simulate_move(plant, design, engine="compiled", **kwargs)
+    tip_a, tip_b = a.result.output("tip").values, b.result.output("tip").values
+    np.testing.assert_allclose(tip_a, tip_b, rtol=0, atol=1e-12 * np.max(np.abs(tip_a)))
+    assert a.result.actuator("f1").saturated_s == pytest.approx(
+        b.result.actuator("f1").saturated_s, abs=1e-12)
+    zero = dataclasses.replace(design, loops=tuple(
+        dataclasses.replace(lp, branches=tuple(dataclasses.replace(br, gain=0.0)
+                                               for br in lp.branches))
+        for lp in design.loops))
+    c = simulate_move(plant, zero, engine="numpy", **kwargs)
+    opened = c.open_loop.output("tip").values
+    np.testing.assert_allclose(c.result.output("tip").values, opened, rtol=0,
+                               atol=1e-12 * np.max(np.abs(opened)))
+
+
+def test_an_unstable_loop_is_stopped_and_said():
+    plant = _loop_plant()
+    design = dvf.design(plant, ["p1", "p2"], gain=[30.0, 20.0], roll_off_hz=900.0)
+    wrong = dataclasses.replace(design, loops=tuple(
+        dataclasses.replace(lp, branches=tuple(dataclasses.replace(br, gain=-50 * br.gain)
+                                               for br in lp.branches))
+        for lp in design.loops))  # positive feedback: unstable
+    for engine in ("numpy", "compiled"):
+        sim = simulate_move(plant, wrong, drive="f1", output="tip", distance_m=1e-6,
+                            duration_s=2.0, saturation=False, engine=engine)
+        assert sim.result.diverged_s is not None and sim.open_loop.diverged_s is None
+        assert any("unstable" in note for note in sim.notes)
+        tip = sim.result.output("tip")
+        assert tip.settling_time_s is None and tip.residual_rms is None
+        assert math.isfinite(tip.peak)
