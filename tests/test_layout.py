@@ -20,6 +20,7 @@ RANK = {
     "errors": 0,
     "fileio": 0,
     "progress": 0,
+    "values": 0,
     "schemas": 0,
     "model": 1,
     "design": 2,

@@ -3,6 +3,10 @@ disturbances and requirements.
 
 Each is a frozen dataclass validated in ``__post_init__``: a bad value raises
 :class:`~dampctl.errors.PlantError` naming the field. Units are SI; frequencies in Hz.
+
+Numbers are read strictly (:mod:`dampctl.values`): a boolean or a string is never a number,
+and every number has a stated range (:data:`RANGES`) outside which it is physically absurd for
+a precision structure and refused with the range in the message.
 """
 
 from __future__ import annotations
@@ -16,12 +20,14 @@ from typing import Literal
 import numpy as np
 
 from dampctl.errors import PlantError
+from dampctl.values import Range, describe, read_float, read_rows
 
 __all__ = [
     "ACTUATOR_KINDS",
     "KIND_ORDER",
     "KIND_UNIT",
     "OUTPUT_KINDS",
+    "RANGES",
     "SENSOR_KINDS",
     "Actuator",
     "Disturbance",
@@ -80,22 +86,43 @@ KIND_UNIT: Mapping[str, str] = MappingProxyType(
 )
 
 
-def _finite(value: float, field_name: str, *, positive: bool = False, minimum: float | None = None):
-    try:
-        number = float(value)
-    except (TypeError, ValueError):
-        raise PlantError(f"expected a number, got {value!r}", field=field_name) from None
-    if not math.isfinite(number):
-        raise PlantError(f"must be finite, got {number!r}", field=field_name)
-    if positive and number <= 0.0:
-        raise PlantError(f"must be > 0, got {number!r}", field=field_name)
-    if minimum is not None and number < minimum:
-        raise PlantError(f"must be >= {minimum}, got {number!r}", field=field_name)
-    return number
+#: stated range of every number of a plant, by key; a value outside it is refused. The bounds
+#: are far outside anything a precision structure has (a modal mass of a microgram's millionth,
+#: a mode at 10 MHz) and keep every product the models form (shapes over masses, ω² ...)
+#: well inside double precision.
+RANGES: Mapping[str, Range] = MappingProxyType(
+    {
+        "freq_hz": Range(1e-6, 1e7, "Hz"),
+        "damping": Range(0.0, 1.0, high_open=True),
+        "modal_mass_kg": Range(1e-12, 1e12, "kg"),
+        "shape": Range(-1e12, 1e12),
+        "stiffness_n_per_m": Range(0.0, 1e15, "N/m", low_open=True),
+        "max_force_n": Range(0.0, 1e9, "N", low_open=True),
+        "max_stroke_m": Range(0.0, 100.0, "m", low_open=True),
+        "bandwidth_hz": Range(0.0, 1e9, "Hz", low_open=True),
+        "cost": Range(0.0, 1e15),
+        "noise_density": Range(0.0, 1e9),
+        "static_gain": Range(-1e15, 1e15),
+        "psd": Range(0.0, 1e15, "N²/Hz"),
+        "psd_freq_hz": Range(0.0, 1e7, "Hz", low_open=True),
+        "min_damping": Range(0.0, 1.0, low_open=True, high_open=True),
+        "sample_rate_hz": Range(0.0, 1e9, "Hz", low_open=True),
+        "loop_delay_s": Range(0.0, 1.0, "s"),
+        "min_gain_margin_db": Range(0.0, 100.0, "dB"),
+        "min_phase_margin_deg": Range(0.0, 180.0, "deg", high_open=True),
+        "max_rms": Range(0.0, 1e12, low_open=True),
+    }
+)
 
 
-def _optional(value: float | None, field_name: str, **checks) -> float | None:
-    return None if value is None else _finite(value, field_name, **checks)
+def _finite(value: float, field_name: str, key: str | None = None) -> float:
+    """A number of the plant, read strictly and checked against ``RANGES[key]``."""
+    bounds = RANGES[key or field_name]
+    return read_float(value, field_name, bounds=bounds, error=PlantError)
+
+
+def _optional(value: float | None, field_name: str) -> float | None:
+    return None if value is None else _finite(value, field_name)
 
 
 def _readonly(array: np.ndarray) -> np.ndarray:
@@ -126,15 +153,10 @@ class Mode:
     label: str = ""
 
     def __post_init__(self) -> None:
-        object.__setattr__(self, "freq_hz", _finite(self.freq_hz, "freq_hz", positive=True))
-        damping = _finite(self.damping, "damping")
-        if not 0.0 <= damping < 1.0:
-            raise PlantError(f"must be in [0, 1), got {damping!r}", field="damping")
-        object.__setattr__(self, "damping", damping)
-        object.__setattr__(
-            self, "modal_mass_kg", _finite(self.modal_mass_kg, "modal_mass_kg", positive=True)
-        )
-        object.__setattr__(self, "label", str(self.label))
+        object.__setattr__(self, "freq_hz", _finite(self.freq_hz, "freq_hz"))
+        object.__setattr__(self, "damping", _finite(self.damping, "damping"))
+        object.__setattr__(self, "modal_mass_kg", _finite(self.modal_mass_kg, "modal_mass_kg"))
+        _string(self.label, "label")
 
     @property
     def omega(self) -> float:
@@ -192,13 +214,13 @@ class Actuator:
         if self.kind == "strut":
             if self.stiffness_n_per_m is None:
                 raise PlantError("a strut needs stiffness_n_per_m", field="stiffness_n_per_m")
-            stiffness = _finite(self.stiffness_n_per_m, "stiffness_n_per_m", positive=True)
+            stiffness = _finite(self.stiffness_n_per_m, "stiffness_n_per_m")
             object.__setattr__(self, "stiffness_n_per_m", stiffness)
         elif self.stiffness_n_per_m is not None:
             raise PlantError("only a strut has a stiffness", field="stiffness_n_per_m")
         for name in ("max_force_n", "max_stroke_m", "bandwidth_hz"):
-            object.__setattr__(self, name, _optional(getattr(self, name), name, positive=True))
-        object.__setattr__(self, "cost", _finite(self.cost, "cost", minimum=0.0))
+            object.__setattr__(self, name, _optional(getattr(self, name), name))
+        object.__setattr__(self, "cost", _finite(self.cost, "cost"))
 
 
 @dataclass(frozen=True)
@@ -253,13 +275,9 @@ class Sensor:
             _check_location(self.kind.startswith("relative_"), self.site, self.between, self)
         if self.between is not None:
             object.__setattr__(self, "between", tuple(self.between))
-        object.__setattr__(
-            self, "noise_density", _finite(self.noise_density, "noise_density", minimum=0.0)
-        )
-        object.__setattr__(
-            self, "bandwidth_hz", _optional(self.bandwidth_hz, "bandwidth_hz", positive=True)
-        )
-        object.__setattr__(self, "cost", _finite(self.cost, "cost", minimum=0.0))
+        object.__setattr__(self, "noise_density", _finite(self.noise_density, "noise_density"))
+        object.__setattr__(self, "bandwidth_hz", _optional(self.bandwidth_hz, "bandwidth_hz"))
+        object.__setattr__(self, "cost", _finite(self.cost, "cost"))
 
     @property
     def unit(self) -> str:
@@ -355,18 +373,27 @@ class Disturbance:
     def __post_init__(self) -> None:
         if self.kind != "force":
             raise PlantError(f"kind must be force, got {self.kind!r}", field="kind")
-        if np.ndim(self.psd) == 0:
-            object.__setattr__(self, "psd", _finite(self.psd, "psd", minimum=0.0))
+        psd = self.psd
+        if isinstance(psd, np.ndarray):
+            psd = psd.tolist()
+        if not isinstance(psd, list | tuple):
+            object.__setattr__(self, "psd", _finite(psd, "psd"))
             return
-        table = np.asarray(self.psd, dtype=float)
-        if table.ndim != 2 or table.shape[1] != 2 or table.shape[0] < 2:
-            raise PlantError("expected a number or at least two rows [freq_hz, psd]", field="psd")
-        if not np.all(np.isfinite(table)):
-            raise PlantError("must be finite", field="psd")
-        if np.any(table[:, 0] <= 0) or np.any(np.diff(table[:, 0]) <= 0):
-            raise PlantError("frequencies must be > 0 and increasing", field="psd")
-        if np.any(table[:, 1] < 0):
-            raise PlantError("PSD values must be >= 0", field="psd")
+        rows = read_rows(
+            psd,
+            "psd",
+            2,
+            bounds=(RANGES["psd_freq_hz"], RANGES["psd"]),
+            error=PlantError,
+        )
+        if len(rows) < 2:
+            raise PlantError(
+                f"expected a number or at least two rows [freq_hz, psd], got {describe(psd)}",
+                field="psd",
+            )
+        table = np.array(rows, dtype=float)
+        if np.any(np.diff(table[:, 0]) <= 0):
+            raise PlantError("frequencies must be increasing (one row per frequency)", field="psd")
         object.__setattr__(self, "psd", _readonly(table))
 
     def psd_at(self, freq_hz: np.ndarray) -> np.ndarray:
@@ -424,28 +451,33 @@ class Requirements:
     def __post_init__(self) -> None:
         modes = tuple(self.modes)
         for k, number in enumerate(modes):
-            if isinstance(number, bool) or not isinstance(number, int | np.integer) or number < 1:
+            if isinstance(number, bool | np.bool_) or not isinstance(number, int | np.integer):
                 raise PlantError(
-                    f"expected mode numbers >= 1, got {number!r}", field=f"modes[{k + 1}]"
+                    f"expected mode numbers >= 1, got {describe(number)}", field=f"modes[{k + 1}]"
                 )
+            if number < 1:
+                raise PlantError(f"expected mode numbers >= 1, got {number}",
+                                 field=f"modes[{k + 1}]")
+        if len(set(modes)) != len(modes):
+            raise PlantError("a mode number is given twice", field="modes")
         object.__setattr__(self, "modes", tuple(int(m) for m in modes))
-        if self.min_damping is not None:
-            value = _finite(self.min_damping, "min_damping")
-            if not 0.0 < value < 1.0:
-                raise PlantError(f"must be in (0, 1), got {value!r}", field="min_damping")
-            object.__setattr__(self, "min_damping", value)
-        object.__setattr__(
-            self, "sample_rate_hz", _optional(self.sample_rate_hz, "sample_rate_hz", positive=True)
-        )
-        object.__setattr__(
-            self, "loop_delay_s", _optional(self.loop_delay_s, "loop_delay_s", minimum=0.0)
-        )
-        for name in ("min_gain_margin_db", "min_phase_margin_deg"):
-            object.__setattr__(self, name, _optional(getattr(self, name), name, minimum=0.0))
-        limits = {
-            str(k): _finite(v, f"max_rms.{k}", positive=True) for k, v in dict(self.max_rms).items()
-        }
+        for name in ("min_damping", "sample_rate_hz", "loop_delay_s", "min_gain_margin_db",
+                     "min_phase_margin_deg"):
+            object.__setattr__(self, name, _optional(getattr(self, name), name))
+        if not isinstance(self.max_rms, Mapping):
+            raise PlantError(f"expected a table of output = limit, got {describe(self.max_rms)}",
+                             field="max_rms")
+        limits = {}
+        for key, value in dict(self.max_rms).items():
+            name = _string(key, "max_rms")
+            limits[name] = _finite(value, f"max_rms.{name}", "max_rms")
         object.__setattr__(self, "max_rms", MappingProxyType(limits))
+
+
+def _string(value, field_name: str) -> str:
+    if not isinstance(value, str):
+        raise PlantError(f"expected a string, got {describe(value)}", field=field_name)
+    return value
 
 
 def _check_location(relative: bool, site, between, owner) -> None:

@@ -37,6 +37,7 @@ import numpy as np
 from dampctl.errors import PlantError
 from dampctl.model.components import (
     KIND_ORDER,
+    RANGES,
     Actuator,
     Disturbance,
     Mode,
@@ -46,6 +47,7 @@ from dampctl.model.components import (
     Sensor,
 )
 from dampctl.model.modalbasis import BasisFiller, Engine, block_frequencies, resolve_engine
+from dampctl.values import describe, read_float
 
 __all__ = [
     "Actuator",
@@ -134,17 +136,15 @@ class ModalPlant:
         object.__setattr__(self, "modes", modes)
         sites = {}
         for name, row in dict(self.sites).items():
-            values = np.asarray(row, dtype=float) if _is_numeric(row) else None
-            if values is None or values.ndim != 1:
-                raise PlantError("expected a list of numbers, one per mode", field=f"sites.{name}")
+            if not isinstance(name, str) or not name:
+                raise PlantError(f"a site name must be a string, got {name!r}", field="sites")
+            values = _shape_row(row, f"sites.{name}")
             if values.shape[0] != len(modes):
                 raise PlantError(
                     f"has {values.shape[0]} values but the plant has {len(modes)} modes",
                     field=f"sites.{name}",
                 )
-            if not np.all(np.isfinite(values)):
-                raise PlantError("values must be finite (no NaN or inf)", field=f"sites.{name}")
-            sites[str(name)] = _readonly(values)
+            sites[name] = _readonly(values)
         object.__setattr__(self, "sites", MappingProxyType(sites))
         for group in ("actuators", "sensors", "pairs", "outputs", "disturbances"):
             object.__setattr__(self, group, tuple(getattr(self, group)))
@@ -650,12 +650,29 @@ def _readonly(array: np.ndarray) -> np.ndarray:
     return array
 
 
-def _is_numeric(row) -> bool:
-    try:
-        np.asarray(row, dtype=float)
-    except (TypeError, ValueError):
-        return False
-    return True
+def _shape_row(row, field: str) -> np.ndarray:
+    """A site's shape values: a flat list of finite numbers inside ``RANGES["shape"]``.
+
+    Booleans, strings, nested lists and integers too large for a float are refused with the
+    value's position (counted from 1), never handed to numpy's conversions.
+    """
+    bounds = RANGES["shape"]
+    if isinstance(row, np.ndarray) and row.ndim == 1 and row.dtype.kind in "iuf":
+        values = row.astype(float)
+    else:
+        if not isinstance(row, list | tuple | np.ndarray):
+            raise PlantError(
+                f"expected a list of numbers, one per mode, got {describe(row)}", field=field
+            )
+        values = np.array(
+            [read_float(v, f"{field}[{k + 1}]", error=PlantError) for k, v in enumerate(row)],
+            dtype=float,
+        )
+    bad = np.flatnonzero(~np.isfinite(values) | (np.abs(values) > bounds.high))
+    if bad.size:
+        k = int(bad[0])
+        read_float(float(values[k]), f"{field}[{k + 1}]", bounds=bounds, error=PlantError)
+    return values
 
 
 def _plain(item) -> dict:

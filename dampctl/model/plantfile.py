@@ -8,7 +8,6 @@ Every problem is reported as a :class:`~dampctl.errors.PlantFileError` (or its p
 
 from __future__ import annotations
 
-import math
 import sys
 import tomllib
 from collections.abc import Callable, Mapping
@@ -29,6 +28,7 @@ from dampctl.model.plant import (
     Requirements,
     Sensor,
 )
+from dampctl.values import describe
 
 __all__ = ["dump_plant", "load_plant", "parse_plant"]
 
@@ -150,8 +150,17 @@ def parse_plant(text: str, *, source: str = "<plant>") -> ModalPlant:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise PlantFileError(f"not valid TOML ({exc})", source=source) from None
+    except RecursionError:
+        raise PlantFileError(
+            "arrays or tables are nested too deeply to read (a plant file needs two levels)",
+            source=source,
+        ) from None
     try:
         return _build(data)
+    except RecursionError:
+        raise PlantFileError(
+            "a value is nested too deeply (a plant file needs two levels)", source=source
+        ) from None
     except PlantError as exc:
         cls = type(exc)
         raise cls(exc.message, source=source, field=exc.field) from None
@@ -169,16 +178,16 @@ def _build(data: Mapping[str, Any]) -> ModalPlant:
     sites = data["sites"]
     if not isinstance(sites, dict):
         raise PlantFileError("expected a table of name = [values]", field="sites")
-    for name, row in sites.items():
-        if not isinstance(row, list) or not all(_is_number(v) for v in row):
-            raise PlantError("expected a list of numbers, one per mode", field=f"sites.{name}")
-        for k, value in enumerate(row):
-            if not math.isfinite(float(value)):
-                raise PlantError(f"value {k + 1} is not finite ({value!r})", field=f"sites.{name}")
+    for name, row in sites.items():  # each value is read strictly by ModalPlant
+        if not isinstance(row, list):
+            raise PlantError(
+                f"expected a list of numbers, one per mode, got {describe(row)}",
+                field=f"sites.{name}",
+            )
     requirements = _requirements(data.get("requirements", {}))
     title = data.get("title", "")
     if not isinstance(title, str):
-        raise PlantFileError(f"expected a string, got {title!r}", field="title")
+        raise PlantFileError(f"expected a string, got {describe(title)}", field="title")
     return _wrap(
         "",
         lambda: ModalPlant(
@@ -206,7 +215,9 @@ def _records(data: Mapping[str, Any], group: str) -> tuple:
         _check_keys(row, required, required | optional, where)
         for key, value in row.items():
             if key in _STRING_KEYS and not isinstance(value, str):
-                raise PlantFileError(f"expected a string, got {value!r}", field=f"{where}.{key}")
+                raise PlantFileError(
+                    f"expected a string, got {describe(value)}", field=f"{where}.{key}"
+                )
             if key == "between" and (
                 not isinstance(value, list) or not all(isinstance(v, str) for v in value)
             ):
@@ -250,10 +261,6 @@ def _wrap(where: str, build: Callable[[], Any]) -> Any:
     except PlantError as exc:
         field = ".".join(p for p in (where, exc.field) if p) or None
         raise type(exc)(exc.message, field=field) from None
-
-
-def _is_number(value: Any) -> bool:
-    return isinstance(value, int | float) and not isinstance(value, bool)
 
 
 # ---------------------------------------------------------------------- writing
