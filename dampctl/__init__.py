@@ -25,7 +25,7 @@ testing
     reference plants and checks for users' own tests
 
 Plant
-    ModalPlant, Mode, Actuator, Sensor, Pair, Output, Disturbance, Requirements
+    ModalPlant, Mode, Actuator, Sensor, Pair, Output, Disturbance, Requirements, PartPrice
         modal plant value objects; ``plant.statespace``, ``plant.frf``
     load_plant, parse_plant, dump_plant
         plant files (TOML)
@@ -94,6 +94,7 @@ from dampctl.model.plant import (
     Mode,
     Output,
     Pair,
+    PartPrice,
     Requirements,
     Sensor,
     signal_name,
@@ -120,6 +121,7 @@ __all__ = [
     "Output",
     "OutputError",
     "Pair",
+    "PartPrice",
     "PlantError",
     "PlantFileError",
     "Requirements",

@@ -5,7 +5,9 @@ Takes modal data (a plant file, or values built in code) and gives a validated, 
 
 components
     value objects a plant is made of: Mode, Actuator, Sensor, Pair, Output, Disturbance,
-    Requirements
+    Requirements, PartPrice (the price of a kind of passive part)
+passive
+    passive parts added to the structure: Absorber, Damper, Shunt (what a passive design holds)
 plant
     ModalPlant: validation, modal input/output rows, state space, FRF by the modal sum
 modalbasis
@@ -26,6 +28,7 @@ from dampctl.model.plant import (
     Mode,
     Output,
     Pair,
+    PartPrice,
     Requirements,
     Sensor,
 )
@@ -39,6 +42,7 @@ __all__ = [
     "Mode",
     "Output",
     "Pair",
+    "PartPrice",
     "Requirements",
     "Sensor",
     "dump_plant",

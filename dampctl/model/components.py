@@ -27,6 +27,7 @@ __all__ = [
     "KIND_ORDER",
     "KIND_UNIT",
     "OUTPUT_KINDS",
+    "PART_KINDS",
     "RANGES",
     "SENSOR_KINDS",
     "Actuator",
@@ -34,6 +35,7 @@ __all__ = [
     "Mode",
     "Output",
     "Pair",
+    "PartPrice",
     "Requirements",
     "Sensor",
 ]
@@ -101,6 +103,9 @@ RANGES: Mapping[str, Range] = MappingProxyType(
         "max_stroke_m": Range(0.0, 100.0, "m", low_open=True),
         "bandwidth_hz": Range(0.0, 1e9, "Hz", low_open=True),
         "cost": Range(0.0, 1e15),
+        "cost_per_kg": Range(0.0, 1e15),
+        "capacitance_f": Range(0.0, 1.0, "F", low_open=True),
+        "coupling_k": Range(0.0, 1.0, low_open=True, high_open=True),
         "noise_density": Range(0.0, 1e9),
         "static_gain": Range(-1e15, 1e15),
         "psd": Range(0.0, 1e15, "N²/Hz"),
@@ -191,6 +196,14 @@ class Actuator:
         First-order roll-off corner (Hz) of the actuator and its amplifier.
     cost : float, optional
         Cost of the actuator (any currency), for sizing.
+    capacitance_f : float, optional
+        A piezoelectric strut's free capacitance C (F), measured unloaded as data sheets give
+        it; its blocked capacitance is C (1 − k²). Struts only; with ``coupling_k`` it makes
+        the strut usable for a passive electrical shunt (``dampctl tune --law shunt``).
+    coupling_k : float, optional
+        The strut's electromechanical coupling factor k, 0 < k < 1 (k² = d² k_s / C, with d
+        its free extension per volt and k_s ``stiffness_n_per_m``, the short-circuit
+        stiffness). Struts only.
     """
 
     name: str
@@ -202,6 +215,8 @@ class Actuator:
     max_stroke_m: float | None = None
     bandwidth_hz: float | None = None
     cost: float = 0.0
+    capacitance_f: float | None = None
+    coupling_k: float | None = None
 
     def __post_init__(self) -> None:
         if self.kind not in ACTUATOR_KINDS:
@@ -218,9 +233,18 @@ class Actuator:
             object.__setattr__(self, "stiffness_n_per_m", stiffness)
         elif self.stiffness_n_per_m is not None:
             raise PlantError("only a strut has a stiffness", field="stiffness_n_per_m")
-        for name in ("max_force_n", "max_stroke_m", "bandwidth_hz"):
+        for name in ("max_force_n", "max_stroke_m", "bandwidth_hz", "capacitance_f",
+                     "coupling_k"):
             object.__setattr__(self, name, _optional(getattr(self, name), name))
         object.__setattr__(self, "cost", _finite(self.cost, "cost"))
+        for name in ("capacitance_f", "coupling_k"):
+            if getattr(self, name) is not None and self.kind != "strut":
+                raise PlantError("only a piezoelectric strut has this", field=name)
+
+    @property
+    def piezo(self) -> bool:
+        """True for a strut with ``capacitance_f`` and ``coupling_k`` (it can carry a shunt)."""
+        return self.capacitance_f is not None and self.coupling_k is not None
 
 
 @dataclass(frozen=True)
@@ -418,6 +442,58 @@ class Disturbance:
             out = np.exp(np.interp(np.log(np.maximum(freq_hz, 1e-300)), np.log(f), log_s))
         out[(freq_hz < f[0]) | (freq_hz > f[-1])] = 0.0
         return np.where(out < 1e-290, 0.0, out)
+
+
+#: kinds of passive part the plant file's ``[[parts]]`` table can price
+PART_KINDS: tuple[str, ...] = ("absorber", "damper", "r_shunt", "rl_shunt")
+
+
+@dataclass(frozen=True)
+class PartPrice:
+    """The price of a kind of passive part (a row of the plant file's ``[[parts]]`` table).
+
+    Parameters
+    ----------
+    name : str
+        Unique name (what the part is, for tables).
+    kind : {"absorber", "damper", "r_shunt", "rl_shunt"}
+        Tuned-mass absorber, viscous damper, resistive or resistive-inductive piezo shunt.
+    cost : float, optional
+        Cost of one part (any currency, the same as the actuators' and sensors' costs).
+    cost_per_kg : float, optional
+        Absorbers only: cost per kg of absorber mass, added to ``cost``.
+    """
+
+    name: str
+    kind: str
+    cost: float = 0.0
+    cost_per_kg: float = 0.0
+
+    def __post_init__(self) -> None:
+        if self.kind not in PART_KINDS:
+            raise PlantError(
+                f"kind must be one of {', '.join(PART_KINDS)}, got {self.kind!r}", field="kind"
+            )
+        object.__setattr__(self, "cost", _finite(self.cost, "cost"))
+        per_kg = _finite(self.cost_per_kg, "cost_per_kg")
+        if per_kg and self.kind != "absorber":
+            raise PlantError("only an absorber is priced per kg", field="cost_per_kg")
+        object.__setattr__(self, "cost_per_kg", per_kg)
+
+    def price(self, mass_kg: float = 0.0) -> float:
+        """Cost of one part of this kind.
+
+        Parameters
+        ----------
+        mass_kg : float, optional
+            Absorber mass (kg); ignored for other kinds.
+
+        Returns
+        -------
+        float
+            ``cost + cost_per_kg · mass_kg``.
+        """
+        return self.cost + self.cost_per_kg * float(mass_kg)
 
 
 @dataclass(frozen=True)

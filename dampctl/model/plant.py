@@ -43,6 +43,7 @@ from dampctl.model.components import (
     Mode,
     Output,
     Pair,
+    PartPrice,
     Requirements,
     Sensor,
 )
@@ -56,6 +57,7 @@ __all__ = [
     "Mode",
     "Output",
     "Pair",
+    "PartPrice",
     "Requirements",
     "Sensor",
     "signal_name",
@@ -106,6 +108,9 @@ class ModalPlant:
         What the design must achieve.
     title : str, optional
         A title for reports.
+    parts : sequence of PartPrice, optional
+        Prices of passive parts (absorbers, dampers, shunts), at most one row per kind; they
+        do not enter the fingerprint.
 
     Raises
     ------
@@ -123,6 +128,7 @@ class ModalPlant:
     disturbances: tuple[Disturbance, ...] = ()
     requirements: Requirements = field(default_factory=Requirements)
     title: str = ""
+    parts: tuple[PartPrice, ...] = ()
 
     def __post_init__(self) -> None:
         modes = tuple(self.modes)
@@ -146,7 +152,7 @@ class ModalPlant:
                 )
             sites[name] = _readonly(values)
         object.__setattr__(self, "sites", MappingProxyType(sites))
-        for group in ("actuators", "sensors", "pairs", "outputs", "disturbances"):
+        for group in ("actuators", "sensors", "pairs", "outputs", "disturbances", "parts"):
             object.__setattr__(self, group, tuple(getattr(self, group)))
         self._check_references()
 
@@ -211,7 +217,7 @@ class ModalPlant:
 
     # ------------------------------------------------------------------ validation
     def _check_references(self) -> None:
-        for group in ("actuators", "sensors", "pairs", "outputs", "disturbances"):
+        for group in ("actuators", "sensors", "pairs", "outputs", "disturbances", "parts"):
             seen: set[str] = set()
             for k, item in enumerate(getattr(self, group)):
                 if item.name in seen:
@@ -244,6 +250,14 @@ class ModalPlant:
                         f"{strut.kind} actuator",
                         field=f"sensors[{k + 1}].actuator",
                     )
+        kinds: set[str] = set()
+        for k, part in enumerate(self.parts):
+            if part.kind in kinds:
+                raise PlantError(
+                    f"a second row for kind {part.kind!r} (one price per kind of part)",
+                    field=f"parts[{k + 1}].kind",
+                )
+            kinds.add(part.kind)
         sensors = {s.name: s for s in self.sensors}
         for k, pair in enumerate(self.pairs):
             if pair.actuator not in actuators:
@@ -369,12 +383,30 @@ class ModalPlant:
         """
         return _lookup(self.disturbances, name, "disturbance")
 
+    def part_price(self, kind: str, mass_kg: float = 0.0) -> float | None:
+        """Cost of one passive part of a kind, from the ``[[parts]]`` table.
+
+        Parameters
+        ----------
+        kind : str
+            ``absorber``, ``damper``, ``r_shunt`` or ``rl_shunt``.
+        mass_kg : float, optional
+            Absorber mass (kg), for a price per kg.
+
+        Returns
+        -------
+        float or None
+            The price; None when the table has no row of that kind.
+        """
+        part = next((p for p in self.parts if p.kind == kind), None)
+        return None if part is None else part.price(mass_kg)
+
     @property
     def fingerprint(self) -> str:
         """Short hash of everything a damping loop depends on (modes, sites, hardware, pairs).
 
-        Outputs, disturbances, requirements and the title are left out, so editing them does not
-        invalidate a design.
+        Outputs, disturbances, requirements, part prices and the title are left out, so editing
+        them does not invalidate a design.
         """
         payload = {
             "modes": [[m.freq_hz, m.damping, m.modal_mass_kg] for m in self.modes],
@@ -675,9 +707,16 @@ def _shape_row(row, field: str) -> np.ndarray:
     return values
 
 
+#: keys added to the hardware after design files existed: left out of the fingerprint while
+#: unset, so a plant that does not use them keeps its fingerprint (and its designs stay valid)
+_LATER_KEYS = frozenset({"capacitance_f", "coupling_k"})
+
+
 def _plain(item) -> dict:
     out = {}
     for key, value in item.__dict__.items():
+        if key in _LATER_KEYS and value is None:
+            continue
         out[key] = list(value) if isinstance(value, tuple) else value
     return out
 

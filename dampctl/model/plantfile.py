@@ -25,6 +25,7 @@ from dampctl.model.plant import (
     Mode,
     Output,
     Pair,
+    PartPrice,
     Requirements,
     Sensor,
 )
@@ -45,6 +46,7 @@ _TOP_KEYS = {
     "outputs",
     "disturbances",
     "requirements",
+    "parts",
 }
 _KEYS: dict[str, tuple[set[str], set[str]]] = {
     # group: (required, optional)
@@ -59,6 +61,8 @@ _KEYS: dict[str, tuple[set[str], set[str]]] = {
             "max_stroke_m",
             "bandwidth_hz",
             "cost",
+            "capacitance_f",
+            "coupling_k",
         },
     ),
     "sensors": (
@@ -68,6 +72,7 @@ _KEYS: dict[str, tuple[set[str], set[str]]] = {
     "pairs": ({"name", "actuator", "sensor"}, {"static_gain"}),
     "outputs": ({"name", "kind"}, {"site", "between"}),
     "disturbances": ({"name", "site", "psd"}, {"kind"}),
+    "parts": ({"name", "kind"}, {"cost", "cost_per_kg"}),
 }
 _REQUIREMENT_KEYS = {
     "modes",
@@ -86,6 +91,7 @@ _FACTORIES: dict[str, Callable[..., Any]] = {
     "pairs": Pair,
     "outputs": Output,
     "disturbances": Disturbance,
+    "parts": PartPrice,
 }
 
 
@@ -200,6 +206,7 @@ def _build(data: Mapping[str, Any]) -> ModalPlant:
             disturbances=groups["disturbances"],
             requirements=requirements,
             title=title,
+            parts=groups["parts"],
         ),
     )
 
@@ -264,7 +271,7 @@ def _wrap(where: str, build: Callable[[], Any]) -> Any:
 
 
 # ---------------------------------------------------------------------- writing
-_OPTIONAL_ZERO = {"cost", "noise_density"}  # written only when not 0 (their default)
+_OPTIONAL_ZERO = {"cost", "cost_per_kg", "noise_density"}  # written only when not 0 (default)
 
 
 def dump_plant(plant: ModalPlant) -> str:
@@ -314,7 +321,7 @@ def _document(plant: ModalPlant) -> dict[str, Any]:
         }
         doc["modes"].append(_plain(row))
     doc["sites"] = {name: _plain(row) for name, row in plant.sites.items()}
-    for group in ("actuators", "sensors", "pairs", "outputs", "disturbances"):
+    for group in ("actuators", "sensors", "pairs", "outputs", "disturbances", "parts"):
         rows = []
         for item in getattr(plant, group):
             rows.append(

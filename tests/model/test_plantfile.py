@@ -276,6 +276,37 @@ BAD = [
         "kind must be one of force, strut",
     ),
     ("wrong type", replace('name = "vel"', "name = 3"), "sensors[1].name", "expected a string"),
+    (
+        "coupling out of range",
+        replace("stiffness_n_per_m = 2e6", "stiffness_n_per_m = 2e6\ncoupling_k = 1.2"),
+        "actuators[2].coupling_k",
+        "must be in (0, 1)",
+    ),
+    (
+        "capacitance on a force actuator",
+        replace('kind = "force"', 'kind = "force"\ncapacitance_f = 1e-6'),
+        "actuators[1].capacitance_f",
+        "only a piezoelectric strut",
+    ),
+    (
+        "unknown part kind",
+        BASE + '\n[[parts]]\nname = "tmd"\nkind = "spring"\n',
+        "parts[1].kind",
+        "kind must be one of absorber, damper, r_shunt, rl_shunt",
+    ),
+    (
+        "two prices of one kind",
+        BASE + '\n[[parts]]\nname = "a"\nkind = "damper"\n\n[[parts]]\nname = "b"\n'
+        'kind = "damper"\n',
+        "parts[2].kind",
+        "one price per kind",
+    ),
+    (
+        "price per kg of a damper",
+        BASE + '\n[[parts]]\nname = "a"\nkind = "damper"\ncost_per_kg = 3.0\n',
+        "parts[1].cost_per_kg",
+        "only an absorber",
+    ),
 ]
 
 
@@ -374,6 +405,26 @@ def readme_section() -> str:
     text = (ROOT / "README.md").read_text(encoding="utf-8")
     start = text.index("## The plant file")
     return text[start : text.index("\n## ", start + 1)]
+
+
+def test_piezo_keys_and_part_prices(tmp_path: Path):
+    text = replace("stiffness_n_per_m = 2e6", "stiffness_n_per_m = 2e6\ncapacitance_f = 1e-6\n"
+                   "coupling_k = 0.4")
+    text += ('\n[[parts]]\nname = "tuned mass"\nkind = "absorber"\ncost = 50.0\n'
+             'cost_per_kg = 200.0\n')
+    plant = parse_plant(text)
+    strut = plant.actuator("pzt")
+    assert strut.piezo and strut.capacitance_f == 1e-6 and strut.coupling_k == 0.4
+    assert plant.part_price("absorber", 0.5) == pytest.approx(150.0)
+    assert plant.part_price("damper") is None
+    again = parse_plant(dump_plant(plant))
+    assert again.parts == plant.parts and again.actuator("pzt") == strut
+    # prices do not enter the fingerprint; the piezo keys do, and only when set
+    bare = parse_plant(BASE)
+    assert parse_plant(BASE + '\n[[parts]]\nname = "d"\nkind = "damper"\n').fingerprint == (
+        bare.fingerprint
+    )
+    assert plant.fingerprint != bare.fingerprint
 
 
 def test_readme_documents_every_key():
