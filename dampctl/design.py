@@ -7,6 +7,11 @@ state space. Either way
 :meth:`Design.statespace` gives the whole K(s) (sensors in, actuators out), which is what
 assessment, sizing and export use, so they never depend on the law.
 
+A passive design (``tmd``, ``viscous``, ``shunt``) has no controller at all: it holds passive
+parts (:mod:`dampctl.model.passive`: absorbers, dampers, shunts) that act on the structure
+through their own physics, with no sensor, no sampling, no delay and nothing to export; the
+analysis stage adds their states to the plant's (:mod:`dampctl.analysis.passive`).
+
 A SISO loop controller is a sum of branches, each a gain times a cascade of continuous-time
 sections (polynomials in s, highest power first, degree ≤ 2):
 
@@ -37,6 +42,15 @@ import numpy as np
 from scipy.linalg import block_diag
 
 from dampctl.errors import DesignError
+from dampctl.model.passive import (
+    GROUND,
+    Absorber,
+    Damper,
+    PassivePart,
+    Shunt,
+    part_from_dict,
+    part_to_dict,
+)
 from dampctl.model.plant import ModalPlant, signal_name
 
 __all__ = [
@@ -48,7 +62,9 @@ __all__ = [
     "load_design",
 ]
 
-LAWS: tuple[str, ...] = ("dvf", "iff", "ppf", "lqg", "custom")
+#: laws whose design is a set of passive parts (no loop)
+PASSIVE_LAWS: tuple[str, ...] = ("tmd", "viscous", "shunt")
+LAWS: tuple[str, ...] = ("dvf", "iff", "ppf", "lqg", "custom", *PASSIVE_LAWS)
 FORMAT = "dampctl-design"
 FORMAT_VERSION = 1
 
@@ -202,8 +218,9 @@ class Design:
 
     Parameters
     ----------
-    law : {"dvf", "iff", "ppf", "lqg", "custom"}
-        The damping law (``custom``: a controller given by the user).
+    law : {"dvf", "iff", "ppf", "lqg", "custom", "tmd", "viscous", "shunt"}
+        The damping law (``custom``: a controller given by the user; the last three are
+        passive: ``parts``, no loops).
     plant_fingerprint : str
         :attr:`ModalPlant.fingerprint` of the plant it was designed for.
     actuators, sensors : sequence of str
@@ -226,6 +243,9 @@ class Design:
     controller_rate_hz : float, optional
         Sample rate (Hz) of a discrete ``controller`` (custom designs only); None for a
         continuous one.
+    parts : sequence of Absorber, Damper or Shunt, optional
+        The passive parts of a passive design (tmd: absorbers, viscous: dampers, shunt:
+        shunts); a passive design has no loops, no controller, no actuators and no sensors.
     """
 
     law: str
@@ -239,16 +259,22 @@ class Design:
     plant_title: str = ""
     info: Mapping[str, Any] = field(default_factory=dict)
     controller_rate_hz: float | None = None
+    parts: tuple[PassivePart, ...] = ()
 
     def __post_init__(self) -> None:
         if self.law not in LAWS:
             raise DesignError(
                 f"law must be one of {', '.join(LAWS)}, got {self.law!r}", field="law"
             )
-        for name in ("actuators", "sensors", "target_modes", "loops", "pairs"):
+        for name in ("actuators", "sensors", "target_modes", "loops", "pairs", "parts"):
             object.__setattr__(self, name, tuple(getattr(self, name)))
         object.__setattr__(self, "target_modes", tuple(int(m) for m in self.target_modes))
         object.__setattr__(self, "info", MappingProxyType(dict(self.info)))
+        if self.law in PASSIVE_LAWS:
+            self._check_passive()
+            return
+        if self.parts:
+            raise DesignError(f"an active design ({self.law}) has no passive parts", field="parts")
         if (self.controller is None) == (not self.loops):
             raise DesignError("a design has either loops (decentralized) or a controller (MIMO)")
         if self.loops:
@@ -296,6 +322,30 @@ class Design:
             if not isinstance(name, str) or not name:
                 raise DesignError(f"invalid signal name {name!r}")
 
+    def _check_passive(self) -> None:
+        if (
+            self.loops
+            or self.controller is not None
+            or self.actuators
+            or self.sensors
+            or self.controller_rate_hz is not None
+        ):
+            raise DesignError(
+                f"a passive design ({self.law}) has parts only: no loops, controller, actuators "
+                "or sensors"
+            )
+        if not self.parts:
+            raise DesignError(f"a passive design ({self.law}) needs at least one part",
+                              field="parts")
+        wanted = {"tmd": Absorber, "viscous": Damper, "shunt": Shunt}[self.law]
+        for k, part in enumerate(self.parts):
+            if not isinstance(part, wanted):
+                raise DesignError(
+                    f"a {self.law} design holds {wanted.__name__.lower()}s, got "
+                    f"{type(part).__name__}",
+                    field=f"parts[{k + 1}]",
+                )
+
     @property
     def decentralized(self) -> bool:
         """True for one SISO loop per pair (dvf, iff, ppf)."""
@@ -306,9 +356,25 @@ class Design:
         """True for a custom design whose controller is given in discrete time."""
         return self.controller_rate_hz is not None
 
+    @property
+    def passive(self) -> bool:
+        """True for a passive design (tmd, viscous, shunt): parts, no loop."""
+        return self.law in PASSIVE_LAWS
+
+    def _no_loop(self) -> None:
+        if self.passive:
+            raise DesignError(
+                f"passive design ({self.law}): no loop, no controller (its parts act through "
+                "their own physics; see dampctl.analysis.passive)"
+            )
+
     def statespace_matrices(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
         """(A, B, C, D) of the whole continuous controller, sensors in, actuators out,
-        ``u = −(Cx + Dy)`` (for a discrete controller: its continuous bilinear equivalent)."""
+        ``u = −(Cx + Dy)`` (for a discrete controller: its continuous bilinear equivalent).
+
+        A passive design has none: it raises :class:`~dampctl.errors.DesignError`.
+        """
+        self._no_loop()
         if self.controller is not None:
             if self.controller_rate_hz is not None:
                 return _inverse_bilinear(self.controller, 1.0 / self.controller_rate_hz)
@@ -346,6 +412,7 @@ class Design:
         """
         import control
 
+        self._no_loop()
         if self.controller_rate_hz is not None:
             A, B, C, D = self.discrete_matrices()
             dt = 1.0 / self.controller_rate_hz
@@ -377,6 +444,7 @@ class Design:
         ndarray of complex, shape (n_act, n_sens, n_freq)
             K from each sensor to each actuator (u = −K y).
         """
+        self._no_loop()
         freq_hz = np.asarray(freq_hz, dtype=float).ravel()
         if self.loops:
             out = np.zeros((len(self.actuators), len(self.sensors), freq_hz.size), complex)
@@ -416,6 +484,10 @@ class Design:
                 source=source,
                 field="plant_fingerprint",
             )
+        for k, part in enumerate(self.parts):
+            problem, where = _part_problem(plant, part)
+            if problem:
+                raise DesignError(problem, source=source, field=f"parts[{k + 1}].{where}")
 
     # ------------------------------------------------------------------ file form
     def to_dict(self) -> dict[str, Any]:
@@ -430,9 +502,15 @@ class Design:
             "actuators": list(self.actuators),
             "sensors": list(self.sensors),
             "target_modes": list(self.target_modes),
-            "sign_convention": "u = -K(s) y",
         }
-        if self.loops:
+        if self.passive:
+            out["passive"] = True
+            out["parts"] = [part_to_dict(p) for p in self.parts]
+        else:
+            out["sign_convention"] = "u = -K(s) y"
+        if self.passive:
+            pass  # the parts are the whole design
+        elif self.loops:
             out["loops"] = [
                 {
                     "pair": lp.pair,
@@ -501,6 +579,12 @@ def design_from_dict(data: Mapping[str, Any], *, source: str | None = None) -> D
             )
             for lp in data.get("loops", ())
         )
+        raw_parts = data.get("parts", ())
+        if not isinstance(raw_parts, list | tuple):
+            raise DesignError("expected a list of parts", field="parts")
+        parts = tuple(
+            part_from_dict(p, f"parts[{k + 1}]") for k, p in enumerate(raw_parts)
+        )
         ctrl = data.get("controller")
         controller = (
             None
@@ -521,6 +605,7 @@ def design_from_dict(data: Mapping[str, Any], *, source: str | None = None) -> D
             plant_title=data.get("plant_title", ""),
             info=data.get("info", {}),
             controller_rate_hz=data.get("controller_rate_hz"),
+            parts=parts,
         )
     except DesignError as exc:
         raise DesignError(exc.message, source=source, field=exc.field) from None
@@ -569,6 +654,33 @@ def _inverse_bilinear(mats, sample_time_s: float):
     C = 2.0 * Cd @ inv
     D = Dd - Cd @ inv @ Bd
     return A, B, C, D
+
+
+def _part_problem(plant: ModalPlant, part) -> tuple[str, str]:
+    """What is wrong with a passive part on this plant ("" when nothing), and the field."""
+    if isinstance(part, Absorber):
+        if part.site not in plant.sites:
+            return f"unknown site {part.site!r}", "site"
+        if part.mode > plant.n_modes:
+            return f"mode {part.mode} does not exist (the plant has {plant.n_modes})", "mode"
+    elif isinstance(part, Damper):
+        for name in part.between:
+            if name != GROUND and name not in plant.sites:
+                return f"unknown site {name!r}", "between"
+    elif isinstance(part, Shunt):
+        actuator = next((a for a in plant.actuators if a.name == part.actuator), None)
+        if actuator is None or not actuator.piezo:
+            return (
+                f"{part.actuator!r} is not a piezoelectric strut of the plant (a strut with "
+                "capacitance_f and coupling_k)",
+                "actuator",
+            )
+        pair = next((p for p in plant.pairs if p.name == part.pair), None)
+        if pair is None or pair.actuator != part.actuator:
+            return f"the plant has no pair {part.pair!r} on {part.actuator!r}", "pair"
+        if part.mode > plant.n_modes:
+            return f"mode {part.mode} does not exist (the plant has {plant.n_modes})", "mode"
+    return "", ""
 
 
 def _shape(ctrl, key, data):

@@ -145,3 +145,84 @@ def test_invalid_designs(plant, tmp_path):
     bad.write_text('{"format": "other"}', encoding="utf-8")
     with pytest.raises(DesignError, match="format: not a dampctl design"):
         load_design(bad)
+
+
+# ---------------------------------------------------------------------- passive designs
+def passive_design(plant, **changes) -> Design:
+    from dampctl.model.passive import Absorber
+
+    values = dict(
+        law="tmd",
+        plant_fingerprint=plant.fingerprint,
+        actuators=(),
+        sensors=(),
+        target_modes=(1,),
+        parts=(Absorber(1, "m1", 0.05, 10.0, 0.1),),
+        info={"tuning": "by hand"},
+    )
+    values.update(changes)
+    return Design(**values)
+
+
+def test_passive_design_round_trip(plant, tmp_path):
+    design = passive_design(plant)
+    assert design.passive and not design.decentralized
+    path = tmp_path / "tmd.json"
+    path.write_text(design.to_json())
+    again = load_design(path)
+    assert again == design
+    data = json.loads(path.read_text())
+    assert data["passive"] is True and "loops" not in data and "sign_convention" not in data
+    assert data["parts"][0]["part"] == "absorber"
+    again.check_plant(plant)
+
+
+def test_passive_design_has_no_loop(plant):
+    design = passive_design(plant)
+    for call in (design.statespace_matrices, design.statespace, lambda: design.response([1.0])):
+        with pytest.raises(DesignError, match="passive design"):
+            call()
+
+
+@pytest.mark.parametrize(
+    ("changes", "match"),
+    [
+        ({"parts": ()}, "needs at least one part"),
+        ({"actuators": ("f1",), "sensors": ("v1",)}, "parts only"),
+        ({"law": "viscous"}, "holds dampers"),
+    ],
+)
+def test_passive_design_validation(plant, changes, match):
+    with pytest.raises(DesignError, match=match):
+        passive_design(plant, **changes)
+
+
+def test_active_design_with_parts_is_refused(plant):
+    from dampctl.model.passive import Damper
+
+    design = loop_design(plant)
+    with pytest.raises(DesignError, match="no passive parts"):
+        Design(**{**design.__dict__, "parts": (Damper(("m1", "ground"), 1.0),)})
+
+
+def test_passive_parts_must_exist_on_the_plant(plant, tmp_path):
+    from dampctl.model.passive import Absorber, Damper, Shunt
+
+    bad = {
+        "site": passive_design(plant, parts=(Absorber(1, "nowhere", 0.05, 10.0, 0.1),)),
+        "mode": passive_design(plant, parts=(Absorber(9, "m1", 0.05, 10.0, 0.1),)),
+        "between": passive_design(plant, law="viscous", parts=(Damper(("m1", "elsewhere"), 1.0),)),
+        "actuator": passive_design(plant, law="shunt", parts=(Shunt("p1", "f1", "R", 10.0),)),
+    }
+    for field, design in bad.items():
+        with pytest.raises(DesignError) as caught:
+            design.check_plant(plant, source="d.json")
+        assert caught.value.field == f"parts[1].{field}"
+        assert str(caught.value).startswith("d.json: parts[1].")
+    path = tmp_path / "broken.json"
+    data = passive_design(plant).to_dict()
+    data["parts"][0]["mass_kg"] = -1
+    path.write_text(json.dumps(data))
+    with pytest.raises(DesignError, match="must be > 0") as caught:
+        load_design(path)
+    assert caught.value.field == "parts[1].mass_kg"
