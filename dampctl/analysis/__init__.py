@@ -24,6 +24,10 @@ assessment
     assess(): everything above against the plant file's requirements
 assess_json
     the JSON form of an assessment and its plain robustness lines
+passive
+    passive parts (absorbers, dampers, shunts) as an augmentation of the plant's state space
+passive_assessment
+    assess() of a passive design: the structure with its parts, no loop
 
 Imports the model and the design only; the laws, sizing and export build on it.
 """

@@ -130,7 +130,7 @@ def assessment_dict(a) -> dict[str, Any]:
         {
             "actuator": e.actuator,
             "quantity": e.quantity,
-            "unit": "m" if e.quantity == "extension" else "N",
+            "unit": _LOAD_UNITS.get(e.quantity, "N"),
             "rms": _num(e.rms),
             "peak_estimate": _num(e.peak_estimate),
             "peak_asd": _num(e.peak_asd),
@@ -145,6 +145,8 @@ def assessment_dict(a) -> dict[str, Any]:
     ]
 
     def bandwidth(b):
+        if b is None:  # a passive design: no loop
+            return None
         return {
             "min_stable_hz": _num(b.min_stable_hz) if b.min_stable_hz is not None else None,
             "unstable_with_ideal_hardware": bool(b.min_stable_hz == np.inf),
@@ -184,7 +186,7 @@ def assessment_dict(a) -> dict[str, Any]:
             "outputs": list(a.curves.frf_outputs),
         },
         "controller_poles": _poles(a.controller_poles),
-        "controller_poles_note": other_poles_heading(_overdamped(a)),
+        "controller_poles_note": other_poles_heading(_overdamped(a), passive=a.passive),
         "overdamped_modes": list(_overdamped(a)),
         "loops": loops,
         "phase_margin_convention": (
@@ -202,7 +204,9 @@ def assessment_dict(a) -> dict[str, Any]:
                     {"mode": m, "damping": _num(v)} for m, v in r.drift.worst_damping.items()
                 ],
             },
-            "extra_delay": {
+            "extra_delay": None
+            if r.delay is None
+            else {
                 "delay_margin_s": _num(r.delay.delay_margin_s),
                 "extra_delay_s": _num(r.delay.extra_delay_s),
                 "confirmed_by_poles": r.delay.confirmed,
@@ -235,6 +239,16 @@ def assessment_dict(a) -> dict[str, Any]:
         ],
         "all_met": bool(a.all_met),
     }
+    if a.passive:
+        from dampctl.model.passive import part_to_dict
+
+        out["passive"] = True
+        out["delay"] = {"delay_s": 0.0, "note": "passive: no loop, no delay, no roll-off"}
+        out["parts"] = [
+            {"label": label, **part_to_dict(p)}
+            for label, p in zip(a.part_labels, a.parts, strict=True)
+        ]
+        out["notes"] = list(a.notes)
     if a.disk is not None:
         out["disk_margin"] = {
             "alpha": _num(a.disk.alpha),
@@ -245,6 +259,10 @@ def assessment_dict(a) -> dict[str, Any]:
             "valid": bool(a.stable),
         }
     return out
+
+
+#: unit of each effort quantity (actuator inputs; a passive part's load)
+_LOAD_UNITS = {"force": "N", "extension": "m", "stroke": "m", "voltage": "V"}
 
 
 def _overdamped(a) -> tuple[int, ...]:
@@ -268,16 +286,23 @@ def robustness_lines(robustness: dict[str, Any]) -> list[str]:
     drift = robustness["drift"]
     worst = ", ".join(f"mode {w['mode']} {_g(w['damping'])}" for w in drift["worst_damping"])
     delay = robustness["extra_delay"]
-    extra = delay["extra_delay_s"]
     lines = [
         f"drift +-{drift['drift']:.3g}: {drift['cases']} cases ({drift['corners']} corners), "
         f"{drift['unstable_cases']} unstable; worst damping {worst}",
-        "extra delay to instability: "
-        + ("none found" if extra is None else f"{extra * 1e3:.4g} ms")
-        + f" ({'confirmed by the poles' if delay['confirmed_by_poles'] else 'from the poles'})",
     ]
+    if delay is None:
+        lines.append("extra delay, actuator and sensor roll-off: none apply (passive: no loop)")
+    else:
+        extra = delay["extra_delay_s"]
+        lines.append(
+            "extra delay to instability: "
+            + ("none found" if extra is None else f"{extra * 1e3:.4g} ms")
+            + f" ({'confirmed by the poles' if delay['confirmed_by_poles'] else 'from the poles'})"
+        )
     for which in ("actuator", "sensor"):
         band = robustness[f"{which}_bandwidth"]
+        if band is None:
+            continue
         if band["unstable_with_ideal_hardware"]:
             text = "unstable even with ideal hardware"
         elif band["min_stable_hz"] is None:

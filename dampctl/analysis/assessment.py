@@ -152,18 +152,18 @@ class Robustness:
     ----------
     drift : DriftResult
         Frequency drift of every mode.
-    delay : DelayLimit
-        Extra delay to instability.
-    actuator_bandwidth, sensor_bandwidth : BandwidthLimit
-        Lowest first-order roll-off that keeps the loop stable.
+    delay : DelayLimit or None
+        Extra delay to instability (None for a passive design: no loop).
+    actuator_bandwidth, sensor_bandwidth : BandwidthLimit or None
+        Lowest first-order roll-off that keeps the loop stable (None for a passive design).
     spillover : tuple of SpilloverMode
         Modes above the design band.
     """
 
     drift: DriftResult
-    delay: DelayLimit
-    actuator_bandwidth: BandwidthLimit
-    sensor_bandwidth: BandwidthLimit
+    delay: DelayLimit | None
+    actuator_bandwidth: BandwidthLimit | None
+    sensor_bandwidth: BandwidthLimit | None
     spillover: tuple[SpilloverMode, ...]
 
 
@@ -231,6 +231,15 @@ class Assessment:
     response : ResponseResult
     requirements : tuple of RequirementCheck
     curves : Curves
+    passive : bool
+        True for a passive design (tmd, viscous, shunt): no loops, margins or delays; the
+        effort entries are the parts' loads (:mod:`dampctl.analysis.passive_assessment`).
+    parts : tuple
+        The passive parts (empty for an active design).
+    part_labels : tuple of str
+        A short name of each part.
+    notes : tuple of str
+        Plain statements about what was not assessed and why.
     """
 
     plant_title: str
@@ -250,6 +259,10 @@ class Assessment:
     response: ResponseResult
     requirements: tuple[RequirementCheck, ...]
     curves: Curves
+    passive: bool = False
+    parts: tuple = ()
+    part_labels: tuple[str, ...] = ()
+    notes: tuple[str, ...] = ()
 
     @property
     def all_met(self) -> bool:
@@ -289,7 +302,8 @@ def assess(
         The design; it must belong to the plant (:meth:`Design.check_plant`).
     delay_s : float, optional
         Loop delay (s); default the plant's ``loop_delay_s`` plus ZOH and one sample at its
-        ``sample_rate_hz``.
+        ``sample_rate_hz``. A passive design has no loop and no delay
+        (:mod:`dampctl.analysis.passive_assessment`).
     drift : float, optional
         Largest relative shift of each natural frequency in the drift check (default 0.05).
     samples : int, optional
@@ -312,6 +326,12 @@ def assess(
         raise UsageError(f"delay must be a finite number >= 0 s, got {delay_s!r}", field="delay_s")
     if samples < 0:
         raise UsageError(f"samples must be >= 0, got {samples!r}", field="samples")
+    if design.passive:  # no loop: the structure with its parts
+        from dampctl.analysis.passive_assessment import assess_passive
+
+        return assess_passive(
+            plant, design, drift=drift, samples=samples, seed=seed, progress=progress
+        )
     step = progress.advance if progress is not None else (lambda n=1: None)
     delay = plant_loop_delay_s(plant) if delay_s is None else float(delay_s)
     targets = tuple(design.target_modes) or tuple(plant.requirements.modes)

@@ -98,6 +98,9 @@ class ClosedLoopTable:
     delay_accurate_hz : float
         Frequency (Hz) up to which the delay's phase is accurate to about 0.1° (ω T/m <= 1; at
         least 1.5× the top mode unless the section count is capped).
+    passive : bool
+        The structure with passive parts (no loop): the other poles are the parts' own, and a
+        mode split by a tuned part shows the less damped of its two poles.
     """
 
     rows: tuple[ModeRow, ...]
@@ -108,6 +111,7 @@ class ClosedLoopTable:
     roll_off: bool
     delay_sections: int = 0
     delay_accurate_hz: float = 0.0
+    passive: bool = False
 
     def target_min_damping(self) -> float | None:
         """Smallest closed-loop damping ratio over the target modes (None without targets)."""
@@ -117,6 +121,12 @@ class ClosedLoopTable:
     @property
     def loop_note(self) -> str:
         """Plain statement of what the closed loop includes."""
+        if self.passive:
+            return (
+                "modes of the structure with its passive parts (their own states included; no "
+                "loop, no delay; a mode split by a tuned part shows the less damped of its two "
+                "poles)"
+            )
         if self.delay_s > 0 and self.delay_sections > 0:
             delay = (
                 f"the loop delay {self.delay_s * 1e3:.4g} ms ({self.delay_sections} [2/2] Padé "
@@ -142,7 +152,7 @@ class ClosedLoopTable:
     @property
     def other_poles_heading(self) -> str:
         """What :attr:`controller_poles` holds, in words."""
-        return other_poles_heading(self.overdamped_modes)
+        return other_poles_heading(self.overdamped_modes, passive=self.passive)
 
     def table_rows(self) -> list[list]:
         """Rows for a text table with :data:`TABLE_HEADERS`."""
@@ -208,7 +218,8 @@ def closed_loop_table(
         The design.
     delay_s : float, optional
         Loop delay (s); default the plant's stated delay
-        (:func:`dampctl.analysis.closedloop.plant_loop_delay_s`); 0 for the ideal loop.
+        (:func:`dampctl.analysis.closedloop.plant_loop_delay_s`); 0 for the ideal loop. A
+        passive design has neither delay nor roll-off.
     roll_off : bool, optional
         Include the plant's actuator/sensor roll-offs.
 
@@ -216,8 +227,14 @@ def closed_loop_table(
     -------
     ClosedLoopTable
     """
-    delay = plant_loop_delay_s(plant) if delay_s is None else float(delay_s)
-    matched = closed_loop_modes(plant, design, delay_s=delay, roll_off=roll_off)
+    if design.passive:
+        from dampctl.analysis.passive import passive_modes
+
+        matched = passive_modes(plant, design.parts).matched
+        delay, roll_off = 0.0, False
+    else:
+        delay = plant_loop_delay_s(plant) if delay_s is None else float(delay_s)
+        matched = closed_loop_modes(plant, design, delay_s=delay, roll_off=roll_off)
     targets = set(design.target_modes)
     rows = tuple(
         ModeRow(
@@ -239,22 +256,28 @@ def closed_loop_table(
         roll_off=roll_off,
         delay_sections=delay_sections(delay, reference_omega(plant)),
         delay_accurate_hz=_accurate_hz(delay, reference_omega(plant)),
+        passive=design.passive,
     )
 
 
-def other_poles_heading(overdamped_modes=()) -> str:
+def other_poles_heading(overdamped_modes=(), *, passive: bool = False) -> str:
     """Heading for the closed-loop poles not assigned to a plant mode.
 
     Parameters
     ----------
     overdamped_modes : sequence of int, optional
         Modes (1-based) whose assigned pole is real; their second real pole is in the list.
+    passive : bool, optional
+        A passive design: the poles are the parts' own.
 
     Returns
     -------
     str
     """
-    text = "other closed-loop poles (controller, filters, roll-offs, delay model"
+    if passive:
+        text = "other poles (the passive parts' own: absorbers, damper mountings, shunt networks"
+    else:
+        text = "other closed-loop poles (controller, filters, roll-offs, delay model"
     if overdamped_modes:
         listed = ", ".join(str(m) for m in overdamped_modes)
         text += f"; also the second real pole of overdamped mode(s) {listed}"

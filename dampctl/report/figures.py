@@ -170,6 +170,7 @@ def plot_root_locus(assessment, *, ax=None, span: float = 3.0) -> Drawn:
     at = poles[design][np.abs(poles[design]) <= top * span]
     star = ax.scatter(at.real, at.imag, marker="x", color=MARK, s=40, label="design (k = 1)")
     start = poles[0][np.abs(poles[0]) <= top * span]
+    passive = getattr(assessment, "passive", False)  # the parts' dissipation is scaled
     ring = ax.scatter(
         start.real,
         start.imag,
@@ -177,7 +178,7 @@ def plot_root_locus(assessment, *, ax=None, span: float = 3.0) -> Drawn:
         facecolors="none",
         edgecolors="0.3",
         s=30,
-        label="open loop (k = 0)",
+        label="parts without damping (k = 0.001)" if passive else "open loop (k = 0)",
     )
     ax.axvline(0.0, color="0.6", linewidth=0.8)
     # zoom on the structural modes (upper half plane): far-away roll-off and delay poles
@@ -188,10 +189,11 @@ def plot_root_locus(assessment, *, ax=None, span: float = 3.0) -> Drawn:
     ax.set_xlim(left, -0.12 * left)
     ax.set_xlabel("real part (1/s)")
     ax.set_ylabel("imaginary part (rad/s)")
-    ax.set_title("closed-loop poles, controller scaled 0 to 3x (modes' region)")
+    what = "the parts' damping" if passive else "controller"
+    ax.set_title(f"closed-loop poles, {what} scaled 0 to 3x (modes' region)")
     ax.grid(True, alpha=0.3)
     ax.legend(frameon=False, loc="upper left")
-    figure.colorbar(dots, ax=ax, label="gain factor k")
+    figure.colorbar(dots, ax=ax, label="damping factor k" if passive else "gain factor k")
     return Drawn(figure, ax, (dots, star, ring))
 
 
