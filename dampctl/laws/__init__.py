@@ -23,10 +23,21 @@ Command shaping (no feedback)
     shaping (design_shaper(): shapers for a plant's open- or closed-loop modes, with their
     insensitivity and drift robustness)
 
+Passive (parts, no loop: ``design(plant, ...)`` gives a Design holding the parts)
+    tmd
+        tuned-mass dampers: Den Hartog / Brock rule, refined on the full plant for the smallest
+        output peak
+    viscous
+        dampers between sites (or a site and the ground), with an optional mounting spring,
+        sized for the largest smallest damping
+    shunt
+        R or RL networks on piezoelectric struts (Hagood & von Flotow), refined like tmd
+
 Shared pieces
     _checks (pairs, collocation, clusters), _tuning (batched gain search), _assemble,
     _lqg_gains (LQG weights, Riccati solves, goal corrections), spillover (full-plant check
-    of model-based designs), reduction (balanced truncation of a controller with its bound)
+    of model-based designs), reduction (balanced truncation of a controller with its bound),
+    _passive (the passive laws' peak objective and refinement)
 
 Sign convention for all laws: u = −K(s) y (negative feedback). Import the law modules
 directly (``from dampctl.laws import dvf``); nothing is imported here at package import.
