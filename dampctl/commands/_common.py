@@ -18,6 +18,14 @@ SAFETY_LINES = (
     "limits and an emergency stop, and follow local electrical-safety codes and lab procedures.",
 )
 
+#: the cautions printed with a passive design (absorbers, dampers): no loop, but real loads
+PASSIVE_LINES = (
+    "Caution: passive parts carry real loads: check each absorber's stroke and each damper's "
+    "force (dampctl assess) against what the hardware allows.",
+    "A tuned absorber loses much of its effect when the structure's frequency drifts: see the "
+    "drift check of dampctl assess, and measure the mode before the final tuning.",
+)
+
 
 def add_force_option(parser, what: str) -> None:
     """``--force``: the one meaning it has on every command that writes.

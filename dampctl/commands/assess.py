@@ -8,7 +8,13 @@ from typing import TextIO
 
 from dampctl.analysis.assess_json import robustness_lines
 from dampctl.analysis.assessment import PHASE_MARGIN_CONVENTION, assess
-from dampctl.commands._common import SAFETY_LINES, add_force_option, print_json, table
+from dampctl.commands._common import (
+    PASSIVE_LINES,
+    SAFETY_LINES,
+    add_force_option,
+    print_json,
+    table,
+)
 from dampctl.design import load_design
 from dampctl.errors import UsageError
 from dampctl.fileio import check_output_folder
@@ -145,15 +151,23 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
 
 def _print_human(a, out: TextIO, *, plant_name: str) -> None:
     d = a.to_dict()
+    what = f"{len(a.parts)} passive part(s)" if a.passive else f"{len(a.loops)} loop(s)"
     out.write(
-        f"{plant_name}: {a.law} design, {len(a.loops)} loop(s); "
+        f"{plant_name}: {a.law} design, {what}; "
         f"{'STABLE' if a.stable else 'UNSTABLE'} (largest real part {a.max_real_part:.4g} 1/s)\n"
     )
-    out.write(
-        f"loop delay {a.delay_s * 1e6:.4g} µs: exact in frequency responses, "
-        f"{a.pade_sections} Padé [2/2] section(s) for poles; roll-offs "
-        f"{'included' if a.roll_off else 'left out'}\n\n"
-    )
+    if a.passive:
+        out.write(
+            "passive: no loop, no delay, no roll-off; the parts' own states are in the model "
+            "(a mode split by a tuned part shows the less damped of its two poles)\n"
+        )
+        out.write("".join(f"  {label}\n" for label in a.part_labels) + "\n")
+    else:
+        out.write(
+            f"loop delay {a.delay_s * 1e6:.4g} µs: exact in frequency responses, "
+            f"{a.pade_sections} Padé [2/2] section(s) for poles; roll-offs "
+            f"{'included' if a.roll_off else 'left out'}\n\n"
+        )
     rows = [
         (
             m.mode,
@@ -184,6 +198,23 @@ def _print_human(a, out: TextIO, *, plant_name: str) -> None:
         out.write(f"\n{d['controller_poles_note']}:\n")
         rows = [(p["freq_hz"], p["damping"]) for p in d["controller_poles"]]
         out.write(table(["freq (Hz)", "damping"], rows) + "\n")
+    if a.passive:
+        out.write("\nmargins: none (passive: no loop to break)\n")
+    else:
+        _print_margins(a, d, out)
+    out.write("\nrobustness:\n")
+    out.write("".join(f"  {line}\n" for line in robustness_lines(d["robustness"])))
+    _print_response(a, d, out)
+    out.write("\nrequirements:\n")
+    for q in a.requirements:
+        out.write(f"  [{'met' if q.met else 'NOT MET'}] {q.text}\n")
+    for note in a.notes:
+        out.write(f"  [n/a] {note}\n")
+    lines = PASSIVE_LINES if a.passive and a.law != "shunt" else SAFETY_LINES
+    out.write("\n" + "\n".join(lines) + "\n")
+
+
+def _print_margins(a, d: dict, out: TextIO) -> None:
     out.write("\nmargins (each loop broken at the plant input, the others closed):\n")
     rows = [
         (
@@ -203,10 +234,12 @@ def _print_human(a, out: TextIO, *, plant_name: str) -> None:
             f"+-{a.disk.gain_margin_db:.3g} dB, +-{a.disk.phase_margin_deg:.3g} deg "
             f"({a.disk.bound})\n"
         )
-    out.write("\nrobustness:\n")
-    out.write("".join(f"  {line}\n" for line in robustness_lines(d["robustness"])))
+
+
+def _print_response(a, d: dict, out: TextIO) -> None:
     if d["rms"]:
-        out.write("\nRMS under the plant's disturbances and sensor noise:\n")
+        noise = "" if a.passive else " and sensor noise"
+        out.write(f"\nRMS under the plant's disturbances{noise}:\n")
         rows = [
             (
                 o["output"],
@@ -230,7 +263,8 @@ def _print_human(a, out: TextIO, *, plant_name: str) -> None:
         ]
         out.write(table(headers, rows) + "\n")
     if d["effort"]:
-        out.write("\nactuator effort:\n")
+        heading = "part loads" if a.passive else "actuator effort"
+        out.write(f"\n{heading}:\n")
         rows = [
             (
                 e["actuator"],
@@ -242,7 +276,8 @@ def _print_human(a, out: TextIO, *, plant_name: str) -> None:
             )
             for e in d["effort"]
         ]
-        out.write(table(["actuator", "quantity", "RMS", "3 x RMS", "limit", "within"], rows) + "\n")
+        first = "part" if a.passive else "actuator"
+        out.write(table([first, "quantity", "RMS", "3 x RMS", "limit", "within"], rows) + "\n")
         for e in a.response.effort:
             over = [e.quantity] if e.within_limit is False else []
             over += ["force"] if e.force_within_limit is False else []
@@ -251,10 +286,6 @@ def _print_human(a, out: TextIO, *, plant_name: str) -> None:
                     f"  WARNING: {e.actuator}: 3 x RMS exceeds its {' and '.join(over)} limit "
                     "under the stated disturbances\n"
                 )
-    out.write("\nrequirements:\n")
-    for q in a.requirements:
-        out.write(f"  [{'met' if q.met else 'NOT MET'}] {q.text}\n")
-    out.write("\n" + "\n".join(SAFETY_LINES) + "\n")
 
 
 def _vc_text(item: dict) -> str:

@@ -184,6 +184,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     plant = load_plant(args.plant)
     design = load_design(args.design)
     design.check_plant(plant, source=args.design)
+    if design.passive:
+        return _parts_list(args, plant, design, formats, out)
     rate = args.rate if args.rate is not None else plant.requirements.sample_rate_hz
     if rate is None:
         raise UsageError("--rate is required (the plant file states no sample_rate_hz)")
@@ -248,6 +250,116 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     for line in failures:
         err.write(f"dampctl export: {line}\n")
     return code
+
+
+#: columns of the parts list (parts.csv), the keys of each part's entry in parts.json
+PART_COLUMNS = (
+    "part", "label", "mode", "site", "between", "pair", "actuator", "mass_kg", "freq_hz",
+    "damping", "stiffness_n_per_m", "damping_n_s_per_m", "coefficient_n_s_per_m",
+    "mounting_stiffness_n_per_m", "network", "resistance_ohm", "inductance_h", "cost",
+)
+
+
+def parts_list(plant, design) -> dict:
+    """The parts list of a passive design: what to buy or make, with its values and prices.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant (its ``[[parts]]`` prices).
+    design : Design
+        A passive design.
+
+    Returns
+    -------
+    dict
+        ``law``, ``plant_fingerprint``, ``note``, ``parts`` (each with the keys of
+        :data:`PART_COLUMNS`, None where they do not apply), ``added_mass_kg``, ``total_cost``
+        (None unless every part is priced).
+    """
+    from dampctl.analysis.passive import part_label
+    from dampctl.model.passive import Absorber, Damper
+
+    rows = []
+    for k, part in enumerate(design.parts):
+        row = dict.fromkeys(PART_COLUMNS)
+        row.update(part="absorber" if isinstance(part, Absorber) else
+                   "damper" if isinstance(part, Damper) else "shunt",
+                   label=part_label(part, k))
+        if isinstance(part, Absorber):
+            row.update(part.to_dict())
+        elif isinstance(part, Damper):
+            row.update(between=" - ".join(part.between),
+                       coefficient_n_s_per_m=part.coefficient_n_s_per_m,
+                       mounting_stiffness_n_per_m=part.stiffness_n_per_m)
+        else:
+            row.update(mode=part.mode, pair=part.pair, actuator=part.actuator,
+                       network=part.kind, resistance_ohm=part.resistance_ohm,
+                       inductance_h=part.inductance_h)
+        row["cost"] = plant.part_price(part.price_kind, getattr(part, "mass_kg", 0.0))
+        rows.append(row)
+    costs = [r["cost"] for r in rows]
+    return {
+        "law": design.law,
+        "plant_fingerprint": design.plant_fingerprint,
+        "note": "passive: no loop, nothing to export; this is the parts list",
+        "parts": rows,
+        "added_mass_kg": float(sum(r["mass_kg"] or 0.0 for r in rows)),
+        "total_cost": None if any(c is None for c in costs) else float(sum(costs)),
+    }
+
+
+def _parts_list(args, plant, design, formats, out: TextIO) -> int:
+    """A passive design has no coefficients: say so, and write its parts list instead."""
+    import csv
+    import io
+
+    from dampctl.commands._common import json_text
+
+    data = parts_list(plant, design)
+    files = {}
+    if "json" in formats:
+        files["parts.json"] = json_text(data, "parts")
+    if "csv" in formats:
+        buffer = io.StringIO()
+        writer = csv.writer(buffer, lineterminator="\n")
+        writer.writerow(PART_COLUMNS)
+        for row in data["parts"]:
+            writer.writerow(["" if row[k] is None else row[k] for k in PART_COLUMNS])
+        files["parts.csv"] = buffer.getvalue()
+    written = []
+    if files:
+        written = write_files(
+            args.output, files, inputs=[args.plant, args.design], replace=args.force
+        )
+    if args.json:
+        print_json({**data, "files": [str(p) for p in written]}, out, "export")
+        return 0
+    out.write(
+        f"{design.law} design: passive, no loop — nothing to export (no sampling, no "
+        "coefficients). Parts list:\n\n"
+    )
+    rows = [(r["label"], _part_values(r), r["cost"]) for r in data["parts"]]
+    out.write(table(["part", "values", "cost"], rows) + "\n")
+    out.write(f"\nadded mass {data['added_mass_kg']:.4g} kg; total cost "
+              f"{'-' if data['total_cost'] is None else format(data['total_cost'], '.6g')}\n")
+    if written:
+        out.write("\nwritten: " + ", ".join(str(p) for p in written) + "\n")
+    return 0
+
+
+def _part_values(row: dict) -> str:
+    if row["part"] == "absorber":
+        return (f"{row['mass_kg']:.4g} kg, {row['freq_hz']:.4g} Hz, damping {row['damping']:.3g} "
+                f"(k {row['stiffness_n_per_m']:.4g} N/m, c {row['damping_n_s_per_m']:.4g} N·s/m)")
+    if row["part"] == "damper":
+        mount = row["mounting_stiffness_n_per_m"]
+        return (f"c {row['coefficient_n_s_per_m']:.4g} N·s/m"
+                + (f" on a {mount:.4g} N/m mounting" if mount else ", rigid mounting"))
+    text = f"{row['network']} on {row['actuator']}: R {row['resistance_ohm']:.4g} ohm"
+    if row["inductance_h"] is not None:
+        text += f", L {row['inductance_h']:.4g} H"
+    return text
 
 
 def _unmet(plant, result) -> list[str]:

@@ -10,6 +10,7 @@ from typing import TextIO
 
 from dampctl.analysis.modetable import TABLE_HEADERS, closed_loop_table
 from dampctl.commands._common import (
+    PASSIVE_LINES,
     SAFETY_LINES,
     add_force_option,
     mode_list,
@@ -22,9 +23,14 @@ from dampctl.fileio import check_output, write_text
 from dampctl.model.plantfile import load_plant
 
 NAME = "tune"
-HELP = "tune damping loops (dvf, iff, ppf on collocated pairs, or lqg) and write a design file"
+HELP = (
+    "tune damping loops (dvf, iff, ppf on collocated pairs, or lqg) or passive parts (tmd, "
+    "viscous, shunt) and write a design file"
+)
 
-LAWS = ("dvf", "iff", "ppf", "lqg", "custom")
+LAWS = ("dvf", "iff", "ppf", "lqg", "custom", "tmd", "viscous", "shunt")
+#: the passive laws: parts, no loop
+PASSIVE = ("tmd", "viscous", "shunt")
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -42,7 +48,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         choices=LAWS,
         help="damping law: dvf (velocity feedback), iff (integral force feedback), ppf "
         "(positive position feedback), lqg (model-based) or custom (your own controller from "
-        "--controller); required",
+        "--controller); passive: tmd (tuned-mass dampers), viscous (dampers between sites), "
+        "shunt (piezo strut on an R or RL network); required",
     )
     parser.add_argument(
         "--pairs",
@@ -106,6 +113,58 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         metavar="T",
         help="loop delay in s to tune and check against (default the plant's loop_delay_s plus "
         "1.5 samples at its sample_rate_hz)",
+    )
+    passive = parser.add_argument_group("passive laws (tmd, viscous, shunt)")
+    passive.add_argument(
+        "--mass-ratio",
+        metavar="MU[,MU2]",
+        help="tmd: absorber mass over the mode's effective mass at its site, one value for all "
+        "or one per target mode (default 0.02, common practice 0.01-0.05)",
+    )
+    passive.add_argument(
+        "--mass-split",
+        choices=("each", "total"),
+        default="each",
+        help="tmd: a single --mass-ratio is each absorber's (each) or the sum over the "
+        "absorbers, shared equally (total); default each",
+    )
+    passive.add_argument(
+        "--site",
+        metavar="S[,S2]",
+        help="tmd: site of each absorber, one for all or one per target mode (default where "
+        "the mode's shape is largest; it must be a point that can carry a mass)",
+    )
+    passive.add_argument(
+        "--between",
+        action="append",
+        metavar="A,B",
+        help="viscous: the two sites a damper joins (B may be 'ground'); repeat for more "
+        "dampers; required for viscous",
+    )
+    passive.add_argument(
+        "--mount-stiffness",
+        metavar="K[,K2]",
+        help="viscous: stiffness (N/m) of each damper's mounting, in series with it (default "
+        "rigid)",
+    )
+    passive.add_argument(
+        "--coefficient",
+        metavar="C[,C2]",
+        help="viscous: fix the damper coefficient(s) in N·s/m instead of tuning",
+    )
+    passive.add_argument(
+        "--shunt",
+        choices=("RL", "R"),
+        default="RL",
+        help="shunt: network across each strut, resistor and inductor in series (RL) or a "
+        "resistor (R); default RL",
+    )
+    passive.add_argument(
+        "--refine",
+        action=argparse.BooleanOptionalAction,
+        default=True,
+        help="tmd, shunt: refine the tuning rule on the full plant for the smallest output "
+        "peak (default; --no-refine keeps the rule)",
     )
     parser.add_argument(
         "-o",
@@ -175,6 +234,9 @@ def make_design(plant, args: argparse.Namespace):
     law = args.law
     pairs = name_list(args.pairs, "--pairs")
     modes = mode_list(args.modes) or None
+    _check_passive_options(args)
+    if law in PASSIVE:
+        return _passive_design(plant, args, pairs, modes)
     if args.target_damping == NO_TARGET:
         # no target even where the plant file states one: the laws then maximize
         plant = replace(plant, requirements=replace(plant.requirements, min_damping=None))
@@ -249,6 +311,99 @@ def _custom_design(plant, args: argparse.Namespace, pairs, gain):
         raise UsageError(exc.message, source=args.controller) from None
 
 
+def _check_passive_options(args: argparse.Namespace) -> None:
+    """Options of one family may not be given to a law of the other."""
+    law = args.law
+    given = {
+        "--mass-ratio": args.mass_ratio is not None,
+        "--mass-split": args.mass_split != "each",
+        "--site": args.site is not None,
+        "--between": bool(args.between),
+        "--mount-stiffness": args.mount_stiffness is not None,
+        "--coefficient": args.coefficient is not None,
+        "--shunt": args.shunt != "RL",
+        "--no-refine": not args.refine,
+    }
+    owners = {
+        "--mass-ratio": ("tmd",),
+        "--mass-split": ("tmd",),
+        "--site": ("tmd",),
+        "--between": ("viscous",),
+        "--mount-stiffness": ("viscous",),
+        "--coefficient": ("viscous",),
+        "--shunt": ("shunt",),
+        "--no-refine": ("tmd", "shunt"),
+    }
+    for option, on in given.items():
+        if on and law not in owners[option]:
+            raise UsageError(f"{option} applies to --law {' / '.join(owners[option])} only")
+    if law in PASSIVE:
+        loop_only = {
+            "--gain": args.gain is not None,
+            "--target-damping": args.target_damping is not None,
+            "--delay-s": args.delay_s is not None,
+            "--leak-hz": args.leak_hz is not None,
+            "--order": args.order is not None,
+            "--actuators/--sensors": bool(args.actuators or args.sensors),
+            "--controller": bool(getattr(args, "controller", None)),
+        }
+        for option, on in loop_only.items():
+            if on:
+                raise UsageError(f"{option} does not apply to --law {law} (passive: no loop)")
+        if args.pairs and law != "shunt":
+            raise UsageError(f"--pairs does not apply to --law {law} (passive parts need no pair)")
+
+
+def _numbers(text: str | None, option: str) -> list[float] | None:
+    if text is None:
+        return None
+    try:
+        values = [float(part) for part in text.split(",") if part.strip()]
+    except ValueError:
+        raise UsageError(
+            f"{option}: expected numbers like 0.02 or 0.02,0.03, got {text!r}"
+        ) from None
+    if not values or not all(math.isfinite(v) and v > 0 for v in values):
+        raise UsageError(f"{option}: expected numbers > 0, got {text!r}")
+    return values
+
+
+def _passive_design(plant, args: argparse.Namespace, pairs, modes):
+    """Call the passive law with its options."""
+    if args.law == "tmd":
+        from dampctl.laws import tmd
+
+        ratios = _numbers(args.mass_ratio, "--mass-ratio") or [tmd.DEFAULT_MASS_RATIO]
+        sites = name_list(args.site, "--site") if args.site else None
+        if sites is not None and len(set(sites)) != len(sites):
+            raise UsageError("--site: a site is repeated")
+        return tmd.design(
+            plant, modes=modes, mass_ratio=ratios, split=args.mass_split, sites=sites,
+            refine=args.refine,
+        )
+    if args.law == "viscous":
+        from dampctl.laws import viscous
+
+        if not args.between:
+            raise UsageError("--law viscous needs --between A,B (B may be 'ground')")
+        links = []
+        for text in args.between:
+            names = [part.strip() for part in text.split(",") if part.strip()]
+            if len(names) != 2:
+                raise UsageError(f"--between: expected two site names A,B, got {text!r}")
+            links.append(tuple(names))
+        stiffness = _numbers(args.mount_stiffness, "--mount-stiffness")
+        coefficient = _numbers(args.coefficient, "--coefficient")
+        return viscous.design(
+            plant, links, modes=modes, stiffness_n_per_m=stiffness, coefficient=coefficient
+        )
+    from dampctl.laws import shunt
+
+    if not pairs:
+        raise UsageError("--law shunt needs --pairs P1[,P2...] on piezoelectric struts")
+    return shunt.design(plant, pairs, modes=modes, kind=args.shunt, refine=args.refine)
+
+
 def tune_payload(plant, design, modes, *, design_file: str | None = None) -> dict:
     """The JSON form of a tuned design with its closed-loop modes (also used in reports).
 
@@ -270,7 +425,8 @@ def tune_payload(plant, design, modes, *, design_file: str | None = None) -> dic
         ``loops``, ``stable``, ``max_real_part``, ``delay_s``, ``note``, ``target_modes``,
         ``target_damping``, ``target_met``, ``min_damping``, ``modes``, ``controller_poles``,
         ``controller_poles_note``, ``overdamped_modes``, ``info``, ``design_file``,
-        ``warnings``.
+        ``warnings``; for a passive design also ``passive`` (true) and ``parts`` (each with
+        ``label``, ``part`` and its fields).
     """
     info = dict(design.info)
     units = list(info.get("gain_units", []))
@@ -304,6 +460,17 @@ def tune_payload(plant, design, modes, *, design_file: str | None = None) -> dic
             f"{modes.max_real_part:.4g} 1/s): do "
             "not run it"
         )
+    extra = {}
+    if design.passive:
+        from dampctl.analysis.passive import part_label
+        from dampctl.model.passive import part_to_dict
+
+        extra = {
+            "passive": True,
+            "parts": [
+                {"label": part_label(p, k), **part_to_dict(p)} for k, p in enumerate(design.parts)
+            ],
+        }
     return {
         "law": design.law,
         "plant": plant.title,
@@ -327,12 +494,15 @@ def tune_payload(plant, design, modes, *, design_file: str | None = None) -> dic
         "info": info,
         "design_file": design_file,
         "warnings": warnings,
+        **extra,
     }
 
 
 def _print_human(payload: dict, modes, out: TextIO) -> None:
     title = payload["plant"] or "plant"
-    if payload["pairs"]:
+    if payload.get("passive"):
+        what = f"{len(payload['parts'])} passive part(s), no loop"
+    elif payload["pairs"]:
         what = f"{len(payload['pairs'])} loop(s) ({', '.join(payload['pairs'])})"
     else:  # a model-based controller: actuators and sensors, no pairs
         what = (
@@ -341,6 +511,9 @@ def _print_human(payload: dict, modes, out: TextIO) -> None:
         )
     out.write(f"{title}: {payload['law']} on {what}; design written to {payload['design_file']}\n")
     info = payload["info"]
+    if payload.get("passive"):
+        out.write(f"\ntuning: {info.get('tuning', '-')}\n")
+        out.write(_parts_table(payload["law"], payload["parts"]) + "\n")
     if payload["loops"]:
         out.write(f"\ntuning: {info.get('tuning', '-')}\n")
         rows = [
@@ -379,7 +552,36 @@ def _print_human(payload: dict, modes, out: TextIO) -> None:
         )
     if payload["warnings"]:
         out.write("\nwarnings:\n" + "".join(f"  - {w}\n" for w in payload["warnings"]))
-    out.write("\n" + "\n".join(SAFETY_LINES) + "\n")
+    lines = SAFETY_LINES if payload["law"] not in ("tmd", "viscous") else PASSIVE_LINES
+    out.write("\n" + "\n".join(lines) + "\n")
+
+
+def _parts_table(law: str, parts: list[dict]) -> str:
+    """The parts as a table, with the columns of their kind."""
+    if law == "tmd":
+        headers = ["absorber", "mode", "site", "mass (kg)", "freq (Hz)", "damping",
+                   "stiffness (N/m)", "dashpot (N·s/m)"]
+        rows = [
+            [k + 1, p["mode"], p["site"], p["mass_kg"], p["freq_hz"], p["damping"],
+             p["mass_kg"] * (2 * math.pi * p["freq_hz"]) ** 2,
+             2 * p["damping"] * p["mass_kg"] * 2 * math.pi * p["freq_hz"]]
+            for k, p in enumerate(parts)
+        ]
+    elif law == "viscous":
+        headers = ["damper", "between", "coefficient (N·s/m)", "mounting (N/m)"]
+        rows = [
+            [k + 1, " - ".join(p["between"]), p["coefficient_n_s_per_m"],
+             p["stiffness_n_per_m"] if p["stiffness_n_per_m"] is not None else "rigid"]
+            for k, p in enumerate(parts)
+        ]
+    else:
+        headers = ["shunt", "pair", "strut", "network", "mode", "R (ohm)", "L (H)"]
+        rows = [
+            [k + 1, p["pair"], p["actuator"], p["kind"], p["mode"], p["resistance_ohm"],
+             p.get("inductance_h")]
+            for k, p in enumerate(parts)
+        ]
+    return table(headers, rows)
 
 
 def _print_law_facts(info: dict, out: TextIO) -> None:

@@ -194,6 +194,8 @@ def _sizing_section(sizing: Mapping[str, Any]) -> str:
 
 
 def _design_section(design: Mapping[str, Any]) -> str:
+    if design.get("passive"):
+        return _passive_section(design)
     out = ["<h2>Design</h2>",
            f"<p>Law <b>{_e(str(design.get('law', '')).upper())}</b> on pairs "
            f"{_e(', '.join(design.get('pairs', [])) or '-')}; target modes "
@@ -215,6 +217,40 @@ def _design_section(design: Mapping[str, Any]) -> str:
         out.append(f"<p>MIMO controller state space with {n} states "
                    f"({len(design.get('sensors', []))} sensors in, "
                    f"{len(design.get('actuators', []))} actuators out).</p>")
+    info = design.get("info") or {}
+    if info:
+        out.append(_design_summary(info))
+        out.append("<details><summary>All design facts (the design file's <code>info</code>)"
+                   f"</summary>{_mapping(info)}</details>")
+    return "\n".join(out)
+
+
+#: columns of the parts table, per passive law
+_PART_COLUMNS = {
+    "tmd": [("mode", "Mode"), ("site", "Site", "text"), ("mass_kg", "Mass (kg)"),
+            ("freq_hz", "Frequency (Hz)"), ("damping", "Damping ratio"),
+            ("stiffness_n_per_m", "Spring (N/m)"), ("damping_n_s_per_m", "Dashpot (N·s/m)")],
+    "viscous": [("between", "Between", "text"), ("coefficient_n_s_per_m", "Coefficient (N·s/m)"),
+                ("stiffness_n_per_m", "Mounting (N/m)")],
+    "shunt": [("pair", "Pair", "text"), ("actuator", "Strut", "text"), ("kind", "Network", "text"),
+              ("mode", "Mode"), ("resistance_ohm", "R (Ω)"), ("inductance_h", "L (H)")],
+}
+
+
+def _passive_section(design: Mapping[str, Any]) -> str:
+    """A passive design: its parts, no loop."""
+    law = str(design.get("law", ""))
+    out = ["<h2>Design</h2>",
+           f"<p>Passive design <b>{_e(law.upper())}</b>: no loop, no sensor, no sampling — the "
+           "parts act through their own physics. Target modes "
+           f"{_e(', '.join(str(m) for m in design.get('target_modes', [])))}.</p>"]
+    parts = [dict(p) for p in design.get("parts") or []]
+    for p in parts:
+        if p.get("part") == "absorber":
+            w = 2 * math.pi * p["freq_hz"]
+            p["stiffness_n_per_m"] = p["mass_kg"] * w * w
+            p["damping_n_s_per_m"] = 2 * p["damping"] * p["mass_kg"] * w
+    out.append(_table(parts, _PART_COLUMNS.get(law, [("part", "Part", "text")])))
     info = design.get("info") or {}
     if info:
         out.append(_design_summary(info))
@@ -251,16 +287,21 @@ def _assessment_section(assessment: Mapping[str, Any]) -> str:
         ("mode", "Mode"), ("open_freq_hz", "Open freq (Hz)"), ("open_damping", "Open damping"),
         ("closed_freq_hz", "Closed freq (Hz)"), ("closed_damping", "Closed damping"),
         ("peak_reduction_db", "Peak reduction (dB)")]))
-    out.append("<h2>Stability margins</h2><p class='note'>Each loop broken at the plant input "
-               "with the others closed; delays exact in the frequency domain. Phase margin is "
-               "the phase lag that brings the loop to −180°.</p>")
-    out.append(_table(assessment.get("loops", []), [
-        ("pair", "Loop", "text"), ("gain_margin_db", "Gain margin (dB)"),
-        ("phase_margin_deg", "Phase margin (deg)"), ("delay_margin_s", "Delay margin (s)"),
-        ("crossover_hz", "Crossover (Hz)")]))
+    if assessment.get("passive"):
+        out.append("<h2>Stability margins</h2><p>None: passive, no loop to break (no delay, "
+                   "no roll-off). A passive structure cannot be destabilized by its parts.</p>")
+    else:
+        out.append("<h2>Stability margins</h2><p class='note'>Each loop broken at the plant "
+                   "input with the others closed; delays exact in the frequency domain. Phase "
+                   "margin is the phase lag that brings the loop to −180°.</p>")
+        out.append(_table(assessment.get("loops", []), [
+            ("pair", "Loop", "text"), ("gain_margin_db", "Gain margin (dB)"),
+            ("phase_margin_deg", "Phase margin (deg)"), ("delay_margin_s", "Delay margin (s)"),
+            ("crossover_hz", "Crossover (Hz)")]))
     if assessment.get("robustness"):
         out.append(_robustness_section(assessment["robustness"]))
-    for key, heading in (("rms", "Disturbance response (RMS)"), ("effort", "Actuator effort")):
+    effort = "Part loads" if assessment.get("passive") else "Actuator effort"
+    for key, heading in (("rms", "Disturbance response (RMS)"), ("effort", effort)):
         if assessment.get(key):
             out.append(f"<h2>{heading}</h2>")
             out.append(_any(assessment[key]))
@@ -270,6 +311,7 @@ def _assessment_section(assessment: Mapping[str, Any]) -> str:
         rows = [dict(r, met_text="met" if r.get("met") else "NOT MET") for r in reqs]
         out.append(_table(rows, [("name", "Requirement", "text"), ("required", "Required"),
                                  ("achieved", "Achieved"), ("met_text", "Status", "status")]))
+        out.append(_list("Not applicable", assessment.get("notes") or []))
     else:
         out.append("<p>None stated in the plant file.</p>")
     return "\n".join(out)

@@ -127,3 +127,27 @@ def test_a_design_tuned_for_another_delay_is_pointed_out(tmp_path):
     assert "tuned for a loop delay of 300 µs" in out and "--delay-s 0.0003" in out
     code, out, _ = _run(plant_path, design_path, "--samples", "0", "--delay-s", "3e-4")
     assert code in (0, 1) and "tuned for a loop delay" not in out
+
+
+def test_assess_passive_design(tmp_path):
+    from dampctl.laws import tmd
+    from dampctl.model.plantfile import load_plant
+
+    plant_path, _ = _files(tmp_path)
+    plant = load_plant(plant_path)
+    design = tmd.design(plant, modes=[1], mass_ratio=0.05)
+    path = tmp_path / "tmd.json"
+    path.write_text(design.to_json())
+    out, err = io.StringIO(), io.StringIO()
+    code = main(["assess", plant_path, str(path)], stdout=out, stderr=err)
+    text = out.getvalue()
+    assert code in (0, 1)
+    assert "margins: none (passive: no loop to break)" in text
+    assert "[n/a] min_phase_margin_deg: does not apply (passive: no loop)" in text
+    assert "part loads:" in text and "stroke (m)" in text
+    assert "min_phase_margin_deg" not in err.getvalue()
+    out = io.StringIO()
+    main(["assess", plant_path, str(path), "--json"], stdout=out, stderr=io.StringIO())
+    payload = json.loads(out.getvalue())
+    assert payload["passive"] is True and payload["loops"] == []
+    assert [r["name"] for r in payload["requirements"]][:2] == ["stability", "min_damping"]

@@ -231,3 +231,24 @@ def test_fixed_point_needs_a_signal_range(tmp_path):
              "-o", str(tmp_path / "bad")]
         )
         assert code == 2 and what in err, err
+
+
+def test_passive_design_gives_a_parts_list(tmp_path, plant):
+    from dampctl.model.components import PartPrice
+    from dampctl.model.passive import Absorber
+
+    priced = replace(plant, parts=(PartPrice("tuned mass", "absorber", 20.0, 100.0),))
+    design = Design(law="tmd", plant_fingerprint=plant.fingerprint, actuators=(), sensors=(),
+                    target_modes=(1,), parts=(Absorber(1, "m3", 0.05, 50.0, 0.1),))
+    p, d = _files(tmp_path, priced, design)
+    out, err = io.StringIO(), io.StringIO()
+    code = main(["export", p, d, "-o", str(tmp_path / "out")], stdout=out, stderr=err)
+    assert code == 0, err.getvalue()
+    assert "passive, no loop — nothing to export" in out.getvalue()
+    data = json.loads((tmp_path / "out" / "parts.json").read_text())
+    assert data["format"] == "dampctl-parts"
+    assert data["total_cost"] == pytest.approx(20.0 + 100.0 * 0.05)
+    assert data["parts"][0]["mass_kg"] == 0.05 and data["added_mass_kg"] == 0.05
+    csv_text = (tmp_path / "out" / "parts.csv").read_text()
+    assert csv_text.splitlines()[0].startswith("part,label,mode,site")
+    assert not (tmp_path / "out" / "controller.h").exists()

@@ -278,3 +278,69 @@ def test_lqg_human_output_names_modes_added_for_spillover(tmp_path):
     assert code == 0, err
     assert "(targets 1, 2, 3; neighbours 4; added for spillover 7, 9)" in out
     assert "stable: yes" in out
+
+
+# ---------------------------------------------------------------------- passive laws
+@pytest.fixture
+def piezo_file(tmp_path):
+    from dataclasses import replace
+
+    from dampctl.model.components import Disturbance, Output
+
+    base = strut_plant(damping=0.002, requirements=Requirements(modes=(1, 2), min_damping=0.01,
+                                                                  min_gain_margin_db=6.0))
+    struts = tuple(replace(a, capacitance_f=1e-6, coupling_k=0.5) if a.kind == "strut" else a
+                   for a in base.actuators)
+    plant = replace(base, actuators=struts, outputs=(Output("x2o", "displacement", site="m2"),),
+                    disturbances=(Disturbance("w2", "m2", 1.0),))
+    path = tmp_path / "piezo.toml"
+    path.write_text(dump_plant(plant))
+    return path
+
+
+def test_tune_tmd_viscous_shunt(piezo_file, tmp_path):
+    runs = {
+        "tmd": ["--law", "tmd", "--modes", "1,2", "--site", "m2", "--mass-ratio", "0.03"],
+        "viscous": ["--law", "viscous", "--modes", "1,2", "--between", "ground,m1",
+                    "--between", "m1,m2", "--mount-stiffness", "0.5"],
+        "shunt": ["--law", "shunt", "--modes", "1", "--pairs", "iff1", "--shunt", "R"],
+    }
+    for law, argv in runs.items():
+        out = tmp_path / f"{law}.json"
+        code, text, err = _run(piezo_file, *argv, "-o", out, "--json")
+        assert code in (0, 1), err
+        payload = json.loads(text)
+        assert payload["passive"] is True and payload["loops"] == []
+        assert payload["law"] == law and payload["parts"][0]["part"] in ("absorber", "damper",
+                                                                           "shunt")
+        design = load_design(out)
+        assert design.passive and design.law == law
+        code, human, _ = _run(piezo_file, *argv, "-o", tmp_path / f"{law}2.json")
+        assert "no loop" in human and "tuning:" in human
+    info = load_design(tmp_path / "shunt.json").info
+    assert set(info["shunts"][0]) == {"pair", "kind", "resistance_ohm", "mode"}
+    assert info["coupling"][0]["coupling"] > 0
+    _, human, _ = _run(piezo_file, *runs["tmd"], "-o", tmp_path / "tmd3.json")
+    assert "Caution: passive parts carry real loads" in human
+    assert SAFETY_LINES[0] not in human
+
+
+@pytest.mark.parametrize(
+    ("argv", "message"),
+    [
+        (["--law", "dvf", "--pairs", "dvf1", "--mass-ratio", "0.1"], "--mass-ratio applies to"),
+        (["--law", "tmd", "--modes", "1", "--gain", "3"], "--gain does not apply"),
+        (["--law", "tmd", "--modes", "1", "--pairs", "dvf1"], "--pairs does not apply"),
+        (["--law", "viscous", "--modes", "1"], "needs --between"),
+        (["--law", "viscous", "--modes", "1", "--between", "m1"], "two site names"),
+        (["--law", "shunt", "--modes", "1"], "needs --pairs"),
+        (["--law", "shunt", "--modes", "1", "--pairs", "fv2"], "not a piezoelectric strut"),
+        (["--law", "tmd", "--modes", "1", "--mass-ratio", "x"], "expected numbers"),
+        (["--law", "tmd", "--modes", "1", "--shunt", "R"], "--shunt applies to"),
+    ],
+)
+def test_passive_usage_errors(piezo_file, tmp_path, argv, message):
+    out = tmp_path / "d.json"
+    code, text, err = _run(piezo_file, *argv, "-o", out)
+    assert code == 2, (text, err)
+    assert message in err and not out.exists()

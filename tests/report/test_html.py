@@ -157,3 +157,18 @@ def test_robustness_and_design_read_as_sentences_with_all_values_kept():
     assert "<summary>All robustness values</summary>" in text
     assert "Smallest damping on the target modes:" in text
     assert "<summary>All design facts" in text
+
+
+def test_passive_design_shows_its_parts_and_no_margins():
+    inputs = _inputs()
+    design = {"law": "tmd", "passive": True, "target_modes": [1],
+              "parts": [{"part": "absorber", "mode": 1, "site": "tip", "mass_kg": 0.02,
+                         "freq_hz": 95.0, "damping": 0.08}],
+              "info": {"tuning": "Den Hartog / Brock rule"}}
+    assessment = dict(inputs.assessment, passive=True, loops=[],
+                      notes=["min_gain_margin_db: does not apply (passive: no loop)"])
+    text = render_report(ReportInputs(check=inputs.check, design=design, assessment=assessment))
+    assert "Passive design" in text and "no loop to break" in text
+    assert "tip" in text and "Spring (N/m)" in text
+    assert "does not apply (passive: no loop)" in text
+    assert "Gain margin (dB)" not in text
