@@ -38,6 +38,7 @@ from dampctl.model.components import (  # noqa: E402
     Disturbance,
     Output,
     Pair,
+    PartPrice,
     Requirements,
     Sensor,
 )
@@ -199,6 +200,12 @@ def build() -> ModalPlant:
         disturbances=disturbances,
         requirements=requirements,
         title="two-axis flexure scanning stage (demo)",
+        # prices of passive parts (invented): a machined absorber with its flexure and
+        # elastomer, priced by its mass, and a small viscous damper with its brackets
+        parts=[
+            PartPrice(name="tuned absorber", kind="absorber", cost=180.0, cost_per_kg=900.0),
+            PartPrice(name="viscous damper", kind="damper", cost=420.0),
+        ],
     )
 
 

@@ -31,6 +31,7 @@ from dampctl.model.components import (  # noqa: E402
     Disturbance,
     Output,
     Pair,
+    PartPrice,
     Requirements,
     Sensor,
 )
@@ -49,6 +50,10 @@ BAY_M, DEPTH_M = 0.5, 0.3
 NODE_MASS_KG = 0.25
 TUBE_EA_N = 1.6e6  # carbon tube, E·A
 STRUT_STIFFNESS = {"strut_1": 2.4e6, "strut_2": 2.4e6, "strut_3": 2.0e6}  # N/m
+# piezo stacks: free capacitance (F) and coupling factor k (k² = d² k_s / C: about 0.2 µm per
+# volt, so the 30 µm stroke needs about 150 V); invented, plausible for a stack of this size
+STRUT_CAPACITANCE_F = 4e-7
+STRUT_COUPLING = 0.5
 
 
 def geometry() -> tuple[dict[str, tuple[float, float]], list[tuple[str, str, str | None]]]:
@@ -131,6 +136,8 @@ def build() -> ModalPlant:
             max_force_n=600.0,
             bandwidth_hz=3000.0,
             cost=1800.0,
+            capacitance_f=STRUT_CAPACITANCE_F,
+            coupling_k=STRUT_COUPLING,
         )
         for name in struts
     ]
@@ -171,6 +178,12 @@ def build() -> ModalPlant:
         disturbances=disturbances,
         requirements=requirements,
         title="light truss boom with piezo struts (demo)",
+        # prices of passive networks (invented): a resistor on a board, or a resistor and a
+        # synthetic inductor (op-amp gyrator with its supply)
+        parts=[
+            PartPrice(name="resistive shunt", kind="r_shunt", cost=60.0),
+            PartPrice(name="resistive-inductive shunt", kind="rl_shunt", cost=480.0),
+        ],
     )
 
 

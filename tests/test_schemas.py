@@ -208,3 +208,23 @@ def test_plant_new_output_and_starter_file_are_valid(tmp_path):
     target = tmp_path / "starter.toml"
     assert_valid(_run(["plant", "new", "-o", str(target), "--json"]), "plant-new")
     assert_valid(tomllib.loads(target.read_text(encoding="utf-8")), "plant")
+
+
+def test_passive_designs_and_their_outputs_are_valid(tmp_path):
+    truss = str(PLANTS / "light_truss.toml")
+    stage = str(PLANTS / "scanning_stage.toml")
+    runs = {
+        "shunt": [truss, "--law", "shunt", "--modes", "1", "--pairs", "iff_1", "--no-refine"],
+        "tmd": [stage, "--law", "tmd", "--modes", "4,5", "--site", "stage_x,stage_y"],
+        "viscous": [stage, "--law", "viscous", "--modes", "4,5", "--between", "coil_x1,ground",
+                    "--between", "coil_y1,ground", "--mount-stiffness", "2e6"],
+    }
+    for law, argv in runs.items():
+        path = tmp_path / f"{law}.json"
+        assert_valid(_run(["tune", *argv, "-o", str(path), "--json"]), "tune")
+        assert_valid(json.loads(path.read_text()), "design")
+        assert_valid(_run(["assess", argv[0], str(path), "--json", "--samples", "2"]),
+                     "assessment")
+        printed = _run(["export", argv[0], str(path), "-o", str(tmp_path / law), "--json"])
+        assert_valid(printed, "parts")
+        assert_valid(json.loads((tmp_path / law / "parts.json").read_text()), "parts")

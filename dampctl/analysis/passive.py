@@ -54,6 +54,7 @@ from dampctl.model.passive import GROUND, Absorber, Damper, PassivePart, Shunt
 from dampctl.model.plant import ModalPlant
 
 __all__ = [
+    "SPLIT_BAND",
     "PartElement",
     "PassiveModel",
     "PassiveModes",
@@ -71,6 +72,10 @@ __all__ = [
 ]
 
 Matrices = tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]
+
+#: a tuned part's own pole counts with its mode when within this factor of the mode's
+#: frequency (an absorber of mass ratio 0.1 splits its mode by about ±20 %)
+SPLIT_BAND = 1.5
 
 
 # ---------------------------------------------------------------------- elements
@@ -480,7 +485,8 @@ class PassiveModes:
 
     A tuned part (absorber, RL shunt) splits its mode into two poles; the mode's row then holds
     the **less damped** of the two (the one that limits), and the other is listed with the
-    part's own poles.
+    part's own poles. A part whose own pole lies more than :data:`SPLIT_BAND` away from its
+    mode's frequency has not split it and is left with the parts' poles.
 
     Attributes
     ----------
@@ -563,6 +569,9 @@ def pair_part_poles(
     for k in tuned:
         pole, mode = own[k], model.parts[k].mode - 1
         if pole is None:
+            continue
+        if abs(math.log(abs(pole) / abs(open_poles[mode]))) > math.log(SPLIT_BAND):
+            others.append(pole)  # tuned far from its mode: it did not split it
             continue
         _, z_part = modal_damping(np.array([pole]))
         _, z_mode = modal_damping(chosen[mode : mode + 1])

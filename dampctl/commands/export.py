@@ -333,7 +333,7 @@ def _parts_list(args, plant, design, formats, out: TextIO) -> int:
             args.output, files, inputs=[args.plant, args.design], replace=args.force
         )
     if args.json:
-        print_json({**data, "files": [str(p) for p in written]}, out, "export")
+        print_json({**data, "files": [str(p) for p in written]}, out, "parts")
         return 0
     out.write(
         f"{design.law} design: passive, no loop — nothing to export (no sampling, no "

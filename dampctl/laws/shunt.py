@@ -30,9 +30,9 @@ Rule (the start), per shunt on its mode i
       fixed points of height √2 / (K √(1 + K²)).
 
 Refinement
-    R (and L) are then refined on the full plant for the smallest largest response peak at the
-    outputs (:mod:`dampctl.laws._passive`), as for tuned-mass dampers; ``refine=False`` keeps
-    the rule.
+    Each shunt's R (and L) are then refined on the full plant for the smallest response peak
+    of its own mode at the outputs (:mod:`dampctl.laws._passive`), as for tuned-mass dampers;
+    ``refine=False`` keeps the rule.
 
 Inductance
     At low frequency the optimal L is large (henries to thousands of henries): above about 1 H
@@ -52,7 +52,7 @@ from scipy.optimize import linear_sum_assignment
 from dampctl.analysis.passive import piezo_constants
 from dampctl.design import Design
 from dampctl.errors import DesignRefused, UsageError
-from dampctl.laws._passive import PeakObjective, mode_numbers, passive_design, refine_log
+from dampctl.laws._passive import PeakObjective, mode_numbers, passive_design, refine_parts
 from dampctl.model.passive import Shunt
 from dampctl.model.plant import ModalPlant
 
@@ -223,23 +223,15 @@ def design(
     rule_ratio = objective.ratio(shunts)
     refined_ratio = rule_ratio
     if refine:
-        start = np.array(
-            [v for s in shunts for v in (s.resistance_ohm, s.inductance_h) if v is not None]
+        shunts, rule_ratio, refined_ratio = refine_parts(
+            objective,
+            shunts,
+            targets,
+            lambda s: [v for v in (s.resistance_ohm, s.inductance_h) if v is not None],
+            lambda s, v: Shunt(s.pair, s.actuator, s.kind, v[0], v[1] if len(v) > 1 else None,
+                               s.mode),
+            span=0.5,
         )
-
-        def build(params: np.ndarray) -> list[Shunt]:
-            out, k = [], 0
-            for s in shunts:
-                if s.kind == "RL":
-                    out.append(Shunt(s.pair, s.actuator, "RL", params[k], params[k + 1], s.mode))
-                    k += 2
-                else:
-                    out.append(Shunt(s.pair, s.actuator, "R", params[k], None, s.mode))
-                    k += 1
-            return out
-
-        best, refined_ratio = refine_log(lambda p: objective.ratio(build(p)), start, span=0.5)
-        shunts = build(best)
     for s in shunts:
         if s.inductance_h is not None and s.inductance_h > INDUCTANCE_CAUTION_H:
             warnings.append(
@@ -254,10 +246,11 @@ def design(
     )
     if refine:
         tuning += (
-            ", then refined on the full plant (Nelder-Mead on R"
+            ", then refined on the full plant (each shunt's R"
             + (" and L" if kind == "RL" else "")
-            + ") for the smallest largest peak of the outputs' response, as a ratio to the peak "
-            f"without shunts: {rule_ratio:.4g} with the rule, {refined_ratio:.4g} refined"
+            + ", Nelder-Mead) for the smallest peak of its mode at the outputs; largest peak "
+            f"ratio (with / without shunts) {rule_ratio:.4g} with the rule, "
+            f"{refined_ratio:.4g} refined"
         )
     info = {
         "tuning": tuning,

@@ -16,12 +16,13 @@ Rule (the start)
     13, A-284, 1946; both from memory).
 
 Refinement
-    The rule ignores the structure's own damping, the other modes and the other absorbers. The
-    absorbers' frequencies and damping ratios are then refined together (Nelder–Mead on their
-    logarithms, starting from the rule) for the smallest largest response peak at the plant's
-    outputs, as a ratio to the peak without absorbers (:mod:`dampctl.laws._passive`: inputs,
-    outputs and band are recorded in ``info.refinement``). The result is never worse than the
-    rule on that measure; ``refine=False`` keeps the rule.
+    The rule ignores the structure's own damping, the other modes and the other absorbers. Each
+    absorber's frequency and damping ratio are then refined (Nelder–Mead on their logarithms,
+    starting from the rule) for the smallest response peak of its own mode at the plant's
+    outputs, as a ratio to the peak without absorbers, mode by mode and twice round
+    (:mod:`dampctl.laws._passive`: inputs, outputs and band are recorded in
+    ``info.refinement``). The result is kept only when the largest ratio over the target modes
+    is no worse than the rule's; ``refine=False`` keeps the rule.
 
 Site
     Default: for each mode, the site where |φ_i| is largest (the smallest effective mass). A
@@ -39,7 +40,7 @@ import numpy as np
 
 from dampctl.design import Design
 from dampctl.errors import UsageError
-from dampctl.laws._passive import PeakObjective, mode_numbers, passive_design, refine_log
+from dampctl.laws._passive import PeakObjective, mode_numbers, passive_design, refine_parts
 from dampctl.model.passive import Absorber
 from dampctl.model.plant import ModalPlant
 
@@ -133,16 +134,13 @@ def design(
     rule_ratio = objective.ratio(absorbers)
     refined_ratio = rule_ratio
     if refine:
-
-        def build(params: np.ndarray) -> list[Absorber]:
-            return [
-                Absorber(a.mode, a.site, a.mass_kg, params[2 * k], params[2 * k + 1])
-                for k, a in enumerate(absorbers)
-            ]
-
-        start = np.array([v for a in absorbers for v in (a.freq_hz, a.damping)])
-        best, refined_ratio = refine_log(lambda p: objective.ratio(build(p)), start)
-        absorbers = build(best)
+        absorbers, rule_ratio, refined_ratio = refine_parts(
+            objective,
+            absorbers,
+            targets,
+            lambda a: [a.freq_hz, a.damping],
+            lambda a, v: Absorber(a.mode, a.site, a.mass_kg, v[0], v[1]),
+        )
     shared = {s for s in chosen if chosen.count(s) > 1}
     if shared:
         warnings.append(
@@ -155,9 +153,10 @@ def design(
     )
     if refine:
         tuning += (
-            ", then refined on the full plant (absorber frequencies and damping, Nelder-Mead) "
-            "for the smallest largest peak of the outputs' response, as a ratio to the peak "
-            f"without absorbers: {rule_ratio:.4g} with the rule, {refined_ratio:.4g} refined"
+            ", then refined on the full plant (each absorber's frequency and damping, "
+            "Nelder-Mead) for the smallest peak of its mode at the outputs; largest peak ratio "
+            f"(with / without absorbers) {rule_ratio:.4g} with the rule, {refined_ratio:.4g} "
+            "refined"
         )
     info = {
         "tuning": tuning,

@@ -169,3 +169,21 @@ def test_target_met_against_the_plant_requirement():
     design = tmd.design(plant, modes=[1], mass_ratio=0.05)
     assert design.info["target_met"] is False
     assert design.info["min_damping"] < 0.3
+
+
+def test_on_the_bundled_stage_modes_no_output_shows_keep_the_rule():
+    # the probes do not see the stage rotation (mode 6): its absorber keeps the rule's values,
+    # the near-repeated pair 4/5 is refined together, and the largest peak ratio does not grow
+    from repo import ROOT
+
+    from dampctl.model.plantfile import load_plant
+
+    plant = load_plant(ROOT / "plants" / "scanning_stage.toml")
+    sites = ["stage_x", "stage_y", "coil_x1"]
+    rule = tmd.design(plant, modes=[4, 5, 6], sites=sites, mass_ratio=0.05, refine=False)
+    refined = tmd.design(plant, modes=[4, 5, 6], sites=sites, mass_ratio=0.05)
+    facts = refined.info["refinement"]
+    assert facts["modes_not_shown"] == [6]
+    assert refined.parts[2] == rule.parts[2]
+    assert refined.parts[0] != rule.parts[0]
+    assert facts["peak_ratio"] < facts["peak_ratio_rule"]
