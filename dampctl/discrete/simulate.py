@@ -144,8 +144,8 @@ def simulate_move(
         Discretization of the controller, as ``dampctl export`` (default ``"tustin"``, each
         section prewarped at its own frequency).
     engine : {"auto", "numpy", "compiled"}, optional
-        How the closed loop is stepped (:mod:`dampctl.discrete.timeloop`; ``"compiled"``
-        needs numba, ``"auto"`` uses it when installed). Same numbers either way.
+        How the loops are stepped (:mod:`dampctl.discrete.timeloop`; ``"compiled"`` needs
+        numba, ``"auto"`` uses it when installed). Same numbers either way.
 
     Returns
     -------
@@ -272,7 +272,7 @@ def simulate_disturbance(
     method : {"tustin", "zoh"}, optional
         Discretization of the controller (default ``"tustin"``).
     engine : {"auto", "numpy", "compiled"}, optional
-        How the closed loop is stepped, as in :func:`simulate_move`.
+        How the loops are stepped, as in :func:`simulate_move`.
 
     Returns
     -------

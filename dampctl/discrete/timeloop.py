@@ -14,13 +14,13 @@ One step at t_k = kT does what the real-time target does:
 Work and memory are linear in the number of modes and in the number of steps; the records kept
 are the sampled outputs and the actuator forces. Three engines compute the same numbers:
 
-* open loop (no controller), always: the inputs are known in advance, so each mode's 2×2
-  recursion runs over the whole record at once as a second-order filter
-  (:func:`scipy.signal.lfilter`, blocks of modes);
-* closed loop, ``"numpy"``: step by step, two matrix–vector products and a few element-wise
+* ``"compiled"``: step by step, as one loop compiled by numba (the optional ``fast`` extra);
+  ``"auto"`` takes it when numba is installed;
+* ``"numpy"``, closed loop: step by step, two matrix–vector products and a few element-wise
   operations on the modal states per step;
-* closed loop, ``"compiled"``: the same steps as one loop compiled by numba (the optional
-  ``fast`` extra); ``"auto"`` takes it when numba is installed.
+* ``"numpy"``, open loop (no controller): the inputs are known in advance, so each mode's
+  2×2 recursion runs over the whole record at once as a second-order filter
+  (:func:`scipy.signal.lfilter`, blocks of modes).
 
 An unstable loop is stopped (checked every 32 steps) before its states overflow.
 """
@@ -90,47 +90,48 @@ def _open_run(model: SampledModes, planned: np.ndarray, limits) -> LoopRecord:
 
     steps, R, n_in = planned.shape
     pieces, saturated = _clipped(planned, limits, _widths(model))
-    P = pieces.reshape(steps, R * n_in)
     ne, ns, n = len(model.lagged_inputs), len(model.lagged_outputs), model.n_modes
-    E = np.zeros((steps, ne))
+    # rows are signals, columns are steps (contiguous rows for the filters)
+    W = np.empty((ne + R * n_in, steps))
+    W[ne:] = pieces.reshape(steps, R * n_in).T
     for m in range(ne):  # e_m[k+1] = φ e_m[k] + Γ_m · pieces[k]
-        drive = P @ model.Ge[m, ne:]
-        E[:, m] = scipy.signal.lfilter([0.0, 1.0], [1.0, -model.Ge[m, m]], drive)
-    W = np.hstack([E, P])
-    outputs = W @ model.Dy.T
-    s_drive = W @ model.Gs.T if ns else None
+        drive = model.Ge[m, ne:] @ W[ne:]
+        W[m] = scipy.signal.lfilter([0.0, 1.0], [1.0, -model.Ge[m, m]], drive)
+    outputs = model.Dy @ W
+    s_drive = model.Gs @ W if ns else None
     block = max(1, min(n, _BLOCK_VALUES // max(steps, 1)))
+    x0 = np.empty((block, steps))
+    x1 = np.empty((block, steps))
     for lo in range(0, n, block):
         idx = np.arange(lo, min(lo + block, n))
-        d0 = W @ model.Gx[idx].T
-        d1 = W @ model.Gx[n + idx].T
-        p11, p22 = model.Pa[0, idx], model.Pa[1, idx]
-        p12, p21 = model.Pb[0, idx], model.Pb[1, idx]
+        d0 = model.Gx[idx] @ W
+        d1 = model.Gx[n + idx] @ W
+        p11, p22 = model.Pa[0, idx, None], model.Pa[1, idx, None]
+        p12, p21 = model.Pb[0, idx, None], model.Pb[1, idx, None]
         # x[k+1] = Φ x[k] + d[k]: x = (zI − Φ)⁻¹ d, numerators of the adjugate over det(zI − Φ)
-        s0 = np.zeros((steps, idx.size))
-        s1 = np.zeros((steps, idx.size))
-        s0[1:] = d0[:-1]
-        s1[1:] = d1[:-1]
-        s0[2:] += -p22 * d0[:-2] + p12 * d1[:-2]
-        s1[2:] += -p11 * d1[:-2] + p21 * d0[:-2]
-        x0 = np.empty_like(s0)
-        x1 = np.empty_like(s1)
+        s0 = np.zeros_like(d0)
+        s1 = np.zeros_like(d1)
+        s0[:, 1:] = d0[:, :-1]
+        s1[:, 1:] = d1[:, :-1]
+        s0[:, 2:] += p12 * d1[:, :-2] - p22 * d0[:, :-2]
+        s1[:, 2:] += p21 * d0[:, :-2] - p11 * d1[:, :-2]
         for k in range(idx.size):
-            a = [1.0, -(p11[k] + p22[k]), p11[k] * p22[k] - p12[k] * p21[k]]
-            both = scipy.signal.lfilter([1.0], a, np.stack([s0[:, k], s1[:, k]]), axis=1)
-            x0[:, k], x1[:, k] = both
-        outputs += x0 @ model.Cy[:, idx].T + x1 @ model.Cy[:, n + idx].T
+            a = [1.0, -(p11[k, 0] + p22[k, 0]), p11[k, 0] * p22[k, 0] - p12[k, 0] * p21[k, 0]]
+            x0[k] = scipy.signal.lfilter([1.0], a, s0[k])
+            x1[k] = scipy.signal.lfilter([1.0], a, s1[k])
+        rows0, rows1 = x0[: idx.size], x1[: idx.size]
+        outputs += model.Cy[:, idx] @ rows0 + model.Cy[:, n + idx] @ rows1
         if ns:
-            s_drive += x0 @ model.Hs[:, idx].T + x1 @ model.Hs[:, n + idx].T
+            s_drive += model.Hs[:, idx] @ rows0 + model.Hs[:, n + idx] @ rows1
     if ns:
-        S = np.zeros((steps, ns))
+        S = np.empty((ns, steps))
         for m in range(ns):
-            S[:, m] = scipy.signal.lfilter([0.0, 1.0], [1.0, -model.Fs[m]], s_drive[:, m])
-        outputs += S @ model.Sy.T
+            S[m] = scipy.signal.lfilter([0.0, 1.0], [1.0, -model.Fs[m]], s_drive[m])
+        outputs += model.Sy @ S
     forces = np.array(pieces[:, 0, :])
     if ne:
-        forces[:, list(model.lagged_inputs)] = E
-    return LoopRecord(outputs=outputs, forces=forces, saturated_s=saturated)
+        forces[:, list(model.lagged_inputs)] = W[:ne].T
+    return LoopRecord(outputs=outputs.T.copy(), forces=forces, saturated_s=saturated)
 
 
 def _steps_numpy(model, planned, limits, ctrl, sensors, actuators, lag, delay_piece, noise):
@@ -371,7 +372,7 @@ def run_loop(
     noise : ndarray, shape (n_steps, n_sensors), optional
         Sampled sensor noise added to the controller's inputs.
     engine : {"auto", "numpy", "compiled"}, optional
-        How a closed loop is stepped (see the module notes); ``"compiled"`` needs numba.
+        How the loop is stepped (see the module notes); ``"compiled"`` needs numba.
 
     Returns
     -------
@@ -387,18 +388,19 @@ def run_loop(
     if engine not in ENGINES:
         raise UsageError(f"unknown engine {engine!r} (expected one of: {', '.join(ENGINES)})")
     planned = np.asarray(planned, dtype=float)
+    compiled = engine != "numpy" and _compiled_kernel() is not None
+    if engine == "compiled" and not compiled:
+        raise MissingFeatureError(
+            "the compiled engine needs numba: install it with pip install 'dampctl[fast]' (or "
+            "use engine='numpy')"
+        )
     if controller is None:
-        return _open_run(model, planned, limits)
+        if not compiled:
+            return _open_run(model, planned, limits)
+        empty = np.zeros((0, 0))
+        controller = (empty, np.zeros((0, 0)), np.zeros((0, 0)), np.zeros((0, 0)))
+        sensors, actuators = np.zeros(0, dtype=int), np.zeros(0, dtype=int)
     ctrl = tuple(np.asarray(m, dtype=float) for m in controller)
     args = (model, planned, limits, ctrl, np.asarray(sensors, dtype=int),
             np.asarray(actuators, dtype=int), int(delay_samples) + 1, int(delay_piece), noise)
-    if engine == "numpy":
-        return _steps_numpy(*args)
-    if _compiled_kernel() is None:
-        if engine == "compiled":
-            raise MissingFeatureError(
-                "the compiled engine needs numba: install it with pip install 'dampctl[fast]' "
-                "(or use engine='numpy')"
-            )
-        return _steps_numpy(*args)
-    return _steps_compiled(*args)
+    return _steps_compiled(*args) if compiled else _steps_numpy(*args)

@@ -6,7 +6,7 @@ import pytest
 import scipy.linalg
 import scipy.signal
 
-from dampctl.discrete.modalzoh import sample_modes
+from dampctl.discrete.modalzoh import expm_batch, sample_modes
 from dampctl.errors import PlantError, UsageError
 from dampctl.testing import chain_plant
 
@@ -102,3 +102,24 @@ def test_refusals():
         sample_modes(np.array([0.0, 1.0, 2.0]), plant.dampings, b, c, orders, D, 1e-3)
     with pytest.raises(UsageError, match="breakpoints"):
         sample_modes(plant.omegas, plant.dampings, b, c, orders, D, 1e-3, breakpoints_s=[2e-3])
+
+
+def test_batched_exponential_equals_scipy():
+    # Padé 13 with scaling and squaring after balancing (Higham, SIAM J. Matrix Anal. Appl.
+    # 26(4), 2005) against scipy.linalg.expm one matrix at a time: random matrices of several
+    # norms, and badly scaled modal blocks [[lag, mode, sensor lag, input]]
+    rng = np.random.default_rng(7)
+    for scale in (1e-3, 1.0, 8.0):
+        A = rng.normal(size=(20, 5, 5)) * scale
+        ours = expm_batch(A)
+        for a, e in zip(A, ours, strict=True):
+            ref = scipy.linalg.expm(a)
+            assert np.max(np.abs(e - ref)) < 1e-12 * np.max(np.abs(ref))
+    w, z, T = 2 * np.pi * 3000.0, 0.003, 1 / 20000
+    Z = np.zeros((4, 4))
+    Z[0, 1], Z[1, 0], Z[1, 1] = w, -w, -2 * z * w
+    Z[1, 3] = 12.0  # 1/kg
+    Z[2, 2], Z[2, 0] = -2 * np.pi * 1e4, 2 * np.pi * 1e4 * (-w * 0.8)  # acceleration, lagged
+    ref = scipy.linalg.expm(Z * T)
+    got = expm_batch((Z * T)[None])[0]
+    np.testing.assert_allclose(got, ref, rtol=1e-11, atol=1e-14 * np.max(np.abs(ref)))
