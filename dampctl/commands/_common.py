@@ -2,14 +2,17 @@
 
 from __future__ import annotations
 
+import argparse
 import json
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
+from types import MappingProxyType
 from typing import Any, TextIO
 
 import numpy as np
 
 from dampctl.errors import UsageError
+from dampctl.values import Range, read_float, read_int
 
 SAFETY_LINES = (
     "Safety: an active loop that is unstable on hardware can damage the structure, and piezo "
@@ -76,31 +79,134 @@ def name_list(text: str | None, option: str) -> list[str]:
     return names
 
 
-def mode_list(text: str | None, option: str = "--modes") -> list[int]:
-    """Parse ``1,2,5`` or ``1-4`` into mode numbers (1-based)."""
+#: largest mode number an option may name when the plant is not known yet
+MAX_MODE_NUMBER = 100_000
+
+
+def mode_list(
+    text: str | None, option: str = "--modes", *, n_modes: int | None = None
+) -> list[int]:
+    """Parse ``1,2,5`` or ``1-4`` into mode numbers (1-based).
+
+    Every number and both ends of every range are checked (1 to ``n_modes``, or to
+    :data:`MAX_MODE_NUMBER` when the plant is not known) before a range is expanded, so
+    ``1-1000000000`` is an error at once, not a list of a billion numbers.
+
+    Parameters
+    ----------
+    text : str or None
+        The option's value.
+    option : str, optional
+        The option's name, for messages.
+    n_modes : int, optional
+        Number of modes of the plant, when known.
+
+    Returns
+    -------
+    list of int
+        Sorted mode numbers without repeats ([] for None).
+    """
     if text is None:
         return []
-    modes: list[int] = []
-    backwards: list[str] = []
-    try:
-        for part in text.split(","):
-            part = part.strip()
-            if not part:
-                continue
-            if "-" in part:
-                lo, hi = (int(x) for x in part.split("-", 1))
-                if hi < lo:
-                    backwards.append(part)
-                modes.extend(range(lo, hi + 1))
-            else:
-                modes.append(int(part))
-    except ValueError:
-        raise UsageError(f"{option}: expected mode numbers like 1,2 or 1-4, got {text!r}") from None
-    if backwards:
-        raise UsageError(f"{option}: range {backwards[0]!r} runs backwards (low-high, e.g. 1-4)")
-    if any(m < 1 for m in modes):
-        raise UsageError(f"{option}: mode numbers start at 1, got {text!r}")
-    return sorted(set(modes))
+    top = MAX_MODE_NUMBER if n_modes is None else int(n_modes)
+    where = f"the plant has {top} modes" if n_modes is not None else f"at most {top}"
+    spans: list[tuple[int, int]] = []
+    for part in text.split(","):
+        part = part.strip()
+        if not part:
+            continue
+        low_text, dash, high_text = part.partition("-")
+        try:
+            low = int(low_text)
+            high = int(high_text) if dash else low
+        except ValueError:
+            raise UsageError(
+                f"{option}: expected mode numbers like 1,2 or 1-4, got {text!r}"
+            ) from None
+        if high < low:
+            raise UsageError(f"{option}: range {part!r} runs backwards (low-high, e.g. 1-4)")
+        if low < 1:
+            raise UsageError(f"{option}: mode numbers start at 1, got {text!r}")
+        if high > top:
+            shown = high if len(str(high)) <= 15 else f"a number of {len(str(high))} digits"
+            raise UsageError(f"{option}: mode {shown} does not exist ({where}), got {text!r}")
+        spans.append((low, high))
+    return sorted({m for low, high in spans for m in range(low, high + 1)})
+
+
+def number_option(bounds: Range) -> Callable[[str], float]:
+    """An argparse ``type`` reading a number inside ``bounds`` (message states the range).
+
+    Parameters
+    ----------
+    bounds : Range
+        The option's stated range.
+
+    Returns
+    -------
+    callable
+        Text to float; raises ``argparse.ArgumentTypeError`` (exit 2, option named).
+    """
+
+    def parse(text: str) -> float:
+        try:
+            value = float(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(
+                f"expected a number in {bounds.text()}, got {text!r}"
+            ) from None
+        try:
+            return read_float(value, None, bounds=bounds, error=UsageError)
+        except UsageError as exc:
+            raise argparse.ArgumentTypeError(exc.message) from None
+
+    parse.__name__ = "number"
+    return parse
+
+
+def whole_option(bounds: Range) -> Callable[[str], int]:
+    """An argparse ``type`` reading a whole number inside ``bounds``.
+
+    Parameters
+    ----------
+    bounds : Range
+        The option's stated range.
+
+    Returns
+    -------
+    callable
+        Text to int; raises ``argparse.ArgumentTypeError`` (exit 2, option named).
+    """
+
+    def parse(text: str) -> int:
+        try:
+            value = int(text.strip())
+        except ValueError:
+            raise argparse.ArgumentTypeError(
+                f"expected a whole number in {bounds.text()}, got {text!r}"
+            ) from None
+        try:
+            return read_int(value, None, bounds=bounds, error=UsageError)
+        except UsageError as exc:
+            raise argparse.ArgumentTypeError(exc.message) from None
+
+    parse.__name__ = "whole number"
+    return parse
+
+
+#: stated ranges of the options the commands share
+OPTION_RANGES = MappingProxyType(
+    {
+        "rate": Range(0.0, 1e9, "Hz", low_open=True),
+        "delay": Range(0.0, 1.0, "s"),
+        "frequency": Range(0.0, 1e7, "Hz"),
+        "fraction": Range(0.0, 1.0, low_open=True, high_open=True),
+        "drift": Range(0.0, 1.0, high_open=True),
+        "tolerance": Range(0.0, 1.0, low_open=True),
+        "seed": Range(0, 2**32 - 1),
+        "samples": Range(0, 100_000),
+    }
+)
 
 
 def jsonable(value: Any) -> Any:

@@ -9,11 +9,14 @@ from typing import TextIO
 from dampctl.analysis.assess_json import robustness_lines
 from dampctl.analysis.assessment import PHASE_MARGIN_CONVENTION, assess
 from dampctl.commands._common import (
+    OPTION_RANGES,
     PASSIVE_LINES,
     SAFETY_LINES,
     add_force_option,
+    number_option,
     print_json,
     table,
+    whole_option,
 )
 from dampctl.design import load_design
 from dampctl.errors import UsageError
@@ -37,7 +40,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("design", help="design file (JSON) written by dampctl tune")
     parser.add_argument(
         "--delay-s",
-        type=float,
+        type=number_option(OPTION_RANGES["delay"]),
         default=None,
         metavar="T",
         help="loop delay in s (default: the plant's loop_delay_s plus a ZOH and one sample at "
@@ -45,7 +48,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument(
         "--drift",
-        type=float,
+        type=number_option(OPTION_RANGES["drift"]),
         default=0.05,
         metavar="FRACTION",
         help="largest relative shift of each natural frequency in the drift check "
@@ -53,13 +56,16 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument(
         "--samples",
-        type=int,
+        type=whole_option(OPTION_RANGES["samples"]),
         default=64,
         metavar="N",
         help="random drift cases besides the corners (count, default 64)",
     )
     parser.add_argument(
-        "--seed", type=int, default=0, help="seed of the random drift cases (default 0)"
+        "--seed",
+        type=whole_option(OPTION_RANGES["seed"]),
+        default=0,
+        help="seed of the random drift cases, 0 to 2^32-1 (default 0)",
     )
     parser.add_argument(
         "--ideal-hardware",

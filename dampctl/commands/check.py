@@ -5,7 +5,7 @@ from __future__ import annotations
 import argparse
 from typing import TextIO
 
-from dampctl.commands._common import print_json, table
+from dampctl.commands._common import OPTION_RANGES, number_option, print_json, table
 from dampctl.errors import UsageError
 from dampctl.model.plantfile import load_plant
 from dampctl.model.survey import survey_plant
@@ -25,7 +25,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("plant", help="plant file (TOML); - reads it from standard input")
     parser.add_argument(
         "--cluster-tol",
-        type=float,
+        type=number_option(OPTION_RANGES["fraction"]),
         default=0.02,
         metavar="FRACTION",
         help="relative frequency spacing (fraction) below which modes count as near-repeated "

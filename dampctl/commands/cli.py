@@ -61,7 +61,7 @@ class _Parser(argparse.ArgumentParser):
     """argparse parser whose errors become :class:`UsageExit` instead of ``sys.exit``."""
 
     def error(self, message: str):
-        raise _UsageExit(f"{self.prog}: {message}")
+        raise _UsageExit(f"{self.prog}: error: {' '.join(message.split())}")
 
 
 class _UsageExit(Exception):

@@ -6,7 +6,14 @@ import argparse
 import math
 from typing import TextIO
 
-from dampctl.commands._common import SAFETY_LINES, add_force_option, print_json, table
+from dampctl.commands._common import (
+    OPTION_RANGES,
+    SAFETY_LINES,
+    add_force_option,
+    number_option,
+    print_json,
+    table,
+)
 from dampctl.design import load_design
 from dampctl.discrete.export import export_design
 from dampctl.discrete.writers import (
@@ -38,7 +45,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("design", help="design file (JSON, from tuning)")
     parser.add_argument(
         "--rate",
-        type=float,
+        type=number_option(OPTION_RANGES["rate"]),
         metavar="HZ",
         help="sample rate of the target (Hz); default the plant file's requirements.sample_rate_hz",
     )
@@ -64,7 +71,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument(
         "--tolerance",
-        type=float,
+        type=number_option(OPTION_RANGES["tolerance"]),
         default=0.05,
         metavar="FRACTION",
         help="largest relative change of a section's pole damping that rounding may cause "
@@ -72,7 +79,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument(
         "--frequency-tolerance",
-        type=float,
+        type=number_option(OPTION_RANGES["tolerance"]),
         default=0.002,
         metavar="FRACTION",
         help="largest relative change of a section's pole frequency that rounding may cause "

@@ -10,7 +10,13 @@ from types import SimpleNamespace
 from typing import Any, TextIO
 
 from dampctl.analysis.assessment import assess
-from dampctl.commands._common import add_force_option, jsonable, print_json
+from dampctl.commands._common import (
+    OPTION_RANGES,
+    add_force_option,
+    jsonable,
+    number_option,
+    print_json,
+)
 from dampctl.commands.check import check_payload
 from dampctl.design import Design, load_design
 from dampctl.errors import UsageError
@@ -42,7 +48,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--export", metavar="FILE",
                         help="export summary: controller.json written by `dampctl export`, "
                              "or its --json output (optional)")
-    parser.add_argument("--delay-s", type=float, default=None, metavar="T",
+    parser.add_argument("--delay-s", type=number_option(OPTION_RANGES["delay"]), default=None,
+                        metavar="T",
                         help="loop delay (s) for the assessment; default the plant's "
                              "loop_delay_s plus a ZOH and one sample at its sample rate")
     parser.add_argument("--json", action="store_true",

@@ -9,7 +9,15 @@ from typing import TextIO
 
 import numpy as np
 
-from dampctl.commands._common import SAFETY_LINES, add_force_option, print_json, table
+from dampctl.commands._common import (
+    OPTION_RANGES,
+    SAFETY_LINES,
+    add_force_option,
+    number_option,
+    print_json,
+    table,
+    whole_option,
+)
 from dampctl.design import load_design
 from dampctl.discrete.profiles import PROFILES, Record
 from dampctl.discrete.simulate import simulate_disturbance, simulate_move
@@ -61,9 +69,9 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="settling band ±B in m, or N%% of the move (default 1%%)")
     parser.add_argument("--shaper", metavar="SHAPER",
                         help="shaper file (JSON) written by dampctl shape, convolved with the move")
-    parser.add_argument("--seed", type=int, default=0,
+    parser.add_argument("--seed", type=whole_option(OPTION_RANGES["seed"]), default=0,
                         help="seed of the random disturbance and sensor noise (default 0)")
-    parser.add_argument("--sample-rate", type=float, metavar="HZ",
+    parser.add_argument("--sample-rate", type=number_option(OPTION_RANGES["rate"]), metavar="HZ",
                         help="sample rate in Hz (default: the plant's sample_rate_hz; open loop "
                              "without one, 20 samples per period of the top mode)")
     parser.add_argument("--no-saturation", action="store_true",

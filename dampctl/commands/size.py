@@ -6,17 +6,21 @@ import argparse
 from typing import TextIO
 
 from dampctl.commands._common import (
+    OPTION_RANGES,
     SAFETY_LINES,
     add_force_option,
     mode_list,
     name_list,
+    number_option,
     print_json,
     table,
+    whole_option,
 )
 from dampctl.errors import UsageError
 from dampctl.fileio import check_output_folder, write_files
 from dampctl.model.plantfile import load_plant
 from dampctl.sizing.size import LAWS, size_pairs
+from dampctl.values import Range
 
 NAME = "size"
 HELP = "find how many pairs a structure needs and where, with the cost of each extra pair"
@@ -41,19 +45,19 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument(
         "--target-damping",
-        type=float,
+        type=number_option(OPTION_RANGES["fraction"]),
         metavar="Z",
         help="damping ratio every target mode must reach (default the plant's min_damping)",
     )
     parser.add_argument(
         "--max-pairs",
-        type=int,
+        type=whole_option(Range(1, 64)),
         metavar="K",
         help="largest number of pairs to try (default min(usable candidates, 4))",
     )
     parser.add_argument(
         "--exhaustive-limit",
-        type=int,
+        type=whole_option(Range(1, 10_000_000)),
         default=2000,
         metavar="N",
         help="search every set when there are at most N sets of a size, else greedy selection "
@@ -104,7 +108,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     result = size_pairs(
         plant,
         law=args.law,
-        modes=mode_list(args.modes) or None,
+        modes=mode_list(args.modes, n_modes=plant.n_modes) or None,
         target_damping=args.target_damping,
         max_pairs=args.max_pairs,
         exhaustive_limit=args.exhaustive_limit,

@@ -10,17 +10,21 @@ from typing import TextIO
 
 from dampctl.analysis.modetable import TABLE_HEADERS, closed_loop_table
 from dampctl.commands._common import (
+    OPTION_RANGES,
     PASSIVE_LINES,
     SAFETY_LINES,
     add_force_option,
     mode_list,
     name_list,
+    number_option,
     print_json,
     table,
+    whole_option,
 )
 from dampctl.errors import MissingFeatureError, UsageError
 from dampctl.fileio import check_output, write_text
 from dampctl.model.plantfile import load_plant
+from dampctl.values import Range
 
 NAME = "tune"
 HELP = (
@@ -96,20 +100,20 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument(
         "--leak-hz",
-        type=float,
+        type=number_option(OPTION_RANGES["frequency"]),
         metavar="F",
         help="iff only: integrator leak corner in Hz (default 0.1 x lowest target mode; 0 = pure "
         "integrator)",
     )
     parser.add_argument(
         "--order",
-        type=int,
+        type=whole_option(Range(1, 1000)),
         metavar="N",
         help="lqg only: controller model order (default the law's choice)",
     )
     parser.add_argument(
         "--delay-s",
-        type=float,
+        type=number_option(OPTION_RANGES["delay"]),
         metavar="T",
         help="loop delay in s to tune and check against (default the plant's loop_delay_s plus "
         "1.5 samples at its sample_rate_hz)",
@@ -237,6 +241,7 @@ def make_design(plant, args: argparse.Namespace):
     _check_passive_options(args)
     if law in PASSIVE:
         return _passive_design(plant, args, pairs, modes)
+    modes = mode_list(args.modes, n_modes=plant.n_modes) or None
     if args.target_damping == NO_TARGET:
         # no target even where the plant file states one: the laws then maximize
         plant = replace(plant, requirements=replace(plant.requirements, min_damping=None))
@@ -651,11 +656,12 @@ def _target(text: str):
     if text.strip().lower() == NO_TARGET:
         return NO_TARGET
     try:
-        return float(text)
+        float(text)
     except ValueError:
         raise argparse.ArgumentTypeError(
             f"expected a damping ratio or 'none', got {text!r}"
         ) from None
+    return number_option(OPTION_RANGES["fraction"])(text)
 
 
 def _gains(text: str | None):

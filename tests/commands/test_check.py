@@ -93,7 +93,7 @@ def test_bad_cluster_tolerance():
     code, out, err = run(str(PLANTS / "oscillator.toml"), "--cluster-tol", "0")
     assert code == 2 and out == ""
     assert err.splitlines() == [
-        "dampctl check: error: --cluster-tol: expected a fraction in (0, 1), got 0.0"
+        "dampctl check: error: argument --cluster-tol: must be in (0, 1), got 0"
     ]
 
 

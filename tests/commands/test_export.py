@@ -136,7 +136,7 @@ def test_fingerprint_mismatch_exits_2(tmp_path, plant):
         (["--prewarp", "fast"], "--prewarp: expected auto, none or a frequency"),
         (["--format", "json,xml"], "--format: expected some of json, csv, c"),
         (["--method", "zoh", "--prewarp", "100"], "Tustin only"),
-        (["--tolerance", "-1"], "--tolerance: expected a fraction > 0"),
+        (["--tolerance", "-1"], "--tolerance: must be in (0, 1], got -1"),
     ],
 )
 def test_bad_options_exit_2(tmp_path, plant, extra, message):

@@ -58,7 +58,7 @@ def test_unreachable_target_exits_one_and_says_so(tmp_path):
 def test_bad_input_exits_two(tmp_path):
     path = str(_plant_file(tmp_path))
     code, _, err = _run(["size", path, "--max-pairs", "0"])
-    assert code == 2 and "--max-pairs must be >= 1" in err
+    assert code == 2 and "argument --max-pairs: must be in [1, 64], got 0" in err
     code, _, err = _run(["size", path, "--law", "lqg"])
     assert code == 2 and "invalid choice" in err
     code, _, err = _run(["size", path, "--candidates", "pa,nope"])
