@@ -31,6 +31,11 @@ Plant
         plant files (TOML)
     survey_plant
         participation of candidate pairs, near-repeated clusters, dominant modes
+    load_frf, MeasuredFRF, fit_modes, ModalFit
+        measured FRFs (.npz, .csv) and the modes fitted to them (vector fitting with a
+        stability chart, residual terms, driving-point scaling)
+    compare_plant, PlantComparison
+        a plant held against measured FRFs: modes, MAC, FRF error per channel
 
 Sizing
     size_pairs, SizingResult
@@ -78,6 +83,7 @@ from dampctl.errors import (
     DampctlError,
     DesignError,
     DesignRefused,
+    MeasurementError,
     MissingFeatureError,
     OutputError,
     PlantError,
@@ -87,6 +93,9 @@ from dampctl.errors import (
 from dampctl.laws.custom import design_from_statespace
 from dampctl.laws.shapers import load_shaper
 from dampctl.laws.shaping import design_shaper
+from dampctl.model.comparison import PlantComparison, compare_plant
+from dampctl.model.measured import MeasuredFRF, load_frf
+from dampctl.model.modalfit import ModalFit, fit_modes
 from dampctl.model.plant import (
     Actuator,
     Disturbance,
@@ -115,13 +124,17 @@ __all__ = [
     "DesignRefused",
     "Disturbance",
     "Loop",
+    "MeasuredFRF",
+    "MeasurementError",
     "MissingFeatureError",
+    "ModalFit",
     "ModalPlant",
     "Mode",
     "Output",
     "OutputError",
     "Pair",
     "PartPrice",
+    "PlantComparison",
     "PlantError",
     "PlantFileError",
     "Requirements",
@@ -131,12 +144,15 @@ __all__ = [
     "UsageError",
     "assess",
     "closed_loop",
+    "compare_plant",
     "design_from_statespace",
     "design_shaper",
     "discretize",
     "dump_plant",
     "export_design",
+    "fit_modes",
     "load_design",
+    "load_frf",
     "load_plant",
     "load_shaper",
     "parse_plant",

@@ -8,6 +8,7 @@ error is also the builtin exception a caller would naturally catch::
     │   └── PlantFileError (PlantError)               file unreadable / not TOML / bad key
     ├── DesignError (DampctlError, ValueError)       invalid design, or design/plant mismatch
     │   └── DesignRefused (DesignError)               a law refuses the requested loop
+    ├── MeasurementError (DampctlError, ValueError)  invalid measured FRF, or no mode found in it
     ├── UsageError (DampctlError, ValueError)        bad argument combination or value
     ├── OutputError (DampctlError, OSError)          an output cannot be written safely
     └── MissingFeatureError (DampctlError, ImportError)  an optional library is missing
@@ -24,6 +25,7 @@ __all__ = [
     "DampctlError",
     "DesignError",
     "DesignRefused",
+    "MeasurementError",
     "MissingFeatureError",
     "OutputError",
     "PlantError",
@@ -70,6 +72,10 @@ class DesignError(DampctlError, ValueError):
 
 class DesignRefused(DesignError):
     """A damping law refuses a loop it cannot make work (for example a non-collocated pair)."""
+
+
+class MeasurementError(DampctlError, ValueError):
+    """A measured FRF (file or array) is invalid, or no mode can be identified from it."""
 
 
 class UsageError(DampctlError, ValueError):

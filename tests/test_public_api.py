@@ -164,6 +164,7 @@ BUILTIN_OF = {
     "PlantFileError": ValueError,
     "DesignError": ValueError,
     "DesignRefused": ValueError,
+    "MeasurementError": ValueError,
     "UsageError": ValueError,
     "OutputError": OSError,
     "MissingFeatureError": ImportError,

@@ -14,6 +14,18 @@ modalbasis
     the FRF's modal basis per frequency block (numpy, or one loop compiled by numba)
 plantfile
     TOML plant files in and out, errors naming the file and the field
+measured
+    measured FRFs (MeasuredFRF) and their files (.npz, .csv)
+vectorfit
+    vector fitting: common poles and residues of many frequency responses
+stability
+    stability chart over model order, choice of the physical poles
+modalshapes
+    modal constants, mode shapes, driving-point scaling
+modalfit
+    fit_modes: modes, residual terms and fit errors from measured FRFs (ModalFit)
+comparison
+    compare_plant: a plant held against measured FRFs
 survey
     what each candidate pair sees (Hankel-singular-value shares), near-repeated clusters,
     output-dominant modes
@@ -21,6 +33,9 @@ survey
 Imports nothing above it (only :mod:`dampctl.errors`).
 """
 
+from dampctl.model.comparison import PlantComparison, compare_plant
+from dampctl.model.measured import MeasuredFRF, load_frf
+from dampctl.model.modalfit import ModalFit, fit_modes
 from dampctl.model.plant import (
     Actuator,
     Disturbance,
@@ -38,14 +53,20 @@ from dampctl.model.survey import survey_plant
 __all__ = [
     "Actuator",
     "Disturbance",
+    "MeasuredFRF",
+    "ModalFit",
     "ModalPlant",
     "Mode",
     "Output",
     "Pair",
     "PartPrice",
+    "PlantComparison",
     "Requirements",
     "Sensor",
+    "compare_plant",
     "dump_plant",
+    "fit_modes",
+    "load_frf",
     "load_plant",
     "parse_plant",
     "survey_plant",
