@@ -5,7 +5,13 @@ from __future__ import annotations
 import argparse
 from typing import TextIO
 
-from dampctl.commands._common import OPTION_RANGES, number_option, print_json, table
+from dampctl.commands._common import (
+    OPTION_RANGES,
+    add_force_option,
+    number_option,
+    print_json,
+    table,
+)
 from dampctl.errors import UsageError
 from dampctl.model.plantfile import load_plant
 from dampctl.model.survey import survey_plant
@@ -31,6 +37,26 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="relative frequency spacing (fraction) below which modes count as near-repeated "
         "(default 0.02)",
     )
+    parser.add_argument(
+        "--measured",
+        metavar="FRF",
+        help="measured FRFs (.npz or .csv, as for `dampctl plant fit`) to hold the plant "
+        "against, on the channels whose output and input names are plant sensors and actuators",
+    )
+    parser.add_argument(
+        "--output-kind",
+        action="append",
+        default=[],
+        metavar="[OUT=]KIND",
+        help="for a CSV --measured file: what an output measures (repeatable; a bare KIND "
+        "applies to every output)",
+    )
+    parser.add_argument(
+        "--plots",
+        metavar="DIR",
+        help="with --measured: write the plant-against-measurement FRF figures (PNG) into DIR",
+    )
+    add_force_option(parser, "figures of the same names in DIR")
     parser.add_argument("--json", action="store_true", help="print JSON on stdout")
 
 
@@ -108,10 +134,18 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     """
     if not 0.0 < args.cluster_tol < 1.0:
         raise UsageError(f"--cluster-tol: expected a fraction in (0, 1), got {args.cluster_tol}")
+    if args.plots and not args.measured:
+        raise UsageError("--plots: the figures compare the plant with measurement; give --measured")
     plant = load_plant(args.plant)
     survey = survey_plant(plant, cluster_tol=args.cluster_tol)
+    comparison, written = _measured(args, plant)
     if args.json:
-        print_json(check_payload(plant, survey), out, "check")
+        payload = check_payload(plant, survey)
+        if comparison is not None:
+            payload["measured"] = dict(comparison.to_dict(), file=args.measured)
+            if args.plots:
+                payload["measured"]["plots"] = [str(p) for p in written]
+        print_json(payload, out, "check")
         return 0
     counts = ", ".join(
         _count(n, word)
@@ -148,4 +182,69 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         out.write(f"\noutput {name}: motion dominated by {listing}\n")
     if survey.warnings:
         out.write("\nwarnings:\n" + "".join(f"  - {w}\n" for w in survey.warnings))
+    if comparison is not None:
+        out.write(f"\nagainst measurement ({args.measured}):\n")
+        out.write("\n".join(measured_lines(comparison)) + "\n")
+        if written:
+            out.write(f"wrote {len(written)} figures into {written[0].parent}\n")
     return 0
+
+
+def _measured(args: argparse.Namespace, plant):
+    """The comparison with --measured (None without it) and the figures written."""
+    if not args.measured:
+        return None, []
+    from dampctl.commands.plant_fit import output_kinds
+    from dampctl.fileio import check_output_folder, write_files
+    from dampctl.model.comparison import compare_plant
+    from dampctl.model.measured import load_frf
+
+    inputs = [args.plant, args.measured]
+    if args.plots:
+        check_output_folder(args.plots, inputs=inputs, replace=args.force)
+    measured = load_frf(args.measured, output_kinds=output_kinds(args.output_kind))
+    comparison = compare_plant(plant, measured)
+    written = []
+    if args.plots:
+        from dampctl.report.figures_measured import comparison_pngs
+
+        written = write_files(args.plots, comparison_pngs(comparison), inputs=inputs,
+                              replace=args.force)
+    return comparison, written
+
+
+def measured_lines(comparison) -> list[str]:
+    """Plain lines of a plant-against-measurement comparison (for check and the report).
+
+    Parameters
+    ----------
+    comparison : PlantComparison
+        The comparison (:func:`dampctl.model.comparison.compare_plant`).
+
+    Returns
+    -------
+    list of str
+        The modes table, the channel errors and the warnings.
+    """
+    lo, hi = comparison.freq_hz[0], comparison.freq_hz[-1]
+    tol = comparison.tolerances
+    lines = [f"{len(comparison.channels)} shared channels, {lo:g}-{hi:g} Hz; tolerances: "
+             f"frequency {tol.freq:.0%}, damping {tol.damping:.0%}, MAC {tol.mac:g}, FRF error "
+             f"{tol.error:.0%}", ""]
+    rows = [(m.mode or "-", _hz(m.plant_freq_hz), _hz(m.measured_freq_hz),
+             None if m.freq_change is None else f"{m.freq_change:+.2%}", m.plant_damping,
+             m.measured_damping, None if m.mac is None else f"{m.mac:.4f}", m.channel)
+            for m in comparison.modes]
+    lines.append(table(["mode", "plant (Hz)", "measured (Hz)", "change", "plant damping",
+                        "measured damping", "MAC", "strongest on"], rows))
+    lines.append("")
+    rows = [(c, f"{comparison.error[c]:.1%}") for c in comparison.channels]
+    lines.append("FRF error per channel (normalized RMS over the band, coherence-weighted)")
+    lines.append(table(["channel", "error"], rows))
+    if comparison.warnings:
+        lines += ["", "measurement warnings:"] + [f"  - {w}" for w in comparison.warnings]
+    return lines
+
+
+def _hz(value: float | None) -> str | None:
+    return None if value is None else f"{value:.2f}"

@@ -21,6 +21,7 @@ from dampctl.commands.check import check_payload
 from dampctl.design import Design, load_design
 from dampctl.errors import UsageError
 from dampctl.fileio import check_output, write_text
+from dampctl.model.measured import MeasuredFRF, load_frf
 from dampctl.model.plant import ModalPlant
 from dampctl.model.plantfile import load_plant
 from dampctl.model.survey import survey_plant
@@ -52,6 +53,12 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         metavar="T",
                         help="loop delay (s) for the assessment; default the plant's "
                              "loop_delay_s plus a ZOH and one sample at its sample rate")
+    parser.add_argument("--measured", metavar="FRF",
+                        help="measured FRFs (.npz or .csv) to hold the plant against: a section "
+                             "and figures of plant against measurement (optional)")
+    parser.add_argument("--output-kind", action="append", default=[], metavar="[OUT=]KIND",
+                        help="for a CSV --measured file: what an output measures (repeatable; "
+                             "a bare KIND applies to every output)")
     parser.add_argument("--json", action="store_true",
                         help="print a JSON summary of the written report on stdout")
 
@@ -64,6 +71,7 @@ def report_html(
     sizing_figures: Mapping[str, bytes] | None = None,
     export: Mapping[str, Any] | None = None,
     delay_s: float | None = None,
+    measured: MeasuredFRF | None = None,
 ) -> tuple[str, Any]:
     """Assess a design and render the HTML report.
 
@@ -81,6 +89,8 @@ def report_html(
         Export JSON (``dampctl export --json`` or the written controller.json).
     delay_s : float, optional
         Loop delay (s) for the assessment; default the plant's stated delay.
+    measured : MeasuredFRF, optional
+        Measured FRFs: the plant is held against them (its section and figures).
 
     Returns
     -------
@@ -118,6 +128,15 @@ def report_html(
             stem = Path(name).stem
             figures[sizing_captions.get(stem, f"Sizing: {stem.replace('_', ' ')}")] = png
     check = check_payload(plant, survey_plant(plant))
+    if measured is not None:
+        from dampctl.model.comparison import compare_plant
+        from dampctl.report.figures_measured import comparison_pngs
+
+        comparison = compare_plant(plant, measured)
+        check["measured"] = dict(comparison.to_dict(), file=measured.source)
+        for name, png in zip(comparison.channels, comparison_pngs(comparison).values(),
+                             strict=True):
+            figures[f"Plant against measurement — {name}"] = png
     inputs = ReportInputs(
         check=check,
         design=design.to_dict(),
@@ -144,7 +163,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     int
         Exit code (bad input raises a DampctlError, turned into exit 2 by the CLI).
     """
-    inputs = [p for p in (args.plant, args.design, args.sizing, args.export) if p]
+    inputs = [p for p in (args.plant, args.design, args.sizing, args.export, args.measured) if p]
     check_output(args.output, inputs=inputs, replace=args.force)
     plant = load_plant(args.plant)
     design = load_design(args.design)
@@ -158,7 +177,13 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
             f"--export: {args.export} is not an export summary (no 'rate_hz'/'method'; give "
             "the controller.json written by dampctl export)"
         )
-    html, result = report_html(plant, design, sizing=sizing, export=export, delay_s=args.delay_s)
+    measured = None
+    if args.measured:
+        from dampctl.commands.plant_fit import output_kinds
+
+        measured = load_frf(args.measured, output_kinds=output_kinds(args.output_kind))
+    html, result = report_html(plant, design, sizing=sizing, export=export, delay_s=args.delay_s,
+                               measured=measured)
     path = write_text(args.output, html, inputs=inputs, replace=args.force)
     unmet = [r.name for r in result.unmet]
     if args.json:

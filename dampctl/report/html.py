@@ -108,6 +108,8 @@ def render_report(inputs: ReportInputs) -> str:
         _verdict(inputs.assessment),
         _plant_section(inputs.check),
     ]
+    if inputs.check.get("measured"):
+        parts.append(_measured_section(inputs.check["measured"]))
     if inputs.sizing:
         parts.append(_sizing_section(inputs.sizing))
     parts.append(_design_section(inputs.design))
@@ -170,6 +172,27 @@ def _plant_section(check: Mapping[str, Any]) -> str:
         cols += [(f"m{k + 1}", f"Mode {k + 1}") for k in range(n)]
         out.append(_table(rows, cols))
     out.append(_list("Warnings", check.get("warnings", [])))
+    return "\n".join(out)
+
+
+def _measured_section(measured: Mapping[str, Any]) -> str:
+    """The plant held against measured FRFs (``dampctl check --measured`` JSON form)."""
+    band = measured.get("band_hz") or [None, None]
+    tol = measured.get("tolerances") or {}
+    out = ["<h2>Plant against measurement</h2>",
+           f"<p>Measured FRFs {_e(measured.get('file', ''))}, {_num(band[0])}–{_num(band[1])} "
+           f"Hz, on the channels the plant shares with them. Tolerances: frequency "
+           f"{_num(tol.get('freq'))}, damping {_num(tol.get('damping'))} (relative), MAC "
+           f"{_num(tol.get('mac'))}, FRF error {_num(tol.get('error'))}.</p>"]
+    out.append(_table(measured.get("modes", []), [
+        ("mode", "Mode"), ("plant_freq_hz", "Plant (Hz)"), ("measured_freq_hz", "Measured (Hz)"),
+        ("freq_change", "Frequency change"), ("plant_damping", "Plant damping"),
+        ("measured_damping", "Measured damping"), ("mac", "MAC"),
+        ("channel", "Strongest on", "text")]))
+    out.append(_table(measured.get("channels", []), [
+        ("channel", "Channel", "text"), ("unit", "Unit", "text"),
+        ("error", "FRF error (normalized RMS)")]))
+    out.append(_list("Measurement warnings", measured.get("warnings", [])))
     return "\n".join(out)
 
 
