@@ -68,6 +68,16 @@ def main_script() -> None:
         "tune": ["tune", plant, "--law", "dvf", "--pairs", "vx1,vy1", "-o", "design.json"],
         "assess": ["assess", plant, "design.json", "--plots", "plots"],
         "export": ["export", plant, "design.json", "--fixed", "q15", "-o", "export"],
+        # passive, shaping or active? (only the comparison is shown)
+        "_tmd": ["tune", plant, "--law", "tmd", "--modes", "4,5", "--site", "stage_x,stage_y",
+                 "--mass-ratio", "0.05", "-o", "tmd.json"],
+        "_viscous": ["tune", plant, "--law", "viscous", "--modes", "4,5,6", "--between",
+                     "coil_x1,ground", "--between", "coil_y1,ground", "--mount-stiffness", "2e6",
+                     "-o", "viscous.json"],
+        "_shape": ["shape", plant, "--modes", "2,4", "--kind", "zvd", "-o", "zvd.json"],
+        "compare": ["compare", plant, "tmd.json", "viscous.json", "design.json", "--names",
+                    "tmd,viscous,dvf", "--shaper", "zvd.json", "--move", "1e-6", "--drive",
+                    "coil_x1", "--output", "probe_x"],
     }
     with tempfile.TemporaryDirectory() as tmp:
         cwd = os.getcwd()
@@ -85,6 +95,8 @@ def main_script() -> None:
     blocks["api_output"] = f"```\n{buf.getvalue().rstrip()}\n```"
     blocks["api_code"] = f"```python\n{API_CODE.rstrip()}\n```"
     for name, body in blocks.items():
+        if name.startswith("_"):
+            continue  # run for what follows, not shown
         body = body.replace(plant, "plants/scanning_stage.toml")
         pattern = re.compile(rf"(<!-- begin {name} -->\n).*?(<!-- end {name} -->)", re.S)
         if not pattern.search(text):

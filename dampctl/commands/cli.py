@@ -24,6 +24,7 @@ from dampctl import __version__
 from dampctl.commands import (
     assess,
     check,
+    compare,
     demo,
     export,
     plant,
@@ -40,7 +41,9 @@ from dampctl.errors import DampctlError
 __all__ = ["EXIT_CODES", "build_parser", "entry_point", "main"]
 
 #: subcommand modules, in the order of the job
-COMMANDS = (plant, check, size, tune, shape, simulate, assess, export, report, demo, schema)
+COMMANDS = (
+    plant, check, size, tune, shape, simulate, assess, compare, export, report, demo, schema
+)
 
 #: what each exit code means
 EXIT_CODES = {

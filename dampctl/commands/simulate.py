@@ -147,6 +147,24 @@ def read_record(path: str) -> Record:
     return Record(data[:, 0], data[:, 1], source=path)
 
 
+def _passive(plant, design, args, record):
+    """A passive design runs continuously with its parts: a step move (shaped or not)."""
+    from dampctl.discrete.passive_move import simulate_passive_move
+
+    if args.drive is None:
+        raise UsageError(f"a {design.law} design (passive): simulate a move (--drive); a "
+                         "disturbance is assessed in the frequency domain by dampctl assess")
+    if record is not None or args.profile != "step":
+        raise UsageError(f"a {design.law} design (passive): only a step move, shaped with "
+                         "--shaper if wanted")
+    shaper = load_shaper(args.shaper) if args.shaper else None
+    return simulate_passive_move(
+        plant, design, drive=args.drive, output=args.output, distance_m=args.move,
+        shaper=shaper, duration_s=args.duration, rate_hz=args.sample_rate,
+        settle_band_m=settle_band(args.settle_band, args.move),
+    )
+
+
 def _check_options(args) -> None:
     if args.drive is not None:
         if args.move is None or args.output is None:
@@ -198,7 +216,9 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         design.check_plant(plant, source=args.design)
     common = {"duration_s": args.duration, "rate_hz": args.sample_rate,
               "saturation": not args.no_saturation}
-    if args.drive is not None:
+    if design is not None and design.passive:
+        result = _passive(plant, design, args, record)
+    elif args.drive is not None:
         shaper = load_shaper(args.shaper) if args.shaper else None
         profile = "record" if record is not None else args.profile
         result = simulate_move(
@@ -256,10 +276,13 @@ def _print_human(result, out: TextIO, name: str, closed: bool) -> None:
                   else f"a random record of its PSD (seed {setup['seed']})")
         out.write(f"{name}: disturbance {setup['disturbance']} as {source}"
                   f"{', sensor noise in the loop' if setup['sensor_noise'] else ''}\n")
-    loop = (f"closed loop as it runs: exported controller, one sample + "
-            f"{setup['loop_delay_s'] * 1e6:.4g} µs loop delay, "
-            f"{'saturation at the limits' if setup['saturation'] else 'no saturation'}"
-            if closed else "open loop")
+    if setup.get("passive"):
+        loop = f"with its passive parts ({setup['passive']}): continuous, no loop"
+    else:
+        loop = (f"closed loop as it runs: exported controller, one sample + "
+                f"{setup['loop_delay_s'] * 1e6:.4g} µs loop delay, "
+                f"{'saturation at the limits' if setup['saturation'] else 'no saturation'}"
+                if closed else "open loop")
     out.write(f"{result.sample_rate_hz:.6g} Hz, {result.time_s.size} samples "
               f"({result.duration_s:.4g} s); {loop}\n\n")
     runs = [result.open_loop, result.result] if closed else [result.result]

@@ -197,7 +197,12 @@ def _mode_targets(plant: ModalPlant, modes: Sequence[int], design: Design | None
     if design is None:
         return plant.freqs_hz, plant.dampings
     design.check_plant(plant)
-    matched = closed_loop_modes(plant, design)
+    if design.passive:  # the structure with its parts: no loop
+        from dampctl.analysis.passive import passive_modes
+
+        matched = passive_modes(plant, design.parts).matched
+    else:
+        matched = closed_loop_modes(plant, design)
     if not matched.stable:
         raise UsageError(
             f"the closed loop of this design is unstable (largest real part "
@@ -253,18 +258,25 @@ def _drift(
         residuals = shaper.residual(freqs, damps)
         valid = np.ones(cases.shape[0], dtype=bool)
     else:
-        ctrl = effective_controller(plant, design)
+        base, acts, sens = plant, design.actuators, design.sensors
+        if design.passive:  # the structure with its parts, on their ports (no loop)
+            from dampctl.analysis.passive import pair_part_poles, passive_model
+
+            model = passive_model(plant, design.parts)
+            base, acts, sens = model.plant, model.ports.actuators, model.ports.sensors
+            ctrl = model.ports.statespace_matrices()
+        else:
+            ctrl = effective_controller(plant, design)
         mats = [
-            closed_loop_matrix(
-                drifted_plant_matrices(plant, design.actuators, design.sensors, f), ctrl
-            )
-            for f in cases
+            closed_loop_matrix(drifted_plant_matrices(base, acts, sens, f), ctrl) for f in cases
         ]
         poles = np.linalg.eigvals(np.stack(mats))
         residuals = np.zeros((cases.shape[0], len(modes)))
         valid = np.ones(cases.shape[0], dtype=bool)
         for c, (f, p) in enumerate(zip(cases, poles, strict=True)):
-            matched = match_modes(open_loop_poles(plant.omegas * f, plant.dampings), p)
+            open_poles = open_loop_poles(plant.omegas * f, plant.dampings)
+            matched = (pair_part_poles(plant, model, p, open_poles).matched if design.passive
+                       else match_modes(open_poles, p))
             if not matched.stable:
                 valid[c] = False
                 unstable += 1

@@ -9,6 +9,9 @@ figures_sizing
     sizing figures: damping and cost per pair count, damping per mode
 html
     the HTML report (images embedded, no network needed)
+compare, figures_compare
+    every option side by side (passive, shaping, active, combinations): the table, its page,
+    the FRF overlay and the cost-against-result chart
 
 Imports every stage below it; only the command line imports it.
 """

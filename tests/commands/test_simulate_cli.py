@@ -142,3 +142,27 @@ def test_shape_file_json_and_refusals(files, tmp_path):
     code, _, err = run(["shape", OSCILLATOR, "--modes", "1", "--insensitivity", "lots", "-o",
                         str(tmp_path / "t.json")])
     assert code == 2 and "--insensitivity" in err
+
+
+def test_passive_design_moves_with_its_parts(files):
+    folder = files["folder"]
+    design = folder / "tmd.json"
+    code, _, err = run(["tune", OSCILLATOR, "--law", "tmd", "--modes", "1", "--mass-ratio",
+                        "0.05", "-o", str(design)])
+    assert code in (0, 1), err
+    shaper = folder / "zvd_tmd.json"
+    code, out, err = run(["shape", OSCILLATOR, str(design), "--modes", "1", "-o", str(shaper),
+                          "--json"])
+    assert code == 0, err  # shaped for the structure with its absorber
+    code, out, err = run(["simulate", OSCILLATOR, str(design), "--drive", "coil", "--move",
+                          "1e-6", "--output", "mass_x", "--shaper", str(shaper), "--json"])
+    assert code == 0, err
+    data = json.loads(out)
+    valid(data, "simulation")
+    assert data["setup"]["passive"] == "tmd" and data["loop"] == "closed"
+    assert data["outputs"]["mass_x"]["settling_time_s"] is not None
+    code, out, _ = run(["simulate", OSCILLATOR, str(design), "--drive", "coil", "--move",
+                        "1e-6", "--output", "mass_x"])
+    assert "with its passive parts (tmd): continuous, no loop" in out
+    code, _, err = run(["simulate", OSCILLATOR, str(design), "--disturbance", "push"])
+    assert code == 2 and "a move" in err

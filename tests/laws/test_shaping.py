@@ -96,3 +96,22 @@ def test_bad_requests():
     design = dvf.design(plant, ["p1"], gain=5000.0)  # overdamped: the pole is real
     with pytest.raises(UsageError, match="does not oscillate"):
         design_shaper(plant, [1], design=design)
+
+
+def test_shaper_for_a_passive_design_uses_the_structure_with_its_parts():
+    # the absorber splits the mode: the shaper is built on the less damped of its two poles
+    from dampctl.analysis.passive import passive_modes
+    from dampctl.laws import tmd
+    from dampctl.model.components import Disturbance, Output
+
+    plant = chain_plant([1.0], [4e4], damping=0.005)
+    plant = type(plant)(modes=plant.modes, sites=plant.sites, actuators=plant.actuators,
+                        sensors=plant.sensors, pairs=plant.pairs,
+                        outputs=[Output("o", "displacement", site="m1")],
+                        disturbances=[Disturbance("d", "m1", 1.0)])
+    design = tmd.design(plant, modes=[1], mass_ratio=0.05, refine=False)
+    result = design_shaper(plant, [1], design=design, kind="zv", samples=4)
+    pole = passive_modes(plant, design.parts).matched
+    expected = shaper_for_mode(pole.freq_hz[0], pole.damping[0], "zv")
+    assert np.allclose(result.shaper.times_s, expected.times_s, rtol=1e-12)
+    assert result.drift.unstable_cases == 0
