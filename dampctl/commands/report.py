@@ -19,6 +19,7 @@ from dampctl.commands._common import (
 )
 from dampctl.commands.check import check_payload
 from dampctl.design import Design, load_design
+from dampctl.discrete.profiles import PROFILES
 from dampctl.errors import UsageError
 from dampctl.fileio import check_output, write_text
 from dampctl.model.measured import MeasuredFRF, load_frf
@@ -61,6 +62,54 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                              "a bare KIND applies to every output)")
     parser.add_argument("--json", action="store_true",
                         help="print a JSON summary of the written report on stdout")
+    move = parser.add_argument_group(
+        "move and settle", "add one move four ways: open loop, shaped, damped, damped and shaped")
+    move.add_argument("--move", type=float, metavar="DIST",
+                      help="move size in m (needs --drive and --move-output)")
+    move.add_argument("--drive", metavar="ACTUATOR", help="actuator that makes the move")
+    move.add_argument("--move-output", metavar="OUT",
+                      help="displacement output or sensor (m) that moves by DIST")
+    move.add_argument("--profile", default="step", metavar="PROFILE",
+                      help="step, trapezoid, scurve, impulse or file:CSV (as dampctl simulate; "
+                           "default step)")
+    move.add_argument("--max-velocity", type=float, metavar="V",
+                      help="velocity limit of a trapezoid or scurve move (m/s)")
+    move.add_argument("--max-acceleration", type=float, metavar="A",
+                      help="acceleration limit of a trapezoid or scurve move (m/s²)")
+    move.add_argument("--shaper", metavar="SHAPER",
+                      help="shaper file for both shaped runs (default: a ZVD on the design's "
+                           "target modes, open-loop and closed-loop values)")
+    move.add_argument("--settle-band", metavar="B",
+                      help="settling band ±B in m, or N%% of the move (default 1%%)")
+
+
+def _move_options(args) -> dict | None:
+    """The move of ``--move`` as keyword arguments of move_and_settle (None without one)."""
+    given = [o for o, v in (("--drive", args.drive), ("--move-output", args.move_output),
+                            ("--shaper", args.shaper), ("--settle-band", args.settle_band),
+                            ("--max-velocity", args.max_velocity),
+                            ("--max-acceleration", args.max_acceleration)) if v is not None]
+    if args.move is None:
+        if given or args.profile != "step":
+            raise UsageError(f"{(given or ['--profile'])[0]} belongs to a move: give --move DIST")
+        return None
+    if args.drive is None or args.move_output is None:
+        raise UsageError("--move needs --drive ACTUATOR and --move-output OUT")
+    from dampctl.commands.simulate import read_record, settle_band
+    from dampctl.laws.shapers import load_shaper
+
+    if not args.profile.startswith("file:") and args.profile not in PROFILES:
+        raise UsageError(
+            f"--profile: expected one of {', '.join(PROFILES)} or file:CSV, got {args.profile!r}"
+        )
+    record = read_record(args.profile[5:]) if args.profile.startswith("file:") else None
+    return {
+        "drive": args.drive, "output": args.move_output, "distance_m": args.move,
+        "profile": "record" if record is not None else args.profile, "record": record,
+        "max_velocity": args.max_velocity, "max_acceleration": args.max_acceleration,
+        "shaper": load_shaper(args.shaper) if args.shaper else None,
+        "settle_band_m": settle_band(args.settle_band, args.move),
+    }
 
 
 def report_html(
@@ -72,6 +121,7 @@ def report_html(
     export: Mapping[str, Any] | None = None,
     delay_s: float | None = None,
     measured: MeasuredFRF | None = None,
+    move: Mapping[str, Any] | None = None,
 ) -> tuple[str, Any]:
     """Assess a design and render the HTML report.
 
@@ -91,6 +141,9 @@ def report_html(
         Loop delay (s) for the assessment; default the plant's stated delay.
     measured : MeasuredFRF, optional
         Measured FRFs: the plant is held against them (its section and figures).
+    move : mapping, optional
+        Keyword arguments of :func:`dampctl.report.movesettle.move_and_settle` (drive, output,
+        distance_m, ...): adds the "Move and settle" section.
 
     Returns
     -------
@@ -127,6 +180,11 @@ def report_html(
         for name, png in pngs.items():
             stem = Path(name).stem
             figures[sizing_captions.get(stem, f"Sizing: {stem.replace('_', ' ')}")] = png
+    moved = None
+    if move is not None:
+        from dampctl.report.movesettle import move_and_settle
+
+        moved = move_and_settle(plant, design, **move)
     check = check_payload(plant, survey_plant(plant))
     if measured is not None:
         from dampctl.model.comparison import compare_plant
@@ -144,6 +202,8 @@ def report_html(
         sizing=jsonable(dict(sizing)) if sizing is not None else None,
         export=jsonable(dict(export)) if export is not None else None,
         figures=figures,
+        move=None if moved is None else jsonable(moved.summary),
+        move_figure=None if moved is None else moved.figure,
     )
     return render_report(inputs), result
 
@@ -163,7 +223,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     int
         Exit code (bad input raises a DampctlError, turned into exit 2 by the CLI).
     """
-    inputs = [p for p in (args.plant, args.design, args.sizing, args.export, args.measured) if p]
+    inputs = [p for p in (args.plant, args.design, args.sizing, args.export, args.measured,
+                          args.shaper) if p]
     check_output(args.output, inputs=inputs, replace=args.force)
     plant = load_plant(args.plant)
     design = load_design(args.design)
@@ -182,8 +243,9 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         from dampctl.commands.plant_fit import output_kinds
 
         measured = load_frf(args.measured, output_kinds=output_kinds(args.output_kind))
+    move = _move_options(args)
     html, result = report_html(plant, design, sizing=sizing, export=export, delay_s=args.delay_s,
-                               measured=measured)
+                               measured=measured, move=move)
     path = write_text(args.output, html, inputs=inputs, replace=args.force)
     unmet = [r.name for r in result.unmet]
     if args.json:

@@ -46,6 +46,7 @@ from dampctl.model.plant import ModalPlant
 __all__ = [
     "DEFAULT_SETTLE_FRACTION",
     "MAX_SAMPLES",
+    "default_move_duration",
     "simulate_disturbance",
     "simulate_move",
 ]
@@ -70,6 +71,25 @@ class _ShaperLike(Protocol):
     kind: str
     times_s: np.ndarray
     amplitudes: np.ndarray
+
+
+def default_move_duration(plant: ModalPlant, command_end_s: float) -> float:
+    """Record length of a move by default: the command's end plus six time constants.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant.
+    command_end_s : float
+        When the command ends (s): the profile's move time plus a shaper's duration.
+
+    Returns
+    -------
+    float
+        ``command_end_s + 6 / min(ζ_i ω_i)`` (s): the slowest mode's ringing down to e⁻⁶
+        (0.25 %) of where it started.
+    """
+    return float(command_end_s) + 6.0 / setup.slowest_decay(plant)
 
 
 def _loops(design: Design | None) -> list[bool]:
@@ -172,7 +192,7 @@ def simulate_move(
     amps = np.array([1.0]) if shaper is None else np.asarray(shaper.amplitudes, dtype=float)
     end = shape.move_time_s + float(times[-1]) + (T if profile == "impulse" else 0.0)
     if duration_s is None:
-        duration_s = end + 6.0 / setup.slowest_decay(plant)
+        duration_s = default_move_duration(plant, end)
     steps = setup.sample_count(duration_s, rate)
     band = abs(distance_m) * DEFAULT_SETTLE_FRACTION if settle_band_m is None else settle_band_m
     if not (math.isfinite(band) and band > 0):

@@ -177,6 +177,7 @@ def plot_moves(
     unit: str = "m",
     target: float | None = None,
     band: float | None = None,
+    until_s: float | None = None,
     ax=None,
 ) -> Drawn:
     """Several runs of one move side by side (open loop, shaped, damped, damped and shaped).
@@ -195,6 +196,8 @@ def plot_moves(
         Static value (drawn with the band).
     band : float, optional
         Settling band ± (output unit).
+    until_s : float, optional
+        Draw up to this time (s); default the whole record.
     ax : matplotlib Axes, optional
         Where to draw.
 
@@ -203,18 +206,20 @@ def plot_moves(
     Drawn
     """
     figure, ax = _axes(ax)
+    keep = time_s <= (time_s[-1] if until_s is None else until_s)
     scale, shown_unit = _scale(np.concatenate(list(runs.values())), unit)
-    t_scale, t_unit = _time_axis(time_s)
+    t_scale, t_unit = _time_axis(time_s[keep])
     artists = []
     for k, (label, values) in enumerate(runs.items()):
-        artists += ax.plot(time_s / t_scale, values / scale, label=label,
+        artists += ax.plot(time_s[keep] / t_scale, values[keep] / scale, label=label,
                            **COMPARE[k % len(COMPARE)])
     if target is not None and band:
         artists.append(ax.axhspan((target - band) / scale, (target + band) / scale,
                                   color=MARK, alpha=0.12, linewidth=0, label="settling band"))
     ax.set_xlabel(f"time ({t_unit})")
     ax.set_ylabel(f"{output} ({shown_unit})")
-    ax.set_title(f"{output}: the same move, four ways")
+    ax.set_title(f"{output}: the same move" + ("" if until_s is None else
+                                               f", first {until_s / t_scale:.3g} {t_unit}"))
     ax.grid(True, alpha=0.3)
     ax.legend(frameon=False, fontsize="small")
     return Drawn(figure, ax, tuple(artists))

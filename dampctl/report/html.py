@@ -70,6 +70,11 @@ class ReportInputs:
         Caption to PNG bytes, embedded in order.
     title : str, optional
         Report title; default from the plant.
+    move : mapping, optional
+        One move four ways (:func:`dampctl.report.movesettle.move_and_settle`: ``setup``,
+        ``rows``, ``notes``), shown as the "Move and settle" section.
+    move_figure : bytes, optional
+        PNG of the four time histories, shown in that section.
     """
 
     check: Mapping[str, Any]
@@ -79,6 +84,8 @@ class ReportInputs:
     export: Mapping[str, Any] | None = None
     figures: Mapping[str, bytes] = field(default_factory=dict)
     title: str = ""
+    move: Mapping[str, Any] | None = None
+    move_figure: bytes | None = None
 
 
 def render_report(inputs: ReportInputs) -> str:
@@ -116,6 +123,8 @@ def render_report(inputs: ReportInputs) -> str:
     parts.append(_assessment_section(inputs.assessment))
     if inputs.export:
         parts.append(_export_section(inputs.export))
+    if inputs.move:
+        parts.append(_move_section(inputs.move, inputs.move_figure))
     if inputs.figures:
         parts.append("<h2>Figures</h2>")
         for caption, png in inputs.figures.items():
@@ -387,6 +396,51 @@ def _export_section(export: Mapping[str, Any]) -> str:
     files = export.get("files") or []
     if files:
         out.append(_list("Files", [str(f) for f in files]))
+    return "\n".join(out)
+
+
+def _move_section(move: Mapping[str, Any], figure: bytes | None) -> str:
+    """One move open loop, shaped, damped, and damped and shaped, side by side."""
+    setup = move.get("setup") or {}
+    distance = setup.get("distance_m")
+    out = ["<h2>Move and settle</h2>",
+           f"<p>A {_e(str(setup.get('profile', '')))} move of {_num(distance)} m at "
+           f"<b>{_e(str(setup.get('output', '')))}</b> made by "
+           f"<b>{_e(str(setup.get('drive', '')))}</b> (its input scaled by the plant's static "
+           f"compliance), simulated at {_num(setup.get('sample_rate_hz'))} Hz. The damped runs "
+           "are the loop as it will run: the plant sampled exactly, the exported controller, one "
+           "sample of computation plus the stated loop delay, the actuator limits. Settling: "
+           f"into ±{_num(setup.get('settle_band_m'))} m of the static value, from the start of "
+           "the command.</p>"]
+    rows = []
+    for row in move.get("rows") or []:
+        shaper = row.get("shaper")
+        rows.append({
+            "label": row.get("label"),
+            "shaper": "–" if not shaper else
+            f"{str(shaper.get('kind', '')).upper()}, {_num(1e3 * shaper['duration_s'])} ms",
+            "settling_ms": None if row.get("settling_time_s") is None
+            else 1e3 * row["settling_time_s"],
+            "overshoot": row.get("overshoot"),
+            "residual_rms": row.get("residual_rms"),
+            "peak_force_n": row.get("peak_force_n"),
+            "saturated_s": row.get("saturated_s"),
+        })
+    out.append(_table(rows, [("label", "Run", "text"), ("shaper", "Shaper", "text"),
+                             ("settling_ms", "Settling time (ms)"),
+                             ("overshoot", "Overshoot (% of the move)"),
+                             ("residual_rms", "Residual RMS after the command (m)"),
+                             ("peak_force_n", "Peak force (N)"),
+                             ("saturated_s", "Saturated (s)")]))
+    out.append("<p class='note'>–: not settled within the record. A shaper delays the end of "
+               "the command by its duration; the shaped runs' settling times include it.</p>")
+    if figure:
+        data = base64.b64encode(figure).decode("ascii")
+        caption = "The same move: open loop, shaped, damped, damped and shaped"
+        out.append(f'<figure><img alt="{_e(caption)}" style="max-width: 100%" '
+                   f'src="data:image/png;base64,{data}"><figcaption>{_e(caption)}</figcaption>'
+                   "</figure>")
+    out.append(_list("Notes", move.get("notes") or []))
     return "\n".join(out)
 
 
