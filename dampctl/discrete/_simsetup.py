@@ -51,12 +51,14 @@ def sample_rate(plant: ModalPlant, design: Design | None, rate_hz: float | None)
 
 
 def check_rigid(plant: ModalPlant) -> None:
+    """Refuse a move of a plant with rigid-body modes (a free body has no static compliance)."""
     rigid = [k + 1 for k, w in enumerate(plant.omegas) if w == 0.0]
     if rigid:
         raise PlantError(
             f"modes {', '.join(map(str, rigid))} are rigid-body modes (0 Hz): a free body "
-            "moved by a force has no static compliance and drifts under a disturbance; "
-            "simulate the suspended structure (its flexible modes with the suspension)"
+            "moved by a force has no static compliance, so a move cannot be scaled to a "
+            "distance; simulate the suspended structure (its flexible modes with the "
+            "suspension), or a disturbance"
         )
 
 
@@ -86,16 +88,18 @@ def modal_rows(plant: ModalPlant, channels: Channels):
     C = np.array(rows).reshape(len(rows), plant.n_modes)
     D = np.zeros((len(rows), len(channels.inputs)))
     if named:
-        # feedthrough (strut force sensors, residual flexibility): static response minus the
-        # modal part, for displacement-like outputs (velocity and acceleration have none)
-        static = static_gain(plant, channels.inputs, named)
+        # feedthrough (strut force sensors, residual flexibility) of displacement-like outputs
+        # (velocity and acceleration have none): the response far above every mode minus its
+        # modal part, which is small there (a rigid-body mode's 1/ω² included)
+        w0 = 2.0 * np.pi * 1e3 * float(np.max(plant.freqs_hz))
+        far = plant.frf(np.array([w0 / (2.0 * np.pi)]), list(channels.inputs), named)[:, :, 0]
+        basis = 1.0 / (plant.omegas**2 - w0**2 + 2j * plant.dampings * plant.omegas * w0)
         k = 0
         for o, name in enumerate(channels.outputs):
             if name.startswith("stroke:"):
                 continue
             if orders[o] == 0:
-                modal = (C[o] / plant.omegas**2) @ b
-                D[o] = static[k] - modal
+                D[o] = (far[k] - (C[o] * basis) @ b).real
             k += 1
     return b, C, np.array(orders), D
 
@@ -323,9 +327,12 @@ def discrete_controller(design: Design, rate: float, method: str):
 
 
 def statistical_errors(plant, design, name, outputs, rate, length_s):
-    """Relative 1σ error of an RMS over ``length_s`` for each output (model PSD)."""
+    """Relative 1σ error of an RMS over ``length_s`` for each output (model PSD); NaN with a
+    rigid-body mode (a free body's drift is not stationary)."""
     from dampctl.analysis.response import closed_loop_frf, integration_grid
 
+    if np.any(plant.omegas == 0.0):
+        return np.full(len(outputs), np.nan)
     disturbance = plant.disturbance(name)
     if design is None:
         grid = open_grid(plant)

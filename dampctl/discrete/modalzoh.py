@@ -21,7 +21,8 @@ instants, optionally through a first-order sensor lag. All of that is discretize
 
 Memory and work per step are linear in the number of modes: no transition matrix of the
 whole structure is ever formed. States per mode are the plant's ``[ω_i q_i, q_i']``
-(:mod:`dampctl.model.plant`).
+(``[q_i, q_i']`` for a rigid-body mode, ω_i = 0: a double integrator;
+:mod:`dampctl.model.plant`).
 """
 
 from __future__ import annotations
@@ -229,7 +230,9 @@ def sample_modes(
     Parameters
     ----------
     omegas, dampings : array_like, shape (n_modes,)
-        Natural frequencies (rad/s, > 0) and damping ratios of the modes.
+        Natural frequencies (rad/s, ≥ 0) and damping ratios of the modes. A mode at 0 rad/s is
+        a rigid-body mode (damping 0): its states are ``[q, q']`` (a double integrator), as in
+        the plant's state space.
     B : array_like, shape (n_modes, n_inputs)
         Modal input rows b_i (per unit input, divided by the modal mass): q_i'' + 2ζω q_i' +
         ω² q_i = Σ_j B[i, j] f_j.
@@ -257,19 +260,16 @@ def sample_modes(
     Raises
     ------
     PlantError
-        A mode with zero natural frequency (a rigid-body mode has no bounded ZOH block in
-        these coordinates).
+        A negative natural frequency, or a damped rigid-body mode.
     UsageError
         Shapes that do not match, a non-positive sample time, breakpoints outside [0, T).
     """
     w = np.asarray(omegas, dtype=float).ravel()
     z = np.asarray(dampings, dtype=float).ravel()
     n = w.size
-    if np.any(w <= 0.0):
-        raise PlantError(
-            "a mode with zero natural frequency (a rigid-body mode) cannot be simulated in "
-            "[ω q, q'] coordinates; simulate the flexible modes of a suspended structure"
-        )
+    rigid = w == 0.0
+    if np.any(w < 0.0) or np.any(z[rigid] != 0.0):
+        raise PlantError("natural frequencies must be >= 0 and a rigid-body mode undamped")
     B = np.asarray(B, dtype=float).reshape(n, -1)
     n_in = B.shape[1]
     C = np.asarray(C, dtype=float).reshape(-1, n)
@@ -297,7 +297,7 @@ def sample_modes(
     Cx = np.zeros((n_out, n, 2))
     for o, order in enumerate(orders):
         if order == 0:
-            Cx[o, :, 0] = C[o] / w
+            Cx[o, :, 0] = C[o] / np.where(rigid, 1.0, w)  # a rigid mode's first state is q
         elif order == 1:
             Cx[o, :, 1] = C[o]
         elif order == 2:
@@ -315,7 +315,7 @@ def sample_modes(
     Z = np.zeros((n, K + n_in, K + n_in))
     Z[:, np.arange(ne), np.arange(ne)] = -we
     Z[:, np.arange(ne), K + np.array(lag_in, dtype=int)] = we
-    Z[:, ne, ne + 1] = w
+    Z[:, ne, ne + 1] = np.where(rigid, 1.0, w)
     Z[:, ne + 1, ne] = -w
     Z[:, ne + 1, ne + 1] = -2.0 * z * w
     Z[:, ne + 1, :ne] = B @ Fe

@@ -119,8 +119,9 @@ def move_and_settle(
     from dampctl.report.figures_time import plot_moves
 
     if getattr(design, "passive", False):
-        raise UsageError("the Move and settle comparison simulates an active loop; this "
-                         f"design ({design.law}) has passive parts only")
+        raise UsageError("the Move and settle section simulates an active loop; this "
+                         f"design ({design.law}) has passive parts only: dampctl compare "
+                         "gives its move's settling time beside a shaper's")
     modes = list(design.target_modes) or [int(np.argmax(plant.freqs_hz)) + 1]
     if shaper is None:
         open_shaper = design_shaper(plant, modes, kind="zvd", drift=0.0).shaper

@@ -98,7 +98,7 @@ def test_lags_and_pieces_equal_the_dense_exponential():
 def test_refusals():
     plant = _plant()
     b, c, orders, D = plant._matrices(["f1"], ["x1"])
-    with pytest.raises(PlantError, match="rigid-body"):
+    with pytest.raises(PlantError, match="rigid-body mode undamped"):
         sample_modes(np.array([0.0, 1.0, 2.0]), plant.dampings, b, c, orders, D, 1e-3)
     with pytest.raises(UsageError, match="breakpoints"):
         sample_modes(plant.omegas, plant.dampings, b, c, orders, D, 1e-3, breakpoints_s=[2e-3])
@@ -123,3 +123,31 @@ def test_batched_exponential_equals_scipy():
     ref = scipy.linalg.expm(Z * T)
     got = expm_batch((Z * T)[None])[0]
     np.testing.assert_allclose(got, ref, rtol=1e-11, atol=1e-14 * np.max(np.abs(ref)))
+
+
+def test_rigid_body_mode_is_a_double_integrator():
+    # ω = 0: states [q, q'], a force f moves q by b f T²/2 in one held sample and the
+    # acceleration output reads c b f (a free mass under a constant force)
+    w = np.array([0.0, 300.0])
+    z = np.array([0.0, 0.02])
+    B = np.array([[0.5], [2.0]])
+    C = np.array([[1.0, 0.3], [1.0, 0.3], [1.0, 0.3]])
+    T = 1e-3
+    sm = sample_modes(w, z, B, C, [0, 1, 2], np.zeros((3, 1)), T)
+    A = np.zeros((4, 4))
+    A[0, 1] = 1.0
+    A[2, 3], A[3, 2], A[3, 3] = w[1], -w[1], -2 * z[1] * w[1]
+    Bd = np.array([[0.0], [0.5], [0.0], [2.0]])
+    Cd = np.array([[1.0, 0, 0.3 / w[1], 0], [0, 1.0, 0, 0.3],
+                   [0, 0, -w[1] * 0.3, -2 * z[1] * w[1] * 0.3]])
+    Dd = np.array([[0.0], [0.0], [0.5 + 0.3 * 2.0]])
+    Ad, Bdd, Cdd, Ddd, _ = scipy.signal.cont2discrete((A, Bd, Cd, Dd), T, method="zoh")
+    u = np.sin(np.arange(50) * 0.3)[:, None]
+    _, y_ref, _ = scipy.signal.dlsim((Ad, Bdd, Cdd, Ddd, T), u)
+    X, e, s = np.zeros((2, 2)), np.zeros(0), np.zeros(0)
+    ys = []
+    for k in range(50):
+        y, X, e, s = _step(sm, X, e, s, u[k][None, :])
+        ys.append(y)
+    np.testing.assert_allclose(np.array(ys), y_ref, rtol=1e-10, atol=1e-12 * np.abs(y_ref).max())
+    assert sm.Gx[0, 0] == pytest.approx(0.5 * T**2 / 2, rel=1e-12)  # q after one held sample

@@ -399,3 +399,21 @@ def test_an_unstable_loop_is_stopped_and_said():
         tip = sim.result.output("tip")
         assert tip.settling_time_s is None and tip.residual_rms is None
         assert math.isfinite(tip.peak)
+
+
+def test_feedthrough_of_force_sensors_and_residual_flexibility():
+    # a strut's force sensor reads k_s (elongation − δ): feedthrough −k_s from δ; a pair's
+    # static_gain adds a residual-flexibility constant (the plant's own D of its modal sum)
+    from lawplants import strut_plant
+
+    from dampctl.discrete import _simsetup
+
+    base = strut_plant(damping=0.01)
+    pairs = [dataclasses.replace(p, static_gain=-0.05) if p.name == "iff1" else p
+             for p in base.pairs]
+    plant = dataclasses.replace(base, pairs=tuple(pairs))
+    channels = _simsetup.make_channels(plant, None, drive="s1", extra_outputs=["F1", "dx1"])
+    _b, _C, _orders, D = _simsetup.modal_rows(plant, channels)
+    _b2, _c2, _o2, ref = plant._matrices(channels.inputs, ["F1", "dx1"])
+    np.testing.assert_allclose(D[:2], ref, rtol=1e-9, atol=1e-12)
+    assert D[0, 0] != pytest.approx(-0.2)  # the residual term is in
