@@ -217,6 +217,13 @@ def simulate_move(
         if not used:
             notes.append("the controller has an integrator: outputs are measured about their "
                          "open-loop static values")
+        moved = float(targets[channels.reported.index(output)])
+        if closed and profile != "impulse" and abs(moved - distance_m) > 0.01 * abs(distance_m):
+            notes.append(
+                f"the loop changes the static stiffness: {output} settles at {moved:.4g} m, "
+                f"{100 * moved / distance_m:.4g} % of the move (the input is scaled by the "
+                "plant's own static compliance); settling is measured about that value"
+            )
         outs = tuple(
             setup.output_result(
                 name, setup.output_unit(plant, name),

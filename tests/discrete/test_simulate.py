@@ -9,6 +9,7 @@ import numpy as np
 import pytest
 import scipy.linalg
 import scipy.signal
+from repo import PLANTS
 
 from dampctl.analysis.assessment import assess
 from dampctl.analysis.closedloop import effective_controller
@@ -417,3 +418,23 @@ def test_feedthrough_of_force_sensors_and_residual_flexibility():
     _b2, _c2, _o2, ref = plant._matrices(channels.inputs, ["F1", "dx1"])
     np.testing.assert_allclose(D[:2], ref, rtol=1e-9, atol=1e-12)
     assert D[0, 0] != pytest.approx(-0.2)  # the residual term is in
+
+
+def test_closed_loop_static_value_is_the_loops_dc_gain():
+    # PPF on a displacement sensor changes the static stiffness: the output settles at the
+    # move times the closed loop's DC gain over the plant's (python-control feedback().dcgain)
+    from dampctl.laws import ppf
+    from dampctl.model.plantfile import load_plant
+
+    plant = load_plant(PLANTS / "oscillator.toml")
+    design = ppf.design(plant, ["coil_gap"])
+    sim = simulate_move(plant, design, drive="coil", output="mass_x", distance_m=1e-6,
+                        duration_s=1.0)
+    P = plant.statespace(["coil"], ["gap", "mass_x"])
+    loop = control.feedback(P, design.statespace() * control.ss([], [], [], [[1.0, 0.0]]),
+                            sign=-1)
+    ratio = float(np.asarray(loop.dcgain())[1, 0]) / float(np.asarray(P.dcgain())[1, 0])
+    out = sim.result.output("mass_x")
+    assert out.target == pytest.approx(1e-6 * ratio, rel=1e-9)
+    assert abs(ratio - 1) > 0.01 and any("static stiffness" in n for n in sim.notes)
+    assert out.final == pytest.approx(out.target, rel=1e-3)
