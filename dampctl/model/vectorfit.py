@@ -23,7 +23,9 @@ per channel removes that channel's own unknowns before the poles are solved. Pol
 out in the right half plane are reflected into the left one (Gustavsen & Semlyen 1999).
 
 Everything is in float64 on the frequencies given; the caller scales s (for example by the top
-of the band) so that the numbers stay near 1.
+of the band) so that the numbers stay near 1. The least-squares problems are tall and thin
+(thousands of rows, tens of columns): the BLAS runs them on one thread (threadpoolctl), which
+on a loaded 2-core machine was 18 to 25 times faster than its own threads.
 """
 
 from __future__ import annotations
@@ -31,6 +33,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from threadpoolctl import threadpool_limits
 
 from dampctl.errors import MeasurementError
 
@@ -224,16 +227,8 @@ def fit_residues(
     weights = np.asarray(weights, dtype=float)
     _check(s, data, weights)
     poles = np.asarray(poles, dtype=complex)
-    phi = _columns(s, poles)
-    basis = np.hstack([phi, _extras(s, constant, inverse_square)])
-    coefficients = np.empty((data.shape[0], basis.shape[1]))
-    for c in range(data.shape[0]):
-        w = weights[c][:, None]
-        a = np.vstack([(w * basis).real, (w * basis).imag])
-        rhs = np.concatenate([(weights[c] * data[c]).real, (weights[c] * data[c]).imag])
-        norms = np.linalg.norm(a, axis=0)
-        norms[norms == 0] = 1.0
-        coefficients[c] = np.linalg.lstsq(a / norms, rhs, rcond=None)[0] / norms
+    with threadpool_limits(limits=1, user_api="blas"):
+        coefficients = _coefficients(s, data, weights, poles, constant, inverse_square)
     residues = np.empty((data.shape[0], poles.size), dtype=complex)
     k = 0
     for m, a in enumerate(poles):
@@ -247,6 +242,21 @@ def fit_residues(
     u = coefficients[:, k] if constant else zero
     low = coefficients[:, k + int(constant)] if inverse_square else zero
     return RationalFit(poles, residues, u, low)
+
+
+def _coefficients(s, data, weights, poles, constant, inverse_square) -> np.ndarray:
+    """Per channel, the weighted least-squares coefficients of the basis (real form)."""
+    phi = _columns(s, poles)
+    basis = np.hstack([phi, _extras(s, constant, inverse_square)])
+    coefficients = np.empty((data.shape[0], basis.shape[1]))
+    for c in range(data.shape[0]):
+        w = weights[c][:, None]
+        a = np.vstack([(w * basis).real, (w * basis).imag])
+        rhs = np.concatenate([(weights[c] * data[c]).real, (weights[c] * data[c]).imag])
+        norms = np.linalg.norm(a, axis=0)
+        norms[norms == 0] = 1.0
+        coefficients[c] = np.linalg.lstsq(a / norms, rhs, rcond=None)[0] / norms
+    return coefficients
 
 
 def vector_fit(
@@ -297,12 +307,13 @@ def vector_fit(
         )
     converged = False
     iterations = 0
-    for iterations in range(1, max_iterations + 1):  # noqa: B007 (reported after the loop)
-        new = _relocate(s, data, weights, poles, constant, inverse_square)
-        converged = new.size == poles.size and _moved(poles, new) < tolerance
-        poles = new
-        if converged:
-            break
+    with threadpool_limits(limits=1, user_api="blas"):
+        for iterations in range(1, max_iterations + 1):  # noqa: B007 (reported after loop)
+            new = _relocate(s, data, weights, poles, constant, inverse_square)
+            converged = new.size == poles.size and _moved(poles, new) < tolerance
+            poles = new
+            if converged:
+                break
     fit = fit_residues(
         s, data, weights, poles, constant=constant, inverse_square=inverse_square
     )
