@@ -29,6 +29,33 @@ PASSIVE_LINES = (
     "drift check of dampctl assess, and measure the mode before the final tuning.",
 )
 
+#: the cautions printed with a piezoelectric shunt design
+SHUNT_LINES = (
+    "Safety: a piezoelectric strut generates high voltage when it is strained, shunted or not, "
+    "and a synthetic inductor is a powered circuit of its own.",
+    "Follow the local electrical-safety codes and your lab's procedures; check the shunt "
+    "voltage (dampctl assess, part loads) against the strut's and the components' ratings.",
+)
+
+
+def caution_lines(law: str) -> tuple[str, ...]:
+    """The cautions to print with a design of this law.
+
+    Parameters
+    ----------
+    law : str
+        The design's law.
+
+    Returns
+    -------
+    tuple of str
+        :data:`PASSIVE_LINES` for absorbers and dampers, :data:`SHUNT_LINES` for piezo shunts,
+        :data:`SAFETY_LINES` for active loops.
+    """
+    if law in ("tmd", "viscous"):
+        return PASSIVE_LINES
+    return SHUNT_LINES if law == "shunt" else SAFETY_LINES
+
 
 def add_force_option(parser, what: str) -> None:
     """``--force``: the one meaning it has on every command that writes.

@@ -10,9 +10,8 @@ from dampctl.analysis.assess_json import robustness_lines
 from dampctl.analysis.assessment import PHASE_MARGIN_CONVENTION, assess
 from dampctl.commands._common import (
     OPTION_RANGES,
-    PASSIVE_LINES,
-    SAFETY_LINES,
     add_force_option,
+    caution_lines,
     number_option,
     print_json,
     table,
@@ -137,7 +136,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         payload["tuned_delay_s"] = tuned if isinstance(tuned, int | float) else None
         payload["delay_note"] = note
         payload["plots"] = [str(p) for p in written]
-        payload["safety"] = list(SAFETY_LINES)
+        payload["safety"] = list(caution_lines(result.law))
         print_json(payload, out, "assessment")
     else:
         if note:
@@ -216,7 +215,7 @@ def _print_human(a, out: TextIO, *, plant_name: str) -> None:
         out.write(f"  [{'met' if q.met else 'NOT MET'}] {q.text}\n")
     for note in a.notes:
         out.write(f"  [n/a] {note}\n")
-    lines = PASSIVE_LINES if a.passive and a.law != "shunt" else SAFETY_LINES
+    lines = caution_lines(a.law)
     out.write("\n" + "\n".join(lines) + "\n")
 
 

@@ -11,9 +11,8 @@ from typing import TextIO
 from dampctl.analysis.modetable import TABLE_HEADERS, closed_loop_table
 from dampctl.commands._common import (
     OPTION_RANGES,
-    PASSIVE_LINES,
-    SAFETY_LINES,
     add_force_option,
+    caution_lines,
     mode_list,
     name_list,
     number_option,
@@ -557,7 +556,7 @@ def _print_human(payload: dict, modes, out: TextIO) -> None:
         )
     if payload["warnings"]:
         out.write("\nwarnings:\n" + "".join(f"  - {w}\n" for w in payload["warnings"]))
-    lines = SAFETY_LINES if payload["law"] not in ("tmd", "viscous") else PASSIVE_LINES
+    lines = caution_lines(payload["law"])
     out.write("\n" + "\n".join(lines) + "\n")
 
 

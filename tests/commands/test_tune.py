@@ -344,3 +344,12 @@ def test_passive_usage_errors(piezo_file, tmp_path, argv, message):
     code, text, err = _run(piezo_file, *argv, "-o", out)
     assert code == 2, (text, err)
     assert message in err and not out.exists()
+
+
+def test_shunt_design_prints_the_piezo_caution(piezo_file, tmp_path):
+    from dampctl.commands._common import SHUNT_LINES
+
+    code, human, err = _run(piezo_file, "--law", "shunt", "--modes", "1", "--pairs", "iff1",
+                            "-o", tmp_path / "s.json")
+    assert code in (0, 1), err
+    assert SHUNT_LINES[0] in human and SAFETY_LINES[0] not in human
