@@ -23,7 +23,12 @@ from dampctl.sizing.size import LAWS, size_pairs
 from dampctl.values import Range
 
 NAME = "size"
-HELP = "find how many pairs a structure needs and where, with the cost of each extra pair"
+HELP = (
+    "find how many pairs a structure needs and where, with the cost of each extra pair (or how "
+    "much absorber mass, or which piezo struts to shunt)"
+)
+#: passive laws with a size to choose (dampctl.sizing.passive)
+PASSIVE = ("tmd", "shunt")
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -36,7 +41,11 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     """
     parser.add_argument("plant", help="plant file (TOML); - reads it from standard input")
     parser.add_argument(
-        "--law", choices=LAWS, default="dvf", help="collocated damping law (default dvf)"
+        "--law",
+        choices=(*LAWS, *PASSIVE),
+        default="dvf",
+        help="collocated damping law (default dvf); tmd: absorber mass ratios; shunt: how many "
+        "piezo struts to shunt",
     )
     parser.add_argument(
         "--modes",
@@ -75,6 +84,19 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "(default none)",
     )
     add_force_option(parser, "figures of the same names in DIR")
+    passive = parser.add_argument_group("passive laws (tmd, shunt)")
+    passive.add_argument(
+        "--mass-ratios",
+        metavar="MU1,MU2",
+        help="tmd: mass ratios to try, each for every target mode (default "
+        "0.005,0.01,0.02,0.05,0.1)",
+    )
+    passive.add_argument(
+        "--site", metavar="S[,S2]", help="tmd: absorber site(s), as dampctl tune --law tmd"
+    )
+    passive.add_argument(
+        "--shunt", choices=("RL", "R"), default="RL", help="shunt: the network (default RL)"
+    )
     parser.add_argument("--json", action="store_true", help="print JSON on stdout")
 
 
@@ -93,6 +115,10 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     int
         0 with a recommendation, 1 when no count up to K meets the requirements.
     """
+    if args.law in PASSIVE:
+        return _passive(args, out)
+    if args.mass_ratios or args.site or args.shunt != "RL":
+        raise UsageError("--mass-ratios, --site and --shunt apply to --law tmd / shunt only")
     plant = load_plant(args.plant)
     if args.plots:
         from dampctl.report.figures_sizing import SIZING_FIGURES
@@ -128,6 +154,51 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         print_json(payload, out, "sizing")
     else:
         _print_human(plant, result, files, out)
+    return 0 if result.recommended is not None else 1
+
+
+def _passive(args: argparse.Namespace, out: TextIO) -> int:
+    """``--law tmd|shunt``: sizes of passive parts (:mod:`dampctl.sizing.passive`)."""
+    from dampctl.sizing.passive import DEFAULT_MASS_RATIOS, size_absorbers, size_shunts
+
+    if args.plots:
+        raise UsageError(f"--plots is not available for --law {args.law}")
+    plant = load_plant(args.plant)
+    modes = mode_list(args.modes, n_modes=plant.n_modes) or None
+    if args.law == "tmd":
+        if args.candidates or args.max_pairs or args.shunt != "RL":
+            raise UsageError("--candidates, --max-pairs and --shunt do not apply to --law tmd")
+        ratios = DEFAULT_MASS_RATIOS
+        if args.mass_ratios:
+            try:
+                ratios = [float(v) for v in args.mass_ratios.split(",") if v.strip()]
+            except ValueError:
+                raise UsageError(f"--mass-ratios: expected numbers, got {args.mass_ratios!r}"
+                                 ) from None
+        sites = name_list(args.site, "--site") or None
+        result = size_absorbers(plant, modes=modes, sites=sites, mass_ratios=ratios,
+                                target_damping=args.target_damping)
+    else:
+        if args.mass_ratios or args.site:
+            raise UsageError("--mass-ratios and --site apply to --law tmd")
+        result = size_shunts(plant, modes=modes, candidates=name_list(args.candidates,
+                                                                     "--candidates") or None,
+                             kind=args.shunt, max_pairs=args.max_pairs,
+                             target_damping=args.target_damping)
+    if args.json:
+        print_json(result.to_dict(), out, "sizing-passive")
+    else:
+        size = "mass ratio" if result.size_name == "mass_ratio" else "struts"
+        target = "none" if result.target_damping is None else f"{result.target_damping:g}"
+        out.write(f"{plant.title or 'plant'}: sizing {result.law} for modes "
+                  f"{', '.join(map(str, result.modes))}, target damping {target}\n\n")
+        rows = [[r.size, ",".join(r.chosen), r.min_damping, r.limiting_mode, r.peak_ratio,
+                 r.added_mass_kg, r.cost, r.target_met] for r in result.rows]
+        headers = [size, "parts at", "min damping", "limiting mode", "peak ratio",
+                   "added mass (kg)", "cost", "target met"]
+        out.write(table(headers, rows) + "\n\n" + result.statement + "\n")
+        out.write("peak ratio: largest response peak at the outputs with the parts over "
+                  "without; cost: [[parts]] prices (and the struts' own cost)\n")
     return 0 if result.recommended is not None else 1
 
 
