@@ -19,8 +19,10 @@ are the sampled outputs and the actuator forces. Three engines compute the same 
 * ``"numpy"``, closed loop: step by step, two matrix–vector products and a few element-wise
   operations on the modal states per step;
 * ``"numpy"``, open loop (no controller): the inputs are known in advance, so each mode's
-  2×2 recursion runs over the whole record at once as a second-order filter
-  (:func:`scipy.signal.lfilter`, blocks of modes).
+  2×2 recursion runs over the whole record at once, in the eigenvector basis of its
+  transition matrix as one complex first-order filter (:func:`scipy.signal.lfilter`, blocks
+  of modes; a mode whose transition has real eigenvalues, such as a rigid-body mode, as two
+  real second-order filters).
 
 An unstable loop is stopped (checked every 32 steps) before its states overflow.
 """
@@ -84,6 +86,21 @@ def _clipped(planned: np.ndarray, limits, widths):
     return np.clip(planned, -limits, limits), saturated
 
 
+def _real_mode(d0, d1, p11, p12, p21, p22):
+    """x[k+1] = Φ x[k] + d[k] for one mode as two second-order filters: x = (zI − Φ)⁻¹ d, the
+    adjugate's numerators over det(zI − Φ)."""
+    import scipy.signal
+
+    s0 = np.zeros_like(d0)
+    s1 = np.zeros_like(d1)
+    s0[1:] = d0[:-1]
+    s1[1:] = d1[:-1]
+    s0[2:] += p12 * d1[:-2] - p22 * d0[:-2]
+    s1[2:] += p21 * d0[:-2] - p11 * d1[:-2]
+    a = [1.0, -(p11 + p22), p11 * p22 - p12 * p21]
+    return scipy.signal.lfilter([1.0], a, s0), scipy.signal.lfilter([1.0], a, s1)
+
+
 def _open_run(model: SampledModes, planned: np.ndarray, limits) -> LoopRecord:
     """Open loop over the whole record at once: each mode's recursion as a filter."""
     import scipy.signal  # here, not at import: it costs 0.3 s to load
@@ -100,29 +117,42 @@ def _open_run(model: SampledModes, planned: np.ndarray, limits) -> LoopRecord:
     outputs = model.Dy @ W
     s_drive = model.Gs @ W if ns else None
     block = max(1, min(n, _BLOCK_VALUES // max(steps, 1)))
-    x0 = np.empty((block, steps))
-    x1 = np.empty((block, steps))
     for lo in range(0, n, block):
         idx = np.arange(lo, min(lo + block, n))
         d0 = model.Gx[idx] @ W
         d1 = model.Gx[n + idx] @ W
-        p11, p22 = model.Pa[0, idx, None], model.Pa[1, idx, None]
-        p12, p21 = model.Pb[0, idx, None], model.Pb[1, idx, None]
-        # x[k+1] = Φ x[k] + d[k]: x = (zI − Φ)⁻¹ d, numerators of the adjugate over det(zI − Φ)
-        s0 = np.zeros_like(d0)
-        s1 = np.zeros_like(d1)
-        s0[:, 1:] = d0[:, :-1]
-        s1[:, 1:] = d1[:, :-1]
-        s0[:, 2:] += p12 * d1[:, :-2] - p22 * d0[:, :-2]
-        s1[:, 2:] += p21 * d0[:, :-2] - p11 * d1[:, :-2]
-        for k in range(idx.size):
-            a = [1.0, -(p11[k, 0] + p22[k, 0]), p11[k, 0] * p22[k, 0] - p12[k, 0] * p21[k, 0]]
-            x0[k] = scipy.signal.lfilter([1.0], a, s0[k])
-            x1[k] = scipy.signal.lfilter([1.0], a, s1[k])
-        rows0, rows1 = x0[: idx.size], x1[: idx.size]
-        outputs += model.Cy[:, idx] @ rows0 + model.Cy[:, n + idx] @ rows1
-        if ns:
-            s_drive += model.Hs[:, idx] @ rows0 + model.Hs[:, n + idx] @ rows1
+        p11, p22 = model.Pa[0, idx], model.Pa[1, idx]
+        p12, p21 = model.Pb[0, idx], model.Pb[1, idx]
+        # each mode's 2×2 transition Φ has eigenvalues μ, μ̄ with eigenvectors v = [a, b] =
+        # [Φ12, μ − Φ11] and conjugate: x = 2 Re(v z), z[k+1] = μ z[k] + u·d[k] with u the first
+        # row of [v, v̄]⁻¹ — one complex first-order filter per mode
+        tr, det = p11 + p22, p11 * p22 - p12 * p21
+        root = np.sqrt((tr * tr - 4.0 * det).astype(complex))
+        mu = (tr + root) / 2.0
+        a, b = p12.astype(complex), mu - p11
+        gap = a * b.conj() - a.conj() * b  # det [v, v̄] = 2j Im(a b̄)
+        scale = np.abs(a) * np.abs(b)
+        complex_ok = (np.abs(mu.imag) > 1e-6 * np.abs(mu)) & (np.abs(gap) > 1e-6 * scale)
+        if np.any(complex_ok):
+            k_ok = np.flatnonzero(complex_ok)
+            ua = (b.conj()[k_ok] / gap[k_ok])[:, None]
+            ub = (-a.conj()[k_ok] / gap[k_ok])[:, None]
+            g = ua * d0[k_ok] + ub * d1[k_ok]
+            z = np.empty_like(g)
+            for k in range(k_ok.size):
+                z[k] = scipy.signal.lfilter([0.0, 1.0], [1.0, -mu[k_ok[k]]], g[k])
+            rows = idx[k_ok]
+            out0 = model.Cy[:, rows] * (2.0 * a[k_ok]) + model.Cy[:, n + rows] * (2.0 * b[k_ok])
+            outputs += (out0 @ z).real
+            if ns:
+                h = model.Hs[:, rows] * (2.0 * a[k_ok]) + model.Hs[:, n + rows] * (2.0 * b[k_ok])
+                s_drive += (h @ z).real
+        for k in np.flatnonzero(~complex_ok):  # real or repeated eigenvalues (a rigid mode)
+            x0, x1 = _real_mode(d0[k], d1[k], p11[k], p12[k], p21[k], p22[k])
+            i = idx[k]
+            outputs += np.outer(model.Cy[:, i], x0) + np.outer(model.Cy[:, n + i], x1)
+            if ns:
+                s_drive += np.outer(model.Hs[:, i], x0) + np.outer(model.Hs[:, n + i], x1)
     if ns:
         S = np.empty((ns, steps))
         for m in range(ns):
