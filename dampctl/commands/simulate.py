@@ -11,8 +11,8 @@ import numpy as np
 
 from dampctl.commands._common import (
     OPTION_RANGES,
-    SAFETY_LINES,
     add_force_option,
+    caution_lines,
     number_option,
     print_json,
     table,
@@ -243,10 +243,12 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         payload = result.to_dict()
         payload["plots"] = [str(p) for p in written]
         if design is not None:
-            payload["safety"] = list(SAFETY_LINES)
+            payload["safety"] = list(caution_lines(design.law))
         print_json(payload, out, "simulation")
     else:
         _print_human(result, out, plant.title or args.plant, design is not None)
+        if design is not None:
+            out.write("\n" + "\n".join(caution_lines(design.law)) + "\n")
         for path in written:
             out.write(f"wrote {path}\n")
     if unstable:
@@ -310,5 +312,3 @@ def _print_human(result, out: TextIO, name: str, closed: bool) -> None:
                             "saturated (s)", "stroke (m)", "limit"], rows) + "\n")
     for note in result.notes:
         out.write(f"note: {note}\n")
-    if closed:
-        out.write("\n" + "\n".join(SAFETY_LINES) + "\n")
