@@ -67,6 +67,39 @@ def static_gain(plant: ModalPlant, inputs, outputs) -> np.ndarray:
     return plant.frf(np.array([0.0]), list(inputs), list(outputs))[:, :, 0].real
 
 
+def _influence(plant: ModalPlant, channels: Channels, input_name: str) -> np.ndarray | None:
+    """Motion per metre of base motion of every absolute output, for a base acceleration
+    input (None for any other input)."""
+    item = next((d for d in plant.disturbances if d.name == input_name), None)
+    if item is None or getattr(item, "kind", "force") != "base_acceleration":
+        return None
+    influence = getattr(item, "influence", None) or {}
+    column = np.zeros(len(channels.outputs))
+    for o, name in enumerate(channels.outputs):
+        reading = next((x for x in (*plant.outputs, *plant.sensors) if x.name == name), None)
+        if reading is not None and reading.kind.startswith("absolute_"):
+            column[o] = float(influence.get(reading.site, 0.0))
+    return column
+
+
+def base_modes(plant: ModalPlant, channels: Channels) -> tuple[np.ndarray, np.ndarray]:
+    """The base's own motion at absolute outputs, as one more rigid-body 'mode' per base
+    acceleration: a double integrator of a_g (input row 1 on it), read with the sites'
+    influence (absolute = relative + r × base motion; for an acceleration, + r a_g)."""
+    rows, columns = [], []
+    for j, name in enumerate(channels.inputs):
+        column = _influence(plant, channels, name)
+        if column is not None and np.any(column):
+            row = np.zeros(len(channels.inputs))
+            row[j] = 1.0
+            rows.append(row)
+            columns.append(column)
+    n_in, n_out = len(channels.inputs), len(channels.outputs)
+    B = np.array(rows).reshape(len(rows), n_in)
+    C = np.array(columns).T.reshape(n_out, len(columns))
+    return B, C
+
+
 def modal_rows(plant: ModalPlant, channels: Channels):
     """B, C, orders, D of the sampled structure, strokes included."""
     b = np.column_stack([plant.input_row(name) for name in channels.inputs])
@@ -94,12 +127,14 @@ def modal_rows(plant: ModalPlant, channels: Channels):
         w0 = 2.0 * np.pi * 1e3 * float(np.max(plant.freqs_hz))
         far = plant.frf(np.array([w0 / (2.0 * np.pi)]), list(channels.inputs), named)[:, :, 0]
         basis = 1.0 / (plant.omegas**2 - w0**2 + 2j * plant.dampings * plant.omegas * w0)
+        _extra_b, base = base_modes(plant, channels)  # the base's motion r a_g/(jω)² is no D
+        base_far = -(base @ _extra_b) / w0**2 if base.size else np.zeros_like(D)
         k = 0
         for o, name in enumerate(channels.outputs):
             if name.startswith("stroke:"):
                 continue
             if orders[o] == 0:
-                D[o] = (far[k] - (C[o] * basis) @ b).real
+                D[o] = (far[k] - (C[o] * basis) @ b).real - base_far[o]
             k += 1
     return b, C, np.array(orders), D
 
@@ -241,10 +276,13 @@ def run_case(plant, design, channels, rate, steps, commands, disturbance, *, clo
     m_delay, frac = split_times(np.array([delay]), T)
     theta = piece_starts(commands, T, float(frac[0]))
     b, C, orders, D = modal_rows(plant, channels)
+    extra_b, extra_c = base_modes(plant, channels)
+    omegas = np.concatenate([plant.omegas, np.zeros(extra_b.shape[0])])
+    dampings = np.concatenate([plant.dampings, np.zeros(extra_b.shape[0])])
     ins, outs = lag_corners(plant, channels, closed)
     model = sample_modes(
-        plant.omegas, plant.dampings, b, C, orders, D, T, breakpoints_s=theta,
-        input_corners_rad_s=ins, output_corners_rad_s=outs,
+        omegas, dampings, np.vstack([b, extra_b]), np.hstack([C, extra_c]), orders, D, T,
+        breakpoints_s=theta, input_corners_rad_s=ins, output_corners_rad_s=outs,
     )
     planned = planned_inputs(commands, disturbance, theta, T, steps, len(channels.inputs))
     limits = input_limits(plant, channels) if saturation else None
