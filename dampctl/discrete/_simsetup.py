@@ -124,7 +124,7 @@ def modal_rows(plant: ModalPlant, channels: Channels):
         # feedthrough (strut force sensors, residual flexibility) of displacement-like outputs
         # (velocity and acceleration have none): the response far above every mode minus its
         # modal part, which is small there (a rigid-body mode's 1/ω² included)
-        w0 = 2.0 * np.pi * 1e3 * float(np.max(plant.freqs_hz))
+        w0 = 2.0 * np.pi * 1e3 * max(float(np.max(plant.freqs_hz)), 1.0)
         far = plant.frf(np.array([w0 / (2.0 * np.pi)]), list(channels.inputs), named)[:, :, 0]
         basis = 1.0 / (plant.omegas**2 - w0**2 + 2j * plant.dampings * plant.omegas * w0)
         _extra_b, base = base_modes(plant, channels)  # the base's motion r a_g/(jω)² is no D
