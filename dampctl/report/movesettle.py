@@ -1,9 +1,12 @@
 """The report's "Move and settle" comparison: one move four ways.
 
-Open loop, open loop with an input shaper, damped (the design's closed loop as it runs), and
-damped with a shaper — the shaper designed on the open-loop modes for the shaped run and on the
-closed-loop (damped) modes for the damped and shaped run, unless one shaper is given for both
-(:func:`dampctl.laws.shaping.design_shaper`, :func:`dampctl.discrete.simulate.simulate_move`).
+Open loop, open loop with an input shaper, damped (the design's closed loop as it runs, or
+the structure with a passive design's parts), and damped with a shaper — the shaper designed
+on the open-loop modes for the shaped run and on the closed-loop (damped) modes for the damped
+and shaped run, unless one shaper is given for both
+(:func:`dampctl.laws.shaping.design_shaper`, :func:`dampctl.discrete.simulate.simulate_move`;
+a passive design by :func:`dampctl.discrete.passive_move.simulate_passive_move`, a step move
+only: its parts are simulated exactly, with no loop to sample).
 The result is JSON-ready (what :func:`dampctl.report.html.render_report` shows) plus the
 figure of the four time histories.
 """
@@ -88,7 +91,8 @@ def move_and_settle(
     plant : ModalPlant
         The plant.
     design : Design
-        An active design (its loop is simulated as it runs).
+        An active design (its loop is simulated as it runs) or a passive one (its parts in
+        place; a step move only, shaped by the shaper).
     drive, output : str
         Actuator making the move, displacement output that moves.
     distance_m : float
@@ -114,14 +118,14 @@ def move_and_settle(
     Raises
     ------
     UsageError
-        A passive design (no loop to simulate in time) or a bad move.
+        A passive design with a profile other than a step, or a bad move.
     """
     from dampctl.report.figures_time import plot_moves
 
-    if getattr(design, "passive", False):
-        raise UsageError("the Move and settle section simulates an active loop; this "
-                         f"design ({design.law}) has passive parts only: dampctl compare "
-                         "gives its move's settling time beside a shaper's")
+    passive = bool(getattr(design, "passive", False))
+    if passive and profile != "step":
+        raise UsageError(f"a {design.law} design (passive) moves by a step only, shaped by "
+                         f"the shaper; got profile {profile!r}")
     modes = list(design.target_modes) or [int(np.argmax(plant.freqs_hz)) + 1]
     if shaper is None:
         open_shaper = design_shaper(plant, modes, kind="zvd", drift=0.0).shaper
@@ -136,9 +140,17 @@ def move_and_settle(
     move = {"drive": drive, "output": output, "distance_m": distance_m, "profile": profile,
             "max_velocity": max_velocity, "max_acceleration": max_acceleration,
             "record": record, "settle_band_m": settle_band_m, "duration_s": duration_s}
-    plain = simulate_move(plant, design, **move)
+    if passive:
+        from dampctl.discrete.passive_move import simulate_passive_move
+
+        exact = {"drive": drive, "output": output, "distance_m": distance_m,
+                 "settle_band_m": settle_band_m, "duration_s": duration_s}
+        plain = simulate_passive_move(plant, design, **exact)
+        both = simulate_passive_move(plant, design, shaper=closed_shaper, **exact)
+    else:
+        plain = simulate_move(plant, design, **move)
+        both = simulate_move(plant, design, shaper=closed_shaper, **move)
     shaped = simulate_move(plant, None, shaper=open_shaper, **move)
-    both = simulate_move(plant, design, shaper=closed_shaper, **move)
     runs = [(LABELS[0], plain.open_loop, plain, None),
             (LABELS[1], shaped.result, shaped, open_shaper),
             (LABELS[2], plain.result, plain, None),

@@ -8,8 +8,9 @@ from repo import PLANTS
 
 from dampctl.commands.cli import main
 from dampctl.design import load_design
+from dampctl.discrete.passive_move import simulate_passive_move
 from dampctl.errors import UsageError
-from dampctl.laws import dvf
+from dampctl.laws import dvf, tmd
 from dampctl.model.components import Requirements
 from dampctl.model.plant import ModalPlant
 from dampctl.report.figures_time import plot_moves
@@ -54,17 +55,24 @@ def test_plot_moves_draws_each_run():
     assert drawn.ax.get_lines()[0].get_xdata().size == 51
 
 
-def test_passive_design_is_refused_plainly():
+def test_passive_design_moves_with_its_parts_in_place():
+    # the damped runs are the exact passive simulation (structure + absorber), the shaped run
+    # the open loop shaped: the absorber speeds the settling, as its damping says it must
     plant = _plant()
-    design = dvf.design(plant, ["p1"], gain=60.0)
-
-    class Passive:  # a design value with parts only: what move_and_settle checks
-        passive = True
-        law = "tmd"
-        target_modes = design.target_modes
-
-    with pytest.raises(UsageError, match="passive parts only"):
-        move_and_settle(plant, Passive(), drive="f1", output="x2", distance_m=1e-6)
+    design = tmd.design(plant, modes=[1], mass_ratio=0.05)
+    moved = move_and_settle(plant, design, drive="f1", output="x2", distance_m=1e-6)
+    rows = moved.summary["rows"]
+    assert [r["label"] for r in rows] == list(LABELS)
+    alone = simulate_passive_move(plant, design, drive="f1", output="x2", distance_m=1e-6,
+                                  duration_s=moved.summary["setup"]["duration_s"])
+    settled = alone.result.output("x2").settling_time_s
+    assert rows[2]["settling_time_s"] == pytest.approx(settled)
+    assert rows[2]["settling_time_s"] < rows[0]["settling_time_s"]
+    # the default shaper cancels the target mode only (mode 2 still rings a little)
+    assert rows[1]["residual_rms"] < 0.5 * rows[0]["residual_rms"]
+    with pytest.raises(UsageError, match="step only"):
+        move_and_settle(plant, design, drive="f1", output="x2", distance_m=1e-6,
+                        profile="trapezoid", max_velocity=1e-3, max_acceleration=1.0)
 
 
 def test_report_command_with_move_options(tmp_path):
