@@ -10,14 +10,14 @@ from __future__ import annotations
 import argparse
 from typing import TextIO
 
-from dampctl.commands import plant_fit, plant_new
+from dampctl.commands import plant_fe, plant_fit, plant_new
 from dampctl.commands._common import add_quiet
 
 NAME = "plant"
 HELP = "write a plant file: a commented starter, or from FE matrices, mode tables, measurements"
 
 #: the ``dampctl plant`` subcommands, in the order they are listed
-SUBCOMMANDS = (plant_new, plant_fit)
+SUBCOMMANDS = (plant_new, plant_fe, plant_fit)
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
