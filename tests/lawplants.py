@@ -117,3 +117,35 @@ def strut_chain(masses, springs, strut_k, where, *, damping=0.0) -> ModalPlant:
         pairs=[Pair("iff", "s", "F")],
         title="chain with a strut",
     )
+
+
+def xy_stage(*, delay_s=1e-4, sample_rate_hz=10000.0, min_disk_margin_db=None) -> ModalPlant:
+    """The 3-mode XY stage of issue 19: x at 150 Hz, y at 160 Hz, a coupled mode at 900 Hz.
+
+    Force actuators ``fx``/``fy`` with collocated velocity sensors ``vx``/``vy`` (pairs
+    ``vx1``, ``vy1``); 1.2 % open-loop damping; the loop delay (1e-4 s plus sampling at
+    10 kHz) caps what velocity feedback can give the 900 Hz mode. Margin requirements 6 dB,
+    35°.
+    """
+    modes = [
+        Mode(150.0, 0.012, modal_mass_kg=2.0),
+        Mode(160.0, 0.012, modal_mass_kg=2.0),
+        Mode(900.0, 0.012, modal_mass_kg=0.5),
+    ]
+    sites = {"x": [1.0, 0.1, 0.8], "y": [0.1, 1.0, -0.7]}
+    return ModalPlant(
+        modes=modes,
+        sites=sites,
+        actuators=[Actuator("fx", "force", site="x"), Actuator("fy", "force", site="y")],
+        sensors=[Sensor("vx", "velocity", site="x"), Sensor("vy", "velocity", site="y")],
+        pairs=[Pair("vx1", "fx", "vx"), Pair("vy1", "fy", "vy")],
+        requirements=Requirements(
+            modes=(1, 2, 3),
+            min_damping=0.05,
+            sample_rate_hz=sample_rate_hz,
+            loop_delay_s=delay_s,
+            min_gain_margin_db=6.0,
+            min_phase_margin_deg=35.0,
+        ),
+        title="xy stage",
+    )

@@ -604,6 +604,12 @@ def _print_law_facts(info: dict, out: TextIO) -> None:
             f"{', '.join(str(m) for m in neighbours) or '-'}{spill}); "
             f"controller order {order}{reduced}\n"
         )
+        correction = info.get("full_plant_correction") or {}
+        if correction.get("attempt_used"):
+            out.write(
+                f"LQG attempt used: {correction['attempt_used']} of {correction['attempts']} "
+                f"({correction['attempt_reason']})\n"
+            )
         estimator = info.get("estimator") or {}
         if estimator.get("estimator_damping"):
             regulator = (info.get("regulator") or {}).get("regulator_damping")

@@ -158,6 +158,7 @@ def design(
         check_pair=lambda pair: _check_pair(plant, pair),
     )
     lowest_hz = float(np.min(plant.freqs_hz[list(request.targets)]))
+    given = leak_hz is not None
     if leak_hz is None:
         leak_hz = DEFAULT_LEAK_FRACTION * lowest_hz
     leak_hz = float(leak_hz)
@@ -201,7 +202,7 @@ def design(
         "gain_units": ["rad/s"] * len(loops),
         "gains": [float(g) for g in gains],
         "leak_hz": leak_hz,
-        "leak_rule": f"{DEFAULT_LEAK_FRACTION:g} x lowest target mode (default)",
+        "leak_rule": _leak_rule(leak_hz, given, lowest_hz),
         "achievable": targeted,
         "achievable_rule": (
             "Preumont: max damping (w - z)/(2 z) at g = w sqrt(w/z), equal gain on every loop, "
@@ -218,6 +219,18 @@ def design(
         target_met=reached,
         info=info,
         warnings=warnings,
+    )
+
+
+def _leak_rule(leak_hz: float, given: bool, lowest_hz: float) -> str:
+    """The leak actually used, in words: given by the caller, or the default rule."""
+    if given:
+        if leak_hz == 0.0:
+            return "0 Hz as given: pure integrator (no leak)"
+        return f"{leak_hz:.4g} Hz as given ({leak_hz / lowest_hz:.3g} x lowest target mode)"
+    return (
+        f"{leak_hz:.4g} Hz = {DEFAULT_LEAK_FRACTION:g} x lowest target mode "
+        f"({lowest_hz:.4g} Hz), the default"
     )
 
 

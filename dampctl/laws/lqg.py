@@ -350,6 +350,9 @@ def design(
             "first_goals": attempts[0][0],
             "goals_used": chosen["goals"],
             "target_damping_min_per_attempt": [a[1]["target_damping_min"] for a in attempts],
+            "stable_per_attempt": [bool(a[1]["stable"]) for a in attempts],
+            "attempt_used": chosen["attempt_used"],
+            "attempt_reason": chosen["attempt_reason"],
         },
     }
     result = _make(plant, actuators, sensors, targets, controller, pairs, info)
@@ -475,26 +478,63 @@ def _design_on(setup: _Setup, kept: list, delay: float) -> dict:
         )
         if not check["stable"] or not np.any(short):
             break
+        if len(attempts) > 1 and _attempt_rank(attempts[-1][1]["check"], attempts) < max(
+            _attempt_rank(a[1]["check"], attempts) for a in attempts[:-1]
+        ):
+            break  # raising the goals made it worse: going on from a worse attempt cannot help
         aim_c = zeta_c * (1.0 + GOAL_HEADROOM)
         raised = np.array([goals[k] * aim_c / max(reached[i], 1e-6) for k, i in enumerate(kept)])
         goals = np.where(short, np.minimum(raised, MAX_RAISED_GOAL), goals)
         if np.allclose(goals, attempts[-1][0]):
             break
-    stable = [a for a in attempts if a[1]["check"]["stable"]] or attempts[:1]
-    spilled = len(attempts[0][1]["check"]["spillover_reduced"])
-    goals_used, best = max(
-        stable,
-        key=lambda a: (
-            len(a[1]["check"]["spillover_reduced"]) <= spilled,
-            a[1]["check"]["target_damping_min"],
-        ),
-    )
+    used = max(range(len(attempts)), key=lambda k: _attempt_rank(attempts[k][1]["check"], attempts))
+    goals_used, best = attempts[used]
     return {
         **best,
         "kept": list(kept),
         "goals": goals_used,
         "attempts": [(g, a["check"]) for g, a in attempts],
+        "attempt_used": used + 1,
+        "attempt_reason": _attempt_reason(attempts, used, zeta_c),
     }
+
+
+def _attempt_rank(check: dict, attempts: list) -> tuple:
+    """Order of attempts: stable first, then no more residual modes' damping reduced than the
+    first attempt, then the larger smallest target damping, then the earlier (smaller goals)."""
+    spilled = len(attempts[0][1]["check"]["spillover_reduced"])
+    return (
+        bool(check["stable"]),
+        len(check["spillover_reduced"]) <= spilled,
+        check["target_damping_min"],
+    )
+
+
+def _attempt_reason(attempts: list, used: int, zeta_c: float) -> str:
+    """Why attempt ``used`` (0-based) is the one kept, in words, naming the worse ones."""
+    checks = [a[1]["check"] for a in attempts]
+    kept = checks[used]
+    if len(checks) == 1:
+        if not kept["stable"]:
+            return "only attempt: unstable on the full plant, no correction tried"
+        return "only attempt: the full plant needed no correction of the goals"
+    others = []
+    for k, check in enumerate(checks):
+        if k == used:
+            continue
+        what = (
+            "unstable"
+            if not check["stable"]
+            else f"smallest target damping {check['target_damping_min']:.4g}"
+        )
+        worse = not check["stable"] or check["target_damping_min"] < kept["target_damping_min"]
+        others.append(f"attempt {k + 1} {what}{' (worse)' if worse else ''}")
+    state = "stable" if kept["stable"] else "no attempt stable"
+    met = " (meets the target)" if kept["target_damping_min"] >= zeta_c * (1 - TARGET_TOL) else ""
+    return (
+        f"best {state} attempt: smallest target damping {kept['target_damping_min']:.4g}{met}; "
+        + "; ".join(others)
+    )
 
 
 def _design_with_spillover(setup: _Setup, kept: list, delay: float, reach_seen: np.ndarray):

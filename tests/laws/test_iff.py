@@ -156,3 +156,19 @@ def test_target_damping_takes_the_smallest_gain():
     too_much = iff.design(plant, ["iff1"], modes=[1], target_damping=0.2, leak_hz=0.0)
     assert too_much.info["target_met"] is False
     assert any("not reached" in w for w in too_much.info["warnings"])
+
+
+@pytest.mark.parametrize(
+    ("leak_hz", "words"),
+    [(None, "the default"), (0.0, "pure integrator"), (2.5, "2.5 Hz as given")],
+)
+def test_leak_rule_states_the_leak_actually_used(leak_hz, words):
+    # the design's branch holds the leak corner (den s + w_c); the rule names the same number
+    plant = strut_plant()
+    design = iff.design(plant, ["iff1"], leak_hz=leak_hz, target_damping=None)
+    info = design.info
+    corner_hz = design.loops[0].branches[0].sections[0].den[1] / (2 * np.pi)
+    assert info["leak_hz"] == pytest.approx(corner_hz)
+    assert words in info["leak_rule"]
+    if leak_hz is None:
+        assert f"{corner_hz:.4g} Hz" in info["leak_rule"]
