@@ -185,6 +185,8 @@ class Curves:
         Loop-at-a-time return ratios at the plant input (exact delay).
     locus : GainLocus
         Closed-loop poles for the controller scaled 0–3×.
+    frf_open_h, frf_closed_h : ndarray of complex, shape (n_out, n_in, n_freq), or None
+        The FRFs themselves (magnitude and phase), each output from each input.
     """
 
     freq_hz: np.ndarray
@@ -195,6 +197,8 @@ class Curves:
     frf_closed: np.ndarray
     loops: np.ndarray
     locus: GainLocus
+    frf_open_h: np.ndarray | None = None
+    frf_closed_h: np.ndarray | None = None
 
 
 @dataclass(frozen=True)
@@ -273,6 +277,17 @@ class Assessment:
     def unmet(self) -> tuple[RequirementCheck, ...]:
         """The requirements not met."""
         return tuple(r for r in self.requirements if not r.met)
+
+    def to_frame(self):
+        """The closed-loop modal table as a pandas DataFrame (needs pandas)."""
+        from dampctl.tables import assessment_rows, frame
+
+        return frame(assessment_rows(self))
+
+    def _repr_html_(self) -> str:
+        from dampctl.tables import assessment_html
+
+        return assessment_html(self)
 
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready dictionary (non-finite floats stay floats; see ``commands._common``)."""
@@ -425,6 +440,8 @@ def assess(
             frf_closed=mag_closed,
             loops=loops_curve,
             locus=locus,
+            frf_open_h=frf.open,
+            frf_closed_h=frf.closed,
         ),
     )
 

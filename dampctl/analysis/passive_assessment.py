@@ -155,6 +155,8 @@ def assess_passive(
             frf_closed=mag_closed,
             loops=np.zeros((0, grid.size), dtype=complex),
             locus=locus,
+            frf_open_h=frf.open,
+            frf_closed_h=frf.closed,
         ),
         passive=True,
         parts=tuple(design.parts),

@@ -79,6 +79,26 @@ def add_force_option(parser, what: str) -> None:
     )
 
 
+def add_figure_format(parser, *, embedded: bool = False) -> None:
+    """``--figure-format png|svg|pdf``: the file format of the figures a command writes.
+
+    Parameters
+    ----------
+    parser : argparse.ArgumentParser
+        The subcommand's parser.
+    embedded : bool, optional
+        The figures go inside an HTML report: png or svg only (a browser shows no embedded
+        pdf).
+    """
+    if embedded:
+        parser.add_argument("--figure-format", choices=("png", "svg"), default="png",
+                            help="format of the figures embedded in the report: png (default) "
+                                 "or svg (sharp at any zoom; pdf only for --plots folders)")
+    else:
+        parser.add_argument("--figure-format", choices=("png", "svg", "pdf"), default="png",
+                            help="file format of the figures: png (default), svg or pdf")
+
+
 def add_quiet(parser) -> None:
     """Give a subcommand the ``-q/--quiet`` option every command has.
 

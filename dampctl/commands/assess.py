@@ -10,6 +10,7 @@ from dampctl.analysis.assess_json import robustness_lines
 from dampctl.analysis.assessment import PHASE_MARGIN_CONVENTION, assess
 from dampctl.commands._common import (
     OPTION_RANGES,
+    add_figure_format,
     add_force_option,
     caution_lines,
     number_option,
@@ -74,6 +75,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument(
         "--plots", metavar="DIR", default=None, help="write PNG figures into DIR (default: none)"
     )
+    add_figure_format(parser)
     add_force_option(parser, "figures of the same names in DIR")
     parser.add_argument("--json", action="store_true", help="print JSON on stdout")
 
@@ -120,7 +122,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         from dampctl.report.figures import write_assessment_pngs
 
         written = write_assessment_pngs(
-            result, args.plots, inputs=(args.plant, args.design), replace=args.force
+            result, args.plots, inputs=(args.plant, args.design), replace=args.force,
+            figure_format=args.figure_format
         )
     tuned = design.info.get("delay_s")
     note = None

@@ -7,6 +7,7 @@ from typing import TextIO
 
 from dampctl.commands._common import (
     OPTION_RANGES,
+    add_figure_format,
     add_force_option,
     number_option,
     print_json,
@@ -56,6 +57,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         metavar="DIR",
         help="with --measured: write the plant-against-measurement FRF figures (PNG) into DIR",
     )
+    add_figure_format(parser)
     add_force_option(parser, "figures of the same names in DIR")
     parser.add_argument("--json", action="store_true", help="print JSON on stdout")
 
@@ -208,7 +210,8 @@ def _measured(args: argparse.Namespace, plant):
     if args.plots:
         from dampctl.report.figures_measured import comparison_pngs
 
-        written = write_files(args.plots, comparison_pngs(comparison), inputs=inputs,
+        figures = comparison_pngs(comparison, figure_format=args.figure_format)
+        written = write_files(args.plots, figures, inputs=inputs,
                               replace=args.force)
     return comparison, written
 

@@ -157,6 +157,7 @@ def main(
             return 2
         except SystemExit as exc:  # --help / --version
             return int(exc.code or 0)
+        args.argv = tuple(argv)  # the command line, for the files that record it (report)
         debug = debug or bool(getattr(args, "debug", False))
         if not getattr(args, "_run", None):
             parser.print_help(out)

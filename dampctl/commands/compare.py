@@ -8,6 +8,7 @@ from typing import TextIO
 
 from dampctl.commands._common import (
     SAFETY_LINES,
+    add_figure_format,
     add_force_option,
     name_list,
     print_json,
@@ -57,6 +58,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--plots", metavar="DIR",
                         help="write PNG figures into DIR: frf_overlay_<output>.png, "
                              "cost_vs_result.png")
+    add_figure_format(parser)
     add_force_option(parser, "the HTML file and figures of the same names")
     parser.add_argument("--json", action="store_true", help="print JSON on stdout")
 
@@ -112,7 +114,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if args.html or args.plots:
         from dampctl.report.figures_compare import comparison_pngs
 
-        figures = comparison_pngs(result)
+        figures = comparison_pngs(result, figure_format=args.figure_format)
     if args.plots:
         check_output_folder(args.plots, list(figures), inputs=inputs, replace=args.force)
         written += write_files(args.plots, figures, inputs=inputs, replace=args.force)

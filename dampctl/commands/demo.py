@@ -14,9 +14,15 @@ import time
 from pathlib import Path
 from typing import TextIO
 
-from dampctl.commands._common import SAFETY_LINES, add_force_option, json_text, print_json
+from dampctl.commands._common import (
+    SAFETY_LINES,
+    add_figure_format,
+    add_force_option,
+    json_text,
+    print_json,
+)
 from dampctl.commands.check import check_payload
-from dampctl.commands.report import report_html
+from dampctl.commands.report import provenance_of, report_html
 from dampctl.errors import DampctlError, OutputError
 from dampctl.fileio import write_files
 from dampctl.model.plantfile import parse_plant
@@ -40,6 +46,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     """
     parser.add_argument("-o", "--output", default="dampctl-demo", metavar="DIR",
                         help="folder to create for every file (default ./dampctl-demo)")
+    add_figure_format(parser)
     add_force_option(parser, "the demo's files in DIR (DIR is otherwise refused when it exists)")
     parser.add_argument("--json", action="store_true", help="print a JSON summary on stdout")
 
@@ -114,9 +121,13 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
 
     _say(err, quiet, "[6/6] report")
     sizing_dict = sizing.to_dict()
-    sizing_figs = sizing_pngs(sizing)
+    fmt = args.figure_format
+    embedded = "svg" if fmt == "svg" else "png"  # a browser shows no embedded pdf
     html, assessment = report_html(plant, design, sizing=sizing_dict,
-                                   sizing_figures=sizing_figs, export=export_summary)
+                                   export=export_summary, figure_format=embedded,
+                                   provenance=provenance_of(
+                                       getattr(args, "argv", None),
+                                       texts={"plant (bundled)": (PLANT_FILE, text)}))
 
     files = {
         PLANT_FILE: text,
@@ -126,13 +137,16 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         "assessment.json": json_text(assessment.to_dict(), "assessment"),
         "report.html": html,
     }
-    for name, png in {**assessment_pngs(assessment), **sizing_figs}.items():
-        files[f"plots/{name}"] = png
+    figures = {**assessment_pngs(assessment, figure_format=fmt),
+               **sizing_pngs(sizing, figure_format=fmt)}
+    for name, image in figures.items():
+        files[f"plots/{name}"] = image
     if not exported.refused:
         for name, content in export_files(exported).items():
             files[f"export/{name}"] = content
     # one set: a failure or an interrupt leaves the folder's old demo files or the new ones
-    written = write_files(folder, files, replace=args.force, owned=("plots/*.png", "export/*"))
+    owned = ("plots/*.png", "plots/*.svg", "plots/*.pdf", "export/*")
+    written = write_files(folder, files, replace=args.force, owned=owned)
     seconds = time.monotonic() - start
 
     damping = assessment.to_dict()

@@ -8,7 +8,7 @@ from typing import Any, TextIO
 
 import numpy as np
 
-from dampctl.commands._common import add_force_option, print_json, table
+from dampctl.commands._common import add_figure_format, add_force_option, print_json, table
 from dampctl.errors import UsageError
 from dampctl.fileio import check_output, check_output_folder, write_files, write_text
 from dampctl.model.measured import MEASURED_KINDS, load_frf
@@ -61,6 +61,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--plots", metavar="DIR",
                         help="write the stability chart and measured-vs-fitted FRFs (PNG) "
                              "into DIR (default: none)")
+    add_figure_format(parser)
     add_force_option(parser, "the plant file and figures of the same names in DIR")
     parser.add_argument("--json", action="store_true", help="print JSON on stdout")
 
@@ -270,7 +271,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if args.plots:
         from dampctl.report.figures_measured import fit_pngs
 
-        figures = fit_pngs(fit)
+        figures = fit_pngs(fit, figure_format=args.figure_format)
     if figures is not None:
         check_output_folder(args.plots, figures, inputs=[args.frf, args.output],
                             replace=args.force)

@@ -12,6 +12,7 @@ from typing import Any, TextIO
 from dampctl.analysis.assessment import assess
 from dampctl.commands._common import (
     OPTION_RANGES,
+    add_figure_format,
     add_force_option,
     jsonable,
     number_option,
@@ -45,6 +46,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("-o", "--output", required=True, metavar="FILE",
                         help="report file to write (HTML)")
     add_force_option(parser, "the report file")
+    add_figure_format(parser, embedded=True)
     parser.add_argument("--sizing", metavar="FILE",
                         help="sizing result saved from `dampctl size --json` (optional)")
     parser.add_argument("--export", metavar="FILE",
@@ -122,6 +124,8 @@ def report_html(
     delay_s: float | None = None,
     measured: MeasuredFRF | None = None,
     move: Mapping[str, Any] | None = None,
+    figure_format: str = "png",
+    provenance: Mapping[str, Any] | None = None,
 ) -> tuple[str, Any]:
     """Assess a design and render the HTML report.
 
@@ -144,6 +148,11 @@ def report_html(
     move : mapping, optional
         Keyword arguments of :func:`dampctl.report.movesettle.move_and_settle` (drive, output,
         distance_m, ...): adds the "Move and settle" section.
+    figure_format : str, optional
+        png (default) or svg: the format of the embedded figures.
+    provenance : mapping, optional
+        Date, command line and input files shown at the top (:func:`provenance_of`);
+        default the date alone.
 
     Returns
     -------
@@ -154,24 +163,31 @@ def report_html(
     """
     from dampctl.report.figures import assessment_pngs
 
+    if figure_format not in ("png", "svg"):
+        raise UsageError(f"figure format for a report: png or svg, got {figure_format!r} "
+                         "(pdf only for --plots folders)")
     design.check_plant(plant)
     result = assess(plant, design, delay_s=delay_s)
     figures = {}
     captions = {
-        "frf": "Frequency response at the output, open and closed loop",
-        "root_locus": "Closed-loop poles as the controller is scaled 0 to 3 times",
+        "frf": "Frequency response from a disturbance to an output, open and closed loop",
+        "loop_gain": "Loop gain L(jω) with crossovers and margins (Bode)",
+        "sensitivity": "Sensitivity |S| and complementary sensitivity |T| of the loop",
+        "root_locus": "Closed-loop poles as the controller is scaled 0 to 3 times (imaginary "
+        "part in Hz; right: damping against frequency)",
         "damping": "Damping ratio per mode, before and after",
         "nyquist": "Nyquist plot of the loop (broken at the plant input) with the critical point",
         "cumulative_rms": "Cumulative RMS motion against frequency",
         "third_octave": "One-third-octave velocity spectrum with vibration criterion levels",
     }
-    for name, png in assessment_pngs(result).items():
+    for name, png in assessment_pngs(result, figure_format=figure_format).items():
         stem = Path(name).stem
         key = next((k for k in captions if stem.startswith(k)), stem)
         detail = stem[len(key):].strip("_")
         figures[f"{captions.get(key, stem)}{' — ' + detail if detail else ''}"] = png
     if sizing is not None:
-        pngs = sizing_figures if sizing_figures is not None else _sizing_pngs(sizing)
+        pngs = (sizing_figures if sizing_figures is not None
+                else _sizing_pngs(sizing, figure_format))
         sizing_captions = {
             "sizing_damping_cost": "Sizing: smallest damping and cost against the number of pairs",
             "sizing_mode_damping": "Sizing: damping of each target mode for the best set of "
@@ -192,7 +208,8 @@ def report_html(
 
         comparison = compare_plant(plant, measured)
         check["measured"] = dict(comparison.to_dict(), file=measured.source)
-        for name, png in zip(comparison.channels, comparison_pngs(comparison).values(),
+        pngs = comparison_pngs(comparison, figure_format=figure_format)
+        for name, png in zip(comparison.channels, pngs.values(),
                              strict=True):
             figures[f"Plant against measurement — {name}"] = png
     inputs = ReportInputs(
@@ -204,6 +221,7 @@ def report_html(
         figures=figures,
         move=None if moved is None else jsonable(moved.summary),
         move_figure=None if moved is None else moved.figure,
+        provenance=provenance if provenance is not None else provenance_of(),
     )
     return render_report(inputs), result
 
@@ -244,8 +262,12 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
 
         measured = load_frf(args.measured, output_kinds=output_kinds(args.output_kind))
     move = _move_options(args)
+    roles = (("plant", args.plant), ("design", args.design), ("sizing", args.sizing),
+             ("export", args.export), ("measured FRFs", args.measured), ("shaper", args.shaper))
+    provenance = provenance_of(getattr(args, "argv", None), [(r, p) for r, p in roles if p])
     html, result = report_html(plant, design, sizing=sizing, export=export, delay_s=args.delay_s,
-                               measured=measured, move=move)
+                               measured=measured, move=move, figure_format=args.figure_format,
+                               provenance=provenance)
     path = write_text(args.output, html, inputs=inputs, replace=args.force)
     unmet = [r.name for r in result.unmet]
     if args.json:
@@ -255,6 +277,47 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         if unmet:
             out.write(f"requirements not met: {', '.join(unmet)}\n")
     return 0 if result.all_met else 1
+
+
+def provenance_of(argv=None, files=(), *, texts=None) -> dict[str, Any]:
+    """What a report records about how it was made: date, command line, input files.
+
+    Parameters
+    ----------
+    argv : sequence of str, optional
+        The arguments after ``dampctl`` (None: no command line recorded).
+    files : sequence of (str, str)
+        (role, path) of each input file; ``-`` is standard input (no digest: the plant
+        fingerprint identifies it).
+    texts : mapping of str to (str, str), optional
+        Role to (name, content) for inputs that are not files (the demo's bundled plant).
+
+    Returns
+    -------
+    dict
+        ``created`` (UTC, to the minute), ``command`` and ``inputs``
+        (``{"role", "path", "sha256"}``).
+    """
+    import datetime
+    import hashlib
+    import shlex
+
+    inputs = []
+    for role, path in files:
+        if path == "-":
+            inputs.append({"role": role, "path": "standard input", "sha256": None})
+            continue
+        try:
+            digest = hashlib.sha256(Path(path).read_bytes()).hexdigest()
+        except OSError:
+            digest = None
+        inputs.append({"role": role, "path": str(path), "sha256": digest})
+    for role, (name, content) in (texts or {}).items():
+        digest = hashlib.sha256(content.encode("utf-8")).hexdigest()
+        inputs.append({"role": role, "path": name, "sha256": digest})
+    now = datetime.datetime.now(datetime.UTC).strftime("%Y-%m-%d %H:%M UTC")
+    command = None if argv is None else "dampctl " + shlex.join(str(a) for a in argv)
+    return {"created": now, "command": command, "inputs": inputs}
 
 
 def _read_json(path: str, option: str) -> dict:
@@ -269,7 +332,7 @@ def _read_json(path: str, option: str) -> dict:
     return data
 
 
-def _sizing_pngs(sizing: Mapping[str, Any]) -> dict[str, bytes]:
+def _sizing_pngs(sizing: Mapping[str, Any], figure_format: str = "png") -> dict[str, bytes]:
     """Sizing figures drawn from the sizing JSON (the figures take the same fields)."""
     from dampctl.report.figures_sizing import sizing_pngs
 
@@ -287,4 +350,4 @@ def _sizing_pngs(sizing: Mapping[str, Any]) -> dict[str, bytes]:
                            target_damping=sizing.get("target_damping"),
                            recommended=sizing.get("recommended"),
                            modes=tuple(sizing.get("modes", ())))
-    return sizing_pngs(view)
+    return sizing_pngs(view, figure_format=figure_format)

@@ -6,7 +6,13 @@ import argparse
 import math
 from typing import TextIO
 
-from dampctl.commands._common import add_force_option, mode_list, print_json, table
+from dampctl.commands._common import (
+    add_figure_format,
+    add_force_option,
+    mode_list,
+    print_json,
+    table,
+)
 from dampctl.design import load_design
 from dampctl.errors import UsageError
 from dampctl.fileio import check_output, check_output_folder, write_files, write_text
@@ -45,7 +51,9 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                              "(default 0.05 = ±5 %%; 0 skips the check)")
     parser.add_argument("-o", "--output", required=True, metavar="FILE",
                         help="shaper file to write (JSON)")
-    parser.add_argument("--plots", metavar="DIR", help="write PNG figures into DIR")
+    parser.add_argument("--plots", metavar="DIR",
+                        help="write the figures into DIR (see --figure-format)")
+    add_figure_format(parser)
     add_force_option(parser, "the shaper file and figures of the same names in DIR")
     parser.add_argument("--json", action="store_true", help="print JSON on stdout")
 
@@ -94,7 +102,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     inputs = [p for p in (args.plant, args.design) if p]
     check_output(args.output, inputs=inputs, replace=args.force)
     if args.plots:
-        check_output_folder(args.plots, ["sensitivity.png", "impulses.png"], inputs=inputs,
+        check_output_folder(args.plots, [f"sensitivity.{args.figure_format}",
+                                          f"impulses.{args.figure_format}"], inputs=inputs,
                             replace=args.force)
     plant = load_plant(args.plant)
     design = None
@@ -107,8 +116,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if args.plots:
         from dampctl.report.figures_time import shaper_pngs
 
-        written = write_files(args.plots, shaper_pngs(result), inputs=inputs,
-                              replace=args.force)
+        figures = shaper_pngs(result, figure_format=args.figure_format)
+        written = write_files(args.plots, figures, inputs=inputs, replace=args.force)
     path = write_text(args.output, result.shaper.to_json(), inputs=inputs, replace=args.force)
     if args.json:
         payload = result.to_dict()

@@ -11,6 +11,7 @@ import numpy as np
 
 from dampctl.commands._common import (
     OPTION_RANGES,
+    add_figure_format,
     add_force_option,
     caution_lines,
     number_option,
@@ -76,7 +77,9 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                              "without one, 20 samples per period of the top mode)")
     parser.add_argument("--no-saturation", action="store_true",
                         help="do not clip actuator inputs at max_force_n (default: clip)")
-    parser.add_argument("--plots", metavar="DIR", help="write PNG figures into DIR")
+    parser.add_argument("--plots", metavar="DIR",
+                        help="write the figures into DIR (see --figure-format)")
+    add_figure_format(parser)
     add_force_option(parser, "figures of the same names in DIR")
     parser.add_argument("--json", action="store_true", help="print JSON on stdout")
 
@@ -234,9 +237,10 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if args.plots:
         from dampctl.report.figures_time import simulation_names, simulation_pngs
 
-        check_output_folder(args.plots, simulation_names(result), inputs=inputs,
+        fmt = args.figure_format
+        check_output_folder(args.plots, simulation_names(result, figure_format=fmt), inputs=inputs,
                             replace=args.force)
-        written = write_files(args.plots, simulation_pngs(result), inputs=inputs,
+        written = write_files(args.plots, simulation_pngs(result, figure_format=fmt), inputs=inputs,
                               replace=args.force)
     unstable = [r.loop for r in (result.open_loop, result.result) if r.diverged_s is not None]
     if args.json:

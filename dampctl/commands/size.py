@@ -8,6 +8,7 @@ from typing import TextIO
 from dampctl.commands._common import (
     OPTION_RANGES,
     SAFETY_LINES,
+    add_figure_format,
     add_force_option,
     mode_list,
     name_list,
@@ -83,6 +84,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="write PNG figures (damping and cost against pair count, damping per mode) to DIR "
         "(default none)",
     )
+    add_figure_format(parser)
     add_force_option(parser, "figures of the same names in DIR")
     passive = parser.add_argument_group("passive laws (tmd, shunt)")
     passive.add_argument(
@@ -123,7 +125,8 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if args.plots:
         from dampctl.report.figures_sizing import SIZING_FIGURES
 
-        check_output_folder(args.plots, SIZING_FIGURES, inputs=[args.plant], replace=args.force)
+        names = [n.replace(".png", "." + args.figure_format) for n in SIZING_FIGURES]
+        check_output_folder(args.plots, names, inputs=[args.plant], replace=args.force)
     if args.target_damping is not None and not 0.0 < args.target_damping < 1.0:
         raise UsageError(f"--target-damping must be in (0, 1), got {args.target_damping}")
     if args.max_pairs is not None and args.max_pairs < 1:
@@ -145,7 +148,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     if args.plots:
         from dampctl.report.figures_sizing import sizing_pngs
 
-        pngs = sizing_pngs(result)
+        pngs = sizing_pngs(result, figure_format=args.figure_format)
         files = write_files(args.plots, pngs, inputs=[args.plant], replace=args.force)
     payload = result.to_dict()
     payload["plots"] = [str(f) for f in files]

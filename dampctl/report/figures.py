@@ -1,20 +1,42 @@
-"""Figures of an assessment (matplotlib is imported here only).
+"""Figures of an assessment (matplotlib is imported in the report stage only).
 
-Every function draws on ``ax`` (a new figure when None) and returns a :class:`Drawn` with the
-figure, the axes and the artists it created. :func:`assessment_pngs` renders all figures to PNG
-bytes and :func:`write_assessment_pngs` writes them into a folder, all or none.
+Every function draws on ``ax`` (a new figure when None) and returns a
+:class:`~dampctl.report.style.Drawn` with the figure, the axes and the artists it created.
+:func:`assessment_pngs` renders all figures (PNG by default, or SVG/PDF) and
+:func:`write_assessment_pngs` writes them into a folder, all or none. The loop figures (Bode of
+the loop gain, |S| and |T|, Nyquist, root locus) live in :mod:`dampctl.report.figures_loop`.
 
-Style: plain lines, open loop thin grey dashed, closed loop solid dark blue, limits and the
-critical point in dark red; logarithmic frequency axes in Hz.
+Colours and line kinds: :mod:`dampctl.report.style` (open loop slate dashed, closed loop
+harbour blue, limits brick red); logarithmic frequency axes in Hz.
 """
 
 from __future__ import annotations
 
-import io
-from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
+
+from dampctl.report.figures_loop import (
+    plot_loop_gain,
+    plot_loop_sensitivity,
+    plot_nyquist,
+    plot_root_locus,
+)
+from dampctl.report.style import (
+    BRICK,
+    CLOSED_LOOP,
+    HARBOUR,
+    MIST,
+    OPEN_LOOP,
+    Drawn,
+    figure_name,
+    grid,
+    hz_label,
+    new_figure,
+    plain_ticks,
+    render,
+    safe_name,
+)
 
 __all__ = [
     "Drawn",
@@ -23,65 +45,27 @@ __all__ = [
     "plot_cumulative_rms",
     "plot_damping",
     "plot_frf",
+    "plot_loop_gain",
+    "plot_loop_sensitivity",
     "plot_nyquist",
     "plot_root_locus",
     "plot_third_octave",
     "write_assessment_pngs",
 ]
 
-OPEN = {"color": "0.45", "linestyle": "--", "linewidth": 1.0}
-CLOSED = {"color": "#1f3a93", "linestyle": "-", "linewidth": 1.4}
-MARK = "#9b1c1c"
+# names kept for the other figure modules
+OPEN = OPEN_LOOP
+CLOSED = CLOSED_LOOP
+MARK = BRICK
+_hz = hz_label
+_plain_ticks = plain_ticks
+_safe = safe_name
 
 
-@dataclass(frozen=True)
-class Drawn:
-    """What a plot function drew.
-
-    Attributes
-    ----------
-    figure : matplotlib.figure.Figure
-    ax : matplotlib.axes.Axes
-    artists : tuple
-        The lines, bars and markers created.
-    """
-
-    figure: object
-    ax: object
-    artists: tuple
-
-
-def _axes(ax, *, right: float = 0.96):
+def _axes(ax):
     if ax is None:
-        from matplotlib.figure import Figure
-
-        figure = Figure(figsize=(7.0, 4.2))
-        figure.subplots_adjust(left=0.12, right=right, bottom=0.15, top=0.91)
-        ax = figure.add_subplot()
+        return new_figure()
     return ax.figure, ax
-
-
-def _hz(freq_hz: float) -> str:
-    """A frequency for a tick label: 86.6 Hz, 462 Hz, 1632 Hz, 12.5 kHz (no exponents)."""
-    if freq_hz >= 1e4:
-        return f"{freq_hz / 1e3:.3g} kHz"
-    if freq_hz >= 100:
-        return f"{freq_hz:.0f} Hz"
-    return f"{freq_hz:.3g} Hz"
-
-
-def _plain_ticks(*, minor: bool = False):
-    """Log-axis tick labels as plain numbers (0.003, 0.05) instead of 3 × 10⁻³."""
-    from matplotlib.ticker import FuncFormatter
-
-    def label(value, _pos):
-        if value <= 0:
-            return ""
-        if minor and round(value / 10 ** np.floor(np.log10(value))) not in (2, 3, 5):
-            return ""
-        return f"{value:g}"
-
-    return FuncFormatter(label)
 
 
 #: SI prefixes for plot axes (a nm-scale RMS reads as 5.3 nm, not 0.53 × 1e-8 m)
@@ -109,8 +93,8 @@ def _within(f, values, band):
     return f[keep], values[keep]
 
 
-def plot_frf(assessment, output: int = 0, *, ax=None) -> Drawn:
-    """Open- and closed-loop FRF magnitude at one performance output.
+def plot_frf(assessment, output: int = 0, disturbance: int = 0, *, ax=None) -> Drawn:
+    """Open- and closed-loop FRF from one disturbance to one output: magnitude above phase.
 
     Parameters
     ----------
@@ -118,99 +102,58 @@ def plot_frf(assessment, output: int = 0, *, ax=None) -> Drawn:
         The assessment.
     output : int, optional
         Index of the output in ``assessment.curves.frf_outputs``.
-    ax : matplotlib Axes, optional
-        Where to draw.
+    disturbance : int, optional
+        Index of the input in ``assessment.curves.frf_inputs`` (the named disturbances, or
+        the actuators of a plant that names none).
+    ax : Axes or pair of Axes, optional
+        (magnitude, phase) axes; one Axes draws the magnitude only; default a new figure.
 
     Returns
     -------
     Drawn
+        ``ax`` is the (magnitude, phase) pair, or the one Axes given.
     """
-    figure, ax = _axes(ax)
     c = assessment.curves
+    if ax is None:
+        figure, (mag, ph) = new_figure(7.0, 5.4, rows=2, height_ratios=(3, 2))
+    elif isinstance(ax, tuple | list):
+        mag, ph = ax
+        figure = mag.figure
+    else:
+        figure, mag, ph = ax.figure, ax, None
     f = c.freq_hz
     band = _band(assessment)
-    a = ax.loglog(*_within(f, c.frf_open[output], band), label="open loop", **OPEN)
-    b = ax.loglog(*_within(f, c.frf_closed[output], band), label="closed loop", **CLOSED)
-    ax.set_xlabel("frequency (Hz)")
-    per = "N" if all(n in assessment.response.disturbances for n in c.frf_inputs) else "input"
-    ax.set_ylabel(f"|response| ({c.frf_units[output]} per {per})")
-    ax.set_title(f"{c.frf_outputs[output]}: response to {', '.join(c.frf_inputs)}")
-    ax.set_xlim(*_band(assessment))
-    ax.grid(True, alpha=0.3)
-    ax.legend(frameon=False)
-    return Drawn(figure, ax, (*a, *b))
-
-
-def plot_root_locus(assessment, *, ax=None, span: float = 3.0) -> Drawn:
-    """Closed-loop poles for the controller scaled 0 to 3×, with the design point marked.
-
-    Parameters
-    ----------
-    assessment : Assessment
-        The assessment (its ``curves.locus``).
-    ax : matplotlib Axes, optional
-        Where to draw.
-    span : float, optional
-        Imaginary-axis extent as a multiple of the highest mode plotted (zooms the view).
-
-    Returns
-    -------
-    Drawn
-    """
-    figure, ax = _axes(ax)
-    locus = assessment.curves.locus
-    poles = locus.poles
-    top = 2 * np.pi * max(m.open_freq_hz for m in assessment.modes) * 1.5
-    keep = np.abs(poles) <= top * span
-    colours = np.broadcast_to(locus.gains[:, None], poles.shape)
-    dots = ax.scatter(
-        poles.real[keep], poles.imag[keep], c=colours[keep], s=6, cmap="viridis", label="k = 0..3"
-    )
-    design = int(np.argmin(np.abs(locus.gains - 1.0)))
-    at = poles[design][np.abs(poles[design]) <= top * span]
-    star = ax.scatter(at.real, at.imag, marker="x", color=MARK, s=40, label="design (k = 1)")
-    start = poles[0][np.abs(poles[0]) <= top * span]
-    passive = getattr(assessment, "passive", False)  # the parts' dissipation is scaled
-    ring = ax.scatter(
-        start.real,
-        start.imag,
-        marker="o",
-        facecolors="none",
-        edgecolors="0.3",
-        s=30,
-        label="parts without damping (k = 0.001)" if passive else "open loop (k = 0)",
-    )
-    ax.axvline(0.0, color="0.6", linewidth=0.8)
-    # zoom on the structural modes (upper half plane): far-away roll-off and delay poles
-    # would otherwise squash the lightly damped branches against the axis
-    w_top = 2 * np.pi * max(m.open_freq_hz for m in assessment.modes)
-    ax.set_ylim(0.0, 1.25 * w_top)
-    left = _locus_left(poles, w_top)
-    ax.set_xlim(left, -0.12 * left)
-    ax.set_xlabel("real part (1/s)")
-    ax.set_ylabel("imaginary part (rad/s)")
-    what = "the parts' damping" if passive else "controller"
-    ax.set_title(f"closed-loop poles, {what} scaled 0 to 3x (modes' region)")
-    ax.grid(True, alpha=0.3)
-    ax.legend(frameon=False, loc="upper left")
-    figure.colorbar(dots, ax=ax, label="damping factor k" if passive else "gain factor k")
-    return Drawn(figure, ax, (dots, star, ring))
-
-
-def _locus_left(poles: np.ndarray, w_top: float) -> float:
-    """Left edge (1/s) of the root-locus view: just past the oscillating branches in view.
-
-    Poles with damping below 0.71 (|Re| < Im), an imaginary part above 2 % of the top mode and
-    inside the view's height are the structural branches; the view reaches 15 % beyond the
-    leftmost of them (at most 0.6 × the top mode, at least 2 % of it), so real-axis roll-off
-    and delay poles far to the left do not squash the lightly damped branches against the
-    imaginary axis.
-    """
-    p = np.asarray(poles).ravel()
-    oscillating = (p.imag > 0.02 * w_top) & (p.imag <= 1.25 * w_top) & (-p.real < p.imag)
-    branch = p[oscillating & np.isfinite(p)]
-    reach = float(-np.min(branch.real)) if branch.size else 0.6 * w_top
-    return -min(max(1.15 * reach, 0.02 * w_top), 0.6 * w_top)
+    keep = (f >= band[0] / 1.01) & (f <= band[1] * 1.01)
+    if c.frf_open_h is not None:
+        h_open = c.frf_open_h[output, disturbance]
+        h_closed = c.frf_closed_h[output, disturbance]
+    else:  # an assessment made before the complex FRFs were kept: magnitude only
+        h_open, h_closed, ph = c.frf_open[output], c.frf_closed[output], None
+    a = mag.loglog(f[keep], np.abs(h_open[keep]), label="open loop", **OPEN_LOOP)
+    b = mag.loglog(f[keep], np.abs(h_closed[keep]), label="closed loop", **CLOSED_LOOP)
+    artists = [*a, *b]
+    source = c.frf_inputs[disturbance]
+    per = "N" if source in assessment.response.disturbances else "input unit"
+    mag.set_ylabel(f"|H| ({c.frf_units[output]}/{per})")
+    mag.set_title(f"FRF from disturbance {source} to output {c.frf_outputs[output]}",
+                  fontsize=10)
+    mag.set_xlim(*band)
+    grid(mag, which="both")
+    mag.legend(frameon=False)
+    if ph is not None:
+        for h, style in ((h_open, OPEN_LOOP), (h_closed, CLOSED_LOOP)):
+            phase = np.degrees(np.unwrap(np.angle(h[keep])))
+            phase -= 360.0 * np.round(phase[0] / 360.0)
+            artists += ph.semilogx(f[keep], phase, **style)
+        ph.set_ylabel("phase (deg)")
+        ph.set_xlabel("frequency (Hz)")
+        ph.xaxis.set_major_formatter(plain_ticks())
+        low, high = ph.get_ylim()
+        ph.set_yticks(np.arange(90 * np.ceil(low / 90), high + 1, 90))
+        grid(ph, which="both")
+    else:
+        mag.set_xlabel("frequency (Hz)")
+    return Drawn(figure, mag if ph is None else (mag, ph), tuple(artists))
 
 
 def plot_damping(assessment, *, ax=None) -> Drawn:
@@ -232,8 +175,8 @@ def plot_damping(assessment, *, ax=None) -> Drawn:
     x = np.arange(len(modes))
     before = [max(m.open_damping, 1e-6) for m in modes]
     after = [max(m.closed_damping, 1e-6) for m in modes]
-    b1 = ax.bar(x - 0.2, before, width=0.4, color="0.7", label="open loop")
-    b2 = ax.bar(x + 0.2, after, width=0.4, color=CLOSED["color"], label="closed loop")
+    b1 = ax.bar(x - 0.2, before, width=0.4, color=MIST, label="open loop")
+    b2 = ax.bar(x + 0.2, after, width=0.4, color=HARBOUR, label="closed loop")
     ax.set_yscale("log")
     ax.set_xticks(x, [f"{m.mode}\n{_hz(m.open_freq_hz)}" for m in modes])
     ax.yaxis.set_major_formatter(_plain_ticks())
@@ -241,50 +184,9 @@ def plot_damping(assessment, *, ax=None) -> Drawn:
     ax.set_xlabel("mode")
     ax.set_ylabel("damping ratio")
     ax.set_title("damping per mode")
-    ax.grid(True, axis="y", which="both", alpha=0.3)
+    grid(ax, axis="y", which="both")
     ax.legend(frameon=False)
     return Drawn(figure, ax, (b1, b2))
-
-
-def plot_nyquist(assessment, loop: int = 0, *, ax=None) -> Drawn:
-    """Nyquist plot of one loop (broken at the plant input) with the critical point −1.
-
-    Parameters
-    ----------
-    assessment : Assessment
-        The assessment.
-    loop : int, optional
-        Loop index.
-    ax : matplotlib Axes, optional
-        Where to draw.
-
-    Returns
-    -------
-    Drawn
-    """
-    figure, ax = _axes(ax)
-    L = assessment.curves.loops[loop]
-    line = ax.plot(L.real, L.imag, **CLOSED, label="L(jw), w > 0")
-    mirror = ax.plot(
-        L.real, -L.imag, color=CLOSED["color"], linewidth=0.6, alpha=0.4, label="w < 0 (mirror)"
-    )
-    crit = ax.plot(
-        [-1.0], [0.0], marker="+", color=MARK, markersize=12, mew=2, linestyle="none", label="-1"
-    )
-    theta = np.linspace(0, 2 * np.pi, 200)
-    circle = ax.plot(np.cos(theta), np.sin(theta), color="0.7", linewidth=0.8, label="|L| = 1")
-    largest = float(np.max(np.abs(L)))
-    reach = max(2.0, min(largest, 20.0))
-    ax.set_xlim(-reach, reach)
-    ax.set_ylim(-reach, reach)
-    ax.set_aspect("equal")
-    ax.set_xlabel("real")
-    ax.set_ylabel("imaginary")
-    clipped = " (view clipped at |L| = 20)" if largest > reach * 1.05 else ""
-    ax.set_title(f"Nyquist, loop {assessment.pairs[loop]}{clipped}")
-    ax.grid(True, alpha=0.3)
-    ax.legend(loc="best", framealpha=0.85, fontsize="small")
-    return Drawn(figure, ax, (*line, *mirror, *crit, *circle))
 
 
 def plot_cumulative_rms(assessment, output: int = 0, *, ax=None) -> Drawn:
@@ -330,9 +232,10 @@ def plot_cumulative_rms(assessment, output: int = 0, *, ax=None) -> Drawn:
         )
     ax.set_xlabel("frequency (Hz)")
     ax.set_ylabel(f"cumulative RMS ({unit})")
+    ax.xaxis.set_major_formatter(plain_ticks())
     ax.set_title(f"{o.output}: cumulative RMS")
     ax.set_xlim(*_band(assessment))
-    ax.grid(True, alpha=0.3)
+    grid(ax)
     ax.legend(frameon=False, loc="upper left")
     return Drawn(figure, ax, tuple(artists))
 
@@ -355,15 +258,13 @@ def plot_third_octave(assessment, output: int = 0, *, ax=None) -> Drawn:
     """
     from dampctl.analysis.vc import NOMINAL_CENTRES_HZ, VC_CURVES
 
-    figure, ax = _axes(ax, right=0.8)
+    figure, ax = _axes(ax)
     o = assessment.response.outputs[output]
     if o.band_rms_closed is None:
         raise ValueError(f"output {o.output!r} is not a velocity output")
     x = np.arange(len(NOMINAL_CENTRES_HZ))
-    a = ax.bar(x - 0.2, o.band_rms_open * 1e6, width=0.4, color="0.7", label="open loop")
-    b = ax.bar(
-        x + 0.2, o.band_rms_closed * 1e6, width=0.4, color=CLOSED["color"], label="closed loop"
-    )
+    a = ax.bar(x - 0.2, o.band_rms_open * 1e6, width=0.4, color=MIST, label="open loop")
+    b = ax.bar(x + 0.2, o.band_rms_closed * 1e6, width=0.4, color=HARBOUR, label="closed loop")
     top = max(float(np.max(o.band_rms_open)), float(np.max(o.band_rms_closed))) * 1e6
     low = min(float(np.min(o.band_rms_closed)), float(np.min(o.band_rms_open))) * 1e6
     lines = []
@@ -381,7 +282,7 @@ def plot_third_octave(assessment, output: int = 0, *, ax=None) -> Drawn:
     ax.set_yscale("log")
     ax.set_xticks(x, [f"{c:g}" for c in NOMINAL_CENTRES_HZ], rotation=60, fontsize=8)
     ax.set_xlabel("one-third-octave band centre (Hz)")
-    ax.set_ylabel("rms velocity (um/s)")
+    ax.set_ylabel("rms velocity (µm/s)")
     met = o.vc_closed.curve or "none"
     ax.set_title(f"{o.output}: velocity spectrum, closed loop meets {met}")
     ax.legend(frameon=False, loc="upper left")
@@ -408,49 +309,62 @@ def assessment_limit(assessment, output: str) -> float | None:
     return None
 
 
-def _png(drawn: Drawn) -> bytes:
-    buffer = io.BytesIO()
-    drawn.figure.savefig(buffer, format="png", dpi=110)
-    return buffer.getvalue()
+def _plans(assessment):
+    """(file stem, drawing) of every figure of an assessment, in report order."""
+    c = assessment.curves
+    several = len(c.frf_inputs) > 1
+    for k, name in enumerate(c.frf_outputs):
+        for d, source in enumerate(c.frf_inputs):
+            stem = f"frf_{safe_name(name)}" + (f"_{safe_name(source)}" if several else "")
+            yield stem, (lambda k=k, d=d: plot_frf(assessment, k, d))
+    for k in range(c.loops.shape[0]):
+        pair = safe_name(assessment.pairs[k])
+        yield f"loop_gain_{pair}", (lambda k=k: plot_loop_gain(assessment, k))
+        yield f"sensitivity_{pair}", (lambda k=k: plot_loop_sensitivity(assessment, k))
+        yield f"nyquist_{pair}", (lambda k=k: plot_nyquist(assessment, k))
+    yield "root_locus", (lambda: plot_root_locus(assessment))
+    yield "damping", (lambda: plot_damping(assessment))
+    for k, o in enumerate(assessment.response.outputs):
+        name = safe_name(o.output)
+        yield f"cumulative_rms_{name}", (lambda k=k: plot_cumulative_rms(assessment, k))
+        if o.band_rms_closed is not None:
+            yield f"third_octave_{name}", (lambda k=k: plot_third_octave(assessment, k))
 
 
-def _safe(name: str) -> str:
-    return "".join(ch if ch.isalnum() or ch in "-_" else "_" for ch in name)
-
-
-def assessment_pngs(assessment) -> dict[str, bytes]:
-    """Render every figure of an assessment to PNG bytes.
+def assessment_pngs(assessment, *, figure_format: str = "png") -> dict[str, bytes]:
+    """Render every figure of an assessment (PNG unless told otherwise).
 
     Parameters
     ----------
     assessment : Assessment
         The assessment.
+    figure_format : str, optional
+        png (default), svg or pdf.
 
     Returns
     -------
     dict of str to bytes
-        File name to PNG content: ``frf_<output>.png``, ``root_locus.png``, ``damping.png``,
-        ``nyquist_<loop>.png``, ``cumulative_rms_<output>.png`` and, for velocity outputs,
-        ``third_octave_<output>.png``.
+        File name to content: ``frf_<output>`` (``frf_<output>_<disturbance>`` when there are
+        several disturbances), per loop ``loop_gain_<pair>``, ``sensitivity_<pair>`` and
+        ``nyquist_<pair>``, then ``root_locus``, ``damping``, ``cumulative_rms_<output>``
+        and, for velocity outputs, ``third_octave_<output>``; each with the format's extension.
     """
     files = {}
-    for k, name in enumerate(assessment.curves.frf_outputs):
-        files[f"frf_{_safe(name)}.png"] = _png(plot_frf(assessment, k))
-    files["root_locus.png"] = _png(plot_root_locus(assessment))
-    files["damping.png"] = _png(plot_damping(assessment))
-    for k, name in enumerate(assessment.pairs):
-        files[f"nyquist_{_safe(name)}.png"] = _png(plot_nyquist(assessment, k))
-    for k, o in enumerate(assessment.response.outputs):
-        files[f"cumulative_rms_{_safe(o.output)}.png"] = _png(plot_cumulative_rms(assessment, k))
-        if o.band_rms_closed is not None:
-            files[f"third_octave_{_safe(o.output)}.png"] = _png(plot_third_octave(assessment, k))
+    for stem, draw in _plans(assessment):
+        drawn = draw()
+        files[figure_name(stem, figure_format)] = render(drawn.figure, figure_format)
     return files
 
 
 def write_assessment_pngs(
-    assessment, folder: str | Path, *, inputs=(), replace: bool = False
+    assessment,
+    folder: str | Path,
+    *,
+    inputs=(),
+    replace: bool = False,
+    figure_format: str = "png",
 ) -> list[Path]:
-    """Write every figure of an assessment as PNG into ``folder``, all or none.
+    """Write every figure of an assessment into ``folder``, all or none.
 
     Parameters
     ----------
@@ -462,6 +376,8 @@ def write_assessment_pngs(
         Input files that must not be overwritten.
     replace : bool, optional
         Replace existing files of the same names.
+    figure_format : str, optional
+        png (default), svg or pdf.
 
     Returns
     -------
@@ -471,16 +387,11 @@ def write_assessment_pngs(
     from dampctl.fileio import check_output_folder, write_files
 
     # refuse before spending time on rendering
-    check_output_folder(folder, _names(assessment), inputs=inputs, replace=replace)
-    return write_files(folder, assessment_pngs(assessment), inputs=inputs, replace=replace)
+    names = _names(assessment, figure_format)
+    check_output_folder(folder, names, inputs=inputs, replace=replace)
+    files = assessment_pngs(assessment, figure_format=figure_format)
+    return write_files(folder, files, inputs=inputs, replace=replace)
 
 
-def _names(assessment) -> list[str]:
-    names = [f"frf_{_safe(n)}.png" for n in assessment.curves.frf_outputs]
-    names += ["root_locus.png", "damping.png"]
-    names += [f"nyquist_{_safe(n)}.png" for n in assessment.pairs]
-    for o in assessment.response.outputs:
-        names.append(f"cumulative_rms_{_safe(o.output)}.png")
-        if o.band_rms_closed is not None:
-            names.append(f"third_octave_{_safe(o.output)}.png")
-    return names
+def _names(assessment, figure_format: str = "png") -> list[str]:
+    return [figure_name(stem, figure_format) for stem, _ in _plans(assessment)]

@@ -15,7 +15,11 @@ from pathlib import Path
 
 import numpy as np
 
-from dampctl.report.figures import OPEN, Drawn, _axes, _plain_ticks, _png, _safe
+from dampctl.report.figures import _axes
+from dampctl.report.style import OPEN_LOOP as OPEN
+from dampctl.report.style import SERIES, Drawn, figure_name, render
+from dampctl.report.style import plain_ticks as _plain_ticks
+from dampctl.report.style import safe_name as _safe
 
 __all__ = [
     "comparison_pngs",
@@ -90,10 +94,8 @@ def plot_frf_overlay(
 
 
 def _colours(n: int):
-    from matplotlib import colormaps
-
-    cmap = colormaps["viridis"]
-    return [cmap(0.1 + 0.8 * k / max(n - 1, 1)) for k in range(n)]
+    """The palette's series colours, repeated past six."""
+    return [SERIES[k % len(SERIES)] for k in range(n)]
 
 
 def plot_cost_result(comparison, *, output: int = 0, ax=None) -> Drawn:
@@ -171,13 +173,15 @@ def plot_cost_result(comparison, *, output: int = 0, ax=None) -> Drawn:
     return Drawn(figure, axes[0], tuple(artists))
 
 
-def comparison_pngs(comparison) -> dict[str, bytes]:
-    """Every figure of a comparison as PNG bytes.
+def comparison_pngs(comparison, *, figure_format: str = "png") -> dict[str, bytes]:
+    """Every figure of a comparison (PNG unless told otherwise).
 
     Parameters
     ----------
     comparison : Comparison
         The comparison.
+    figure_format : str, optional
+        png (default), svg or pdf; the names' extension follows it.
 
     Returns
     -------
@@ -196,8 +200,10 @@ def comparison_pngs(comparison) -> dict[str, bytes]:
             comparison.freq_hz, curves, open_curve=comparison.open_frf[k], kinds=kinds,
             output=name, unit=comparison.output_units[k],
         )
-        files[f"frf_overlay_{_safe(name)}.png"] = _png(drawn)
-    files["cost_vs_result.png"] = _png(plot_cost_result(comparison))
+        files[figure_name(f"frf_overlay_{_safe(name)}", figure_format)] = render(
+            drawn.figure, figure_format)
+    files[figure_name("cost_vs_result", figure_format)] = render(
+        plot_cost_result(comparison).figure, figure_format)
     return files
 
 

@@ -13,12 +13,14 @@ from __future__ import annotations
 
 import numpy as np
 
-from dampctl.report.figures import CLOSED, MARK, Drawn
+from dampctl.report.style import BRICK as MARK
+from dampctl.report.style import CLOSED_LOOP as CLOSED
+from dampctl.report.style import MIST, SLATE, Drawn, figure_name, render
 
 __all__ = ["comparison_pngs", "fit_pngs", "plot_frf_match", "plot_stability_chart"]
 
-MEASURED = {"color": "0.7", "linestyle": "-", "linewidth": 2.6}
-MEASURED_POINTS = {"color": "0.6", "linestyle": "none", "marker": ".", "markersize": 2.5}
+MEASURED = {"color": MIST, "linestyle": "-", "linewidth": 2.6}
+MEASURED_POINTS = {"color": SLATE, "linestyle": "none", "marker": ".", "markersize": 2.5}
 
 
 def _figure(rows: int = 1, *, height: float = 4.2):
@@ -62,8 +64,8 @@ def plot_stability_chart(fit, *, ax=None) -> Drawn:
         for key, mask in zip(groups, (none, fo, fd, full), strict=True):
             groups[key].append(np.column_stack([f[mask], o[mask]]))
     styles = {
-        "new or moving": {"marker": ".", "color": "0.7", "markersize": 4},
-        "frequency stable": {"marker": "o", "color": "0.45", "markersize": 5,
+        "new or moving": {"marker": ".", "color": MIST, "markersize": 4},
+        "frequency stable": {"marker": "o", "color": SLATE, "markersize": 5,
                              "markerfacecolor": "none"},
         "frequency and damping stable": {"marker": "o", "color": CLOSED["color"],
                                          "markersize": 5, "markerfacecolor": "none"},
@@ -154,12 +156,8 @@ def plot_frf_match(
     return Drawn(figure, tuple(axes), (*a, *b, *c, *d))
 
 
-def _png(drawn: Drawn) -> bytes:
-    import io
-
-    buffer = io.BytesIO()
-    drawn.figure.savefig(buffer, format="png", dpi=110)
-    return buffer.getvalue()
+def _png(drawn: Drawn, figure_format: str = "png") -> bytes:
+    return render(drawn.figure, figure_format)
 
 
 def _safe(name: str) -> str:
@@ -169,13 +167,15 @@ def _safe(name: str) -> str:
 _UNITS = {"displacement": "m/N", "velocity": "m/s/N", "acceleration": "m/s^2/N", "force": "N/N"}
 
 
-def fit_pngs(fit) -> dict[str, bytes]:
-    """Every figure of a modal fit, as PNG bytes.
+def fit_pngs(fit, *, figure_format: str = "png") -> dict[str, bytes]:
+    """Every figure of a modal fit (PNG unless told otherwise).
 
     Parameters
     ----------
     fit : ModalFit
         The fit.
+    figure_format : str, optional
+        png (default), svg or pdf; the names' extension follows it.
 
     Returns
     -------
@@ -183,7 +183,8 @@ def fit_pngs(fit) -> dict[str, bytes]:
         ``stability_chart.png`` and ``fit_<output>_<input>.png`` per channel (measured and
         fitted magnitude and phase; the fit with its residual terms).
     """
-    files = {"stability_chart.png": _png(plot_stability_chart(fit))}
+    fmt = figure_format
+    files = {figure_name("stability_chart", fmt): _png(plot_stability_chart(fit), fmt)}
     m = fit.measured
     model = fit.model_frf()
     for o, out in enumerate(m.outputs):
@@ -192,17 +193,19 @@ def fit_pngs(fit) -> dict[str, bytes]:
             drawn = plot_frf_match(m.freq_hz, m.frf[o, j], model[o, j],
                                    unit=_UNITS[m.output_kinds[o]], model_label="fit",
                                    title=f"{out}/{inp}: fit error {error:.1%}")
-            files[f"fit_{_safe(out)}_{_safe(inp)}.png"] = _png(drawn)
+            files[figure_name(f"fit_{_safe(out)}_{_safe(inp)}", fmt)] = _png(drawn, fmt)
     return files
 
 
-def comparison_pngs(comparison) -> dict[str, bytes]:
-    """Every figure of a plant held against measurement, as PNG bytes.
+def comparison_pngs(comparison, *, figure_format: str = "png") -> dict[str, bytes]:
+    """Every figure of a plant held against measurement (PNG unless told otherwise).
 
     Parameters
     ----------
     comparison : PlantComparison
         The comparison (:func:`dampctl.model.comparison.compare_plant`).
+    figure_format : str, optional
+        png (default), svg or pdf; the names' extension follows it.
 
     Returns
     -------
@@ -216,5 +219,6 @@ def comparison_pngs(comparison) -> dict[str, bytes]:
                                unit=comparison.units[k], model_label="plant",
                                title=f"{name}: plant against measurement, error {error:.1%}")
         out, _, inp = name.partition("/")
-        files[f"measured_{_safe(out)}_{_safe(inp)}.png"] = _png(drawn)
+        files[figure_name(f"measured_{_safe(out)}_{_safe(inp)}", figure_format)] = _png(
+            drawn, figure_format)
     return files

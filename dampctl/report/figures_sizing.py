@@ -6,9 +6,9 @@ Each function takes ``ax=None`` (a new figure is made) and returns a dict of its
 
 from __future__ import annotations
 
-import io
-
 import numpy as np
+
+from dampctl.report.style import AMBER, BRICK, HARBOUR, MIST, SLATE, grid, render, series_style
 
 __all__ = ["SIZING_FIGURES", "plot_damping_and_cost", "plot_mode_damping", "sizing_pngs"]
 
@@ -43,23 +43,23 @@ def plot_damping_and_cost(result, ax=None) -> dict:
     """
     figure, ax = _axes(ax)
     k = [r.pairs_used for r in result.rows]
-    design = ax.plot(k, [r.min_damping for r in result.rows], "o-", label="min damping (design)")
-    best = ax.plot(
-        k, [r.achievable_min_damping for r in result.rows], "s--", label="min damping (maximized)"
-    )
+    design = ax.plot(k, [r.min_damping for r in result.rows], "o-", color=HARBOUR,
+                     label="min damping (design)")
+    best = ax.plot(k, [r.achievable_min_damping for r in result.rows], "s--", color=SLATE,
+                   label="min damping (maximized)")
     target = None
     if result.target_damping is not None:
-        target = ax.axhline(result.target_damping, color="0.4", lw=1, ls=":", label="target")
+        target = ax.axhline(result.target_damping, color=BRICK, lw=1, ls=":", label="target")
     chosen = None
     if result.recommended is not None:
         chosen = ax.axvline(
-            result.recommended, color="0.7", lw=6, alpha=0.4, zorder=0, label="recommended"
+            result.recommended, color=MIST, lw=6, alpha=0.6, zorder=0, label="recommended"
         )
     ax.set_xlabel("number of pairs")
     ax.set_ylabel("smallest damping ratio over target modes")
     ax.set_xticks(k)
     twin = ax.twinx()
-    cost = twin.plot(k, [r.cost for r in result.rows], "^-", color="tab:red", label="cost")
+    cost = twin.plot(k, [r.cost for r in result.rows], "^-", color=AMBER, label="cost")
     twin.set_ylabel("total cost of actuators and sensors")
     # both axes from zero: a single row or a flat curve is not blown up to fill the frame
     damping_top = max([r.achievable_min_damping for r in result.rows]
@@ -68,6 +68,7 @@ def plot_damping_and_cost(result, ax=None) -> dict:
     twin.set_ylim(0.0, 1.5 * max(max(r.cost for r in result.rows), 1.0))
     handles = design + best + cost + [h for h in (target, chosen) if h is not None]
     ax.legend(handles=handles, loc="upper left", fontsize="small")
+    grid(ax)
     ax.set_title(f"{result.law.upper()}: damping and cost against pair count")
     return {
         "figure": figure,
@@ -104,37 +105,39 @@ def plot_mode_damping(result, ax=None) -> dict:
                 x + (j - (len(result.rows) - 1) / 2) * width,
                 values,
                 width,
+                color=series_style(j)["color"],
                 label=f"{row.pairs_used} pair(s): {', '.join(row.chosen)}",
             )
         )
     target = None
     if result.target_damping is not None:
-        target = ax.axhline(result.target_damping, color="0.3", lw=1, ls=":", label="target")
+        target = ax.axhline(result.target_damping, color=BRICK, lw=1, ls=":", label="target")
     ax.set_xticks(x, [str(m) for m in modes])
     ax.set_xlabel("target mode")
     ax.set_ylabel("closed-loop damping ratio")
     ax.legend(fontsize="x-small")
+    grid(ax, axis="y")
     ax.set_title("damping of each target mode for the best set of each size")
     return {"figure": figure, "axes": ax, "bars": tuple(bars), "target": target}
 
 
-def sizing_pngs(result) -> dict[str, bytes]:
-    """PNG bytes of both sizing figures, keyed by file name.
+def sizing_pngs(result, *, figure_format: str = "png") -> dict[str, bytes]:
+    """Both sizing figures rendered (PNG unless told otherwise), keyed by file name.
 
     Parameters
     ----------
     result : SizingResult
         The sizing result.
+    figure_format : str, optional
+        png (default), svg or pdf: the extension of the names changes with it.
 
     Returns
     -------
     dict of str to bytes
-        ``sizing_damping_cost.png`` and ``sizing_mode_damping.png``.
+        ``sizing_damping_cost`` and ``sizing_mode_damping`` with the format's extension.
     """
     out = {}
     for name, plot in zip(SIZING_FIGURES, (plot_damping_and_cost, plot_mode_damping), strict=True):
         figure = plot(result)["figure"]
-        buffer = io.BytesIO()
-        figure.savefig(buffer, format="png", dpi=110)
-        out[name] = buffer.getvalue()
+        out[name.replace(".png", "." + figure_format)] = render(figure, figure_format)
     return out

@@ -12,12 +12,23 @@ limits and tolerances dark red; the settling band a light band about the static 
 
 from __future__ import annotations
 
-import io
 from collections.abc import Mapping, Sequence
 
 import numpy as np
 
-from dampctl.report.figures import CLOSED, MARK, OPEN, Drawn
+from dampctl.report.style import (
+    AMBER,
+    HARBOUR,
+    PINE,
+    SERIES,
+    SLATE,
+    Drawn,
+    figure_name,
+    render,
+)
+from dampctl.report.style import BRICK as MARK
+from dampctl.report.style import CLOSED_LOOP as CLOSED
+from dampctl.report.style import OPEN_LOOP as OPEN
 
 __all__ = [
     "plot_forces",
@@ -32,13 +43,13 @@ __all__ = [
 
 #: line styles of the four runs of a move comparison, in order
 COMPARE = (
-    {"color": "0.45", "linestyle": "--", "linewidth": 1.0},
-    {"color": "#b35c00", "linestyle": "-.", "linewidth": 1.1},
-    {"color": "#1f3a93", "linestyle": "-", "linewidth": 1.4},
-    {"color": "#117a3d", "linestyle": "-", "linewidth": 1.2},
+    {"color": SLATE, "linestyle": "--", "linewidth": 1.0},
+    {"color": AMBER, "linestyle": "-.", "linewidth": 1.1},
+    {"color": HARBOUR, "linestyle": "-", "linewidth": 1.4},
+    {"color": PINE, "linestyle": "-", "linewidth": 1.2},
 )
 _PREFIXES = ((1e-9, "n"), (1e-6, "µ"), (1e-3, "m"), (1.0, ""))
-_COLOURS = ("#1f3a93", "#b35c00", "#117a3d", "#6a1b9a", "#00838f", "#5d4037")
+_COLOURS = SERIES
 
 
 def _axes(ax):
@@ -279,7 +290,10 @@ def plot_impulses(shaper, *, ax=None) -> Drawn:
     """
     figure, ax = _axes(ax)
     t = np.asarray(shaper.times_s) * 1e3
-    stems = ax.stem(t, shaper.amplitudes, linefmt="C0-", markerfmt="o", basefmt="k-")
+    stems = ax.stem(t, shaper.amplitudes, linefmt="-", markerfmt="o", basefmt="-")
+    stems.stemlines.set_color(HARBOUR)
+    stems.markerline.set_color(HARBOUR)
+    stems.baseline.set_color(SLATE)
     ax.set_xlabel("time (ms)")
     ax.set_ylabel("amplitude")
     ax.set_title(f"{shaper.kind.upper()} shaper: {t.size} impulses over "
@@ -288,34 +302,37 @@ def plot_impulses(shaper, *, ax=None) -> Drawn:
     return Drawn(figure, ax, (stems,))
 
 
-def _png(drawn: Drawn) -> bytes:
-    buffer = io.BytesIO()
-    drawn.figure.savefig(buffer, format="png", dpi=110)
-    return buffer.getvalue()
+def _png(drawn: Drawn, figure_format: str = "png") -> bytes:
+    return render(drawn.figure, figure_format)
 
 
 def _safe(name: str) -> str:
     return "".join(ch if ch.isalnum() or ch in "-_" else "_" for ch in name)
 
 
-def simulation_names(simulation) -> list[str]:
+def simulation_names(simulation, *, figure_format: str = "png") -> list[str]:
     """File names :func:`simulation_pngs` writes.
 
     Parameters
     ----------
     simulation : Simulation
         The simulation.
+    figure_format : str, optional
+        png (default), svg or pdf.
 
     Returns
     -------
     list of str
     """
     stem = "move" if simulation.kind == "move" else "response"
-    return [f"{stem}_{_safe(o.name)}.png" for o in simulation.result.outputs] + ["force.png"]
+    names = [f"{stem}_{_safe(o.name)}" for o in simulation.result.outputs] + ["force"]
+    return [figure_name(n, figure_format) for n in names]
 
 
-def simulation_pngs(simulation, outputs: Sequence[str] | None = None) -> dict[str, bytes]:
-    """Every figure of a simulation as PNG bytes.
+def simulation_pngs(
+    simulation, outputs: Sequence[str] | None = None, *, figure_format: str = "png"
+) -> dict[str, bytes]:
+    """Every figure of a simulation (PNG unless told otherwise).
 
     Parameters
     ----------
@@ -323,6 +340,8 @@ def simulation_pngs(simulation, outputs: Sequence[str] | None = None) -> dict[st
         The simulation.
     outputs : sequence of str, optional
         Outputs to draw (default all).
+    figure_format : str, optional
+        png (default), svg or pdf; the names' extension follows it.
 
     Returns
     -------
@@ -331,23 +350,28 @@ def simulation_pngs(simulation, outputs: Sequence[str] | None = None) -> dict[st
     """
     stem = "move" if simulation.kind == "move" else "response"
     names = [o.name for o in simulation.result.outputs] if outputs is None else list(outputs)
-    files = {f"{stem}_{_safe(n)}.png": _png(plot_response(simulation, n)) for n in names}
-    files["force.png"] = _png(plot_forces(simulation))
+    fmt = figure_format
+    files = {figure_name(f"{stem}_{_safe(n)}", fmt): _png(plot_response(simulation, n), fmt)
+             for n in names}
+    files[figure_name("force", fmt)] = _png(plot_forces(simulation), fmt)
     return files
 
 
-def shaper_pngs(design) -> dict[str, bytes]:
-    """The sensitivity and impulse figures of a shaper design as PNG bytes.
+def shaper_pngs(design, *, figure_format: str = "png") -> dict[str, bytes]:
+    """The sensitivity and impulse figures of a shaper design (PNG unless told otherwise).
 
     Parameters
     ----------
     design : ShaperDesign
         The shaper design.
+    figure_format : str, optional
+        png (default), svg or pdf; the names' extension follows it.
 
     Returns
     -------
     dict of str to bytes
         ``sensitivity.png`` and ``impulses.png``.
     """
-    return {"sensitivity.png": _png(plot_sensitivity(design)),
-            "impulses.png": _png(plot_impulses(design.shaper))}
+    fmt = figure_format
+    return {figure_name("sensitivity", fmt): _png(plot_sensitivity(design), fmt),
+            figure_name("impulses", fmt): _png(plot_impulses(design.shaper), fmt)}

@@ -11,6 +11,7 @@ from __future__ import annotations
 import base64
 import html
 import math
+import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
@@ -41,13 +42,34 @@ td.text, th.text { text-align: left; }
 .met { color: #116b2f; font-weight: 600; }
 .unmet { color: #a4161a; font-weight: 600; }
 .note { color: #555; font-size: 0.9em; }
-figure { display: inline-block; margin: 0.5em 1em 1em 0; }
-figure img { max-width: 520px; border: 1px solid #ddd; }
-figcaption { font-size: 0.88em; color: #444; }
-code { background: #f3f3f3; padding: 0 0.2em; }
+td:not(.text), .num { white-space: nowrap; }
+td.formula { white-space: normal; min-width: 16em; }
+.scroll { overflow-x: auto; max-width: 100%; }
+figure { display: inline-block; margin: 0.5em 1em 1em 0; max-width: 100%; }
+figure img { max-width: min(520px, 100%); height: auto; border: 1px solid #ddd; }
+figure.wide img { max-width: 100%; }
+figcaption { font-size: 0.88em; color: #444; max-width: 520px; }
+code { background: #f3f3f3; padding: 0 0.2em; overflow-wrap: anywhere; }
 details { margin: 0.4em 0 1em 0; }
 summary { cursor: pointer; color: #333; }
+table.provenance td, table.provenance th { border: none; padding: 0.05em 0.8em 0.05em 0;
+  text-align: left; background: none; font-size: 0.9em; color: #444; }
+table.provenance td.text { white-space: normal; overflow-wrap: anywhere; }
+@media print {
+  body { max-width: none; margin: 0; font-size: 10pt; }
+  .scroll { overflow: visible; }
+  details > *, details:not([open]) > * { display: block; }
+  table, figure, .caution { break-inside: avoid; page-break-inside: avoid; }
+  h2, h3, summary { break-after: avoid; page-break-after: avoid; }
+  figure img { max-width: 100%; }
+}
 """
+
+#: printing opens every collapsed section first (CSS alone cannot open a <details>)
+_PRINT_SCRIPT = (
+    "<script>window.addEventListener('beforeprint',function(){"
+    "document.querySelectorAll('details').forEach(function(d){d.open=true;});});</script>"
+)
 
 
 @dataclass(frozen=True)
@@ -75,6 +97,9 @@ class ReportInputs:
         ``rows``, ``notes``), shown as the "Move and settle" section.
     move_figure : bytes, optional
         PNG of the four time histories, shown in that section.
+    provenance : mapping, optional
+        Shown at the top: ``created`` (date and time, text), ``command`` (the command line)
+        and ``inputs`` (a list of ``{"role", "path", "sha256"}``, the file's SHA-256 in hex).
     """
 
     check: Mapping[str, Any]
@@ -86,6 +111,7 @@ class ReportInputs:
     title: str = ""
     move: Mapping[str, Any] | None = None
     move_figure: bytes | None = None
+    provenance: Mapping[str, Any] | None = None
 
 
 def render_report(inputs: ReportInputs) -> str:
@@ -106,13 +132,12 @@ def render_report(inputs: ReportInputs) -> str:
     parts = [
         "<!DOCTYPE html>",
         '<html lang="en"><head><meta charset="utf-8">',
-        f"<title>{_e(title)}</title><style>{_STYLE}</style></head><body>",
+        '<meta name="viewport" content="width=device-width, initial-scale=1">',
+        f"<title>{_e(title)}</title><style>{_STYLE}</style>{_PRINT_SCRIPT}</head><body>",
         f"<h1>{_e(title)}</h1>",
-        f'<p class="note">dampctl {__version__} · plant fingerprint '
-        f"<code>{_e(inputs.check.get('fingerprint', ''))}</code> · law "
-        f"<b>{_e(str(inputs.design.get('law', '')).upper())}</b></p>",
+        _provenance(inputs),
         f'<div class="caution"><b>Safety.</b> {_e(SAFETY_TEXT)}</div>',
-        _verdict(inputs.assessment),
+        _verdict(inputs.assessment, inputs.sizing, inputs.design),
         _plant_section(inputs.check),
     ]
     if inputs.check.get("measured"):
@@ -127,16 +152,39 @@ def render_report(inputs: ReportInputs) -> str:
         parts.append(_move_section(inputs.move, inputs.move_figure))
     if inputs.figures:
         parts.append("<h2>Figures</h2>")
-        for caption, png in inputs.figures.items():
-            data = base64.b64encode(png).decode("ascii")
-            parts.append(f'<figure><img alt="{_e(caption)}" src="data:image/png;base64,{data}">'
+        for caption, image in inputs.figures.items():
+            parts.append(f"<figure>{_img(image, caption)}"
                          f"<figcaption>{_e(caption)}</figcaption></figure>")
     parts.append("</body></html>")
-    return "\n".join(parts) + "\n"
+    return _guard_numbers("\n".join(parts)) + "\n"
 
 
 # ---------------------------------------------------------------------- sections
-def _verdict(assessment: Mapping[str, Any]) -> str:
+def _provenance(inputs: ReportInputs) -> str:
+    """Date, dampctl version, command line and input files with their fingerprints."""
+    prov = inputs.provenance or {}
+    rows = [("Created", _e(prov.get("created") or "–")),
+            ("dampctl", _e(__version__)),
+            ("Law", f"<b>{_e(str(inputs.design.get('law', '')).upper())}</b>"),
+            ("Plant fingerprint", f"<code>{_e(inputs.check.get('fingerprint', ''))}</code>")]
+    if prov.get("command"):
+        rows.append(("Command", f"<code>{_e(prov['command'])}</code>"))
+    for item in prov.get("inputs") or []:
+        digest = str(item.get("sha256") or "")
+        rows.append((f"Input: {item.get('role', '')}",
+                     f"{_e(item.get('path', ''))} · sha256 <code>{_e(digest[:16])}</code>"
+                     if digest else _e(item.get("path", ""))))
+    body = "".join(f"<tr><th class='text'>{_e(k)}</th><td class='text'>{v}</td></tr>"
+                   for k, v in rows)
+    return f'<div class="scroll"><table class="provenance">{body}</table></div>'
+
+
+def _modes_text(modes: Sequence[Any]) -> str:
+    return ", ".join(str(m) for m in modes) or "–"
+
+
+def _verdict(assessment: Mapping[str, Any], sizing: Mapping[str, Any] | None = None,
+             design: Mapping[str, Any] | None = None) -> str:
     reqs = assessment.get("requirements") or []
     stable = assessment.get("stable")
     unmet = [r for r in reqs if not r.get("met")]
@@ -149,7 +197,15 @@ def _verdict(assessment: Mapping[str, Any]) -> str:
         text = '<span class="met">Every requirement of the plant file is met.</span>'
     else:
         text = "The plant file states no requirements."
-    return f"<h2>Verdict</h2><p>{text}</p>"
+    out = f"<h2>Verdict</h2><p>{text}</p>"
+    sized = sorted(int(m) for m in (sizing or {}).get("modes") or [])
+    assessed = sorted(int(m) for m in assessment.get("target_modes")
+                      or (design or {}).get("target_modes") or [])
+    if sized and assessed and sized != assessed:
+        out += (f"<p class='unmet'>Sizing and assessment used different target modes: sizing "
+                f"{_e(_modes_text(sized))}, assessment {_e(_modes_text(assessed))}. The "
+                "sizing's pair count and damping do not speak for the assessed modes.</p>")
+    return out
 
 
 def _plant_section(check: Mapping[str, Any]) -> str:
@@ -157,8 +213,8 @@ def _plant_section(check: Mapping[str, Any]) -> str:
     modes = check.get("modes", [])
     out.append(f"<p>{len(modes)} modes; first natural frequency "
                f"{_num(check.get('first_freq_hz'))} Hz.</p>")
-    out.append(_table(modes, [("mode", "Mode"), ("label", "Label", "text"),
-                              ("freq_hz", "Frequency (Hz)"), ("damping", "Damping ratio"),
+    out.append(_table(modes, [("mode", "Mode (#)"), ("label", "Label", "text"),
+                              ("freq_hz", "Frequency (Hz)"), ("damping", "Damping ratio (–)"),
                               ("modal_mass_kg", "Modal mass (kg)")]))
     pairs = check.get("pairs", [])
     if pairs:
@@ -178,7 +234,7 @@ def _plant_section(check: Mapping[str, Any]) -> str:
             rows.append(row)
         cols = [("pair", "Pair", "text"), ("kind", "Kind", "text"),
                 ("collocated", "Collocated", "text")]
-        cols += [(f"m{k + 1}", f"Mode {k + 1}") for k in range(n)]
+        cols += [(f"m{k + 1}", f"Mode {k + 1} (share, –)") for k in range(n)]
         out.append(_table(rows, cols))
     out.append(_list("Warnings", check.get("warnings", [])))
     return "\n".join(out)
@@ -194,13 +250,14 @@ def _measured_section(measured: Mapping[str, Any]) -> str:
            f"{_num(tol.get('freq'))}, damping {_num(tol.get('damping'))} (relative), MAC "
            f"{_num(tol.get('mac'))}, FRF error {_num(tol.get('error'))}.</p>"]
     out.append(_table(measured.get("modes", []), [
-        ("mode", "Mode"), ("plant_freq_hz", "Plant (Hz)"), ("measured_freq_hz", "Measured (Hz)"),
-        ("freq_change", "Frequency change"), ("plant_damping", "Plant damping"),
-        ("measured_damping", "Measured damping"), ("mac", "MAC"),
+        ("mode", "Mode (#)"), ("plant_freq_hz", "Plant (Hz)"),
+        ("measured_freq_hz", "Measured (Hz)"), ("freq_change", "Frequency change (relative, –)"),
+        ("plant_damping", "Plant damping (–)"), ("measured_damping", "Measured damping (–)"),
+        ("mac", "MAC (–)"),
         ("channel", "Strongest on", "text")]))
     out.append(_table(measured.get("channels", []), [
         ("channel", "Channel", "text"), ("unit", "Unit", "text"),
-        ("error", "FRF error (normalized RMS)")]))
+        ("error", "FRF error (normalized RMS, –)")]))
     out.append(_list("Measurement warnings", measured.get("warnings", [])))
     return "\n".join(out)
 
@@ -208,10 +265,12 @@ def _measured_section(measured: Mapping[str, Any]) -> str:
 def _sizing_section(sizing: Mapping[str, Any]) -> str:
     out = ["<h2>Sizing: how many pairs</h2>",
            f"<p>Law {_e(str(sizing.get('law', '')).upper())}, target damping "
-           f"{_num(sizing.get('target_damping'))}.</p>"]
+           f"{_num(sizing.get('target_damping'))} on target modes "
+           f"{_e(_modes_text(sizing.get('modes') or []))}.</p>"]
     rows = [dict(r, chosen=", ".join(r.get("chosen", []))) for r in sizing.get("rows", [])]
-    out.append(_table(rows, [("pairs_used", "Pairs"), ("chosen", "Chosen", "text"),
-                             ("min_damping", "Smallest damping"), ("cost", "Cost"),
+    out.append(_table(rows, [("pairs_used", "Pairs (#)"), ("chosen", "Chosen", "text"),
+                             ("min_damping", "Smallest damping on the target modes (–)"),
+                             ("cost", "Cost (price units of the plant file)"),
                              ("method", "Search", "text")]))
     pairs = sizing.get("recommended_pairs")
     if pairs:
@@ -242,8 +301,13 @@ def _design_section(design: Mapping[str, Any]) -> str:
             rows.append({"pair": lp.get("pair"), "actuator": lp.get("actuator"),
                          "sensor": lp.get("sensor"), "gain": lp.get("gain"), "K": blocks})
         out.append(_table(rows, [("pair", "Pair", "text"), ("actuator", "Actuator", "text"),
-                                 ("sensor", "Sensor", "text"), ("gain", "Law gain"),
-                                 ("K", "Controller K(s), physical units", "text")]))
+                                 ("sensor", "Sensor", "text"),
+                                 ("gain", "Law gain (actuator unit per sensor unit)"),
+                                 ("K", "Controller K(s) (actuator unit per sensor unit; s = jω, "
+                                       "ω in rad/s)", "formula")]))
+        out.append("<p class='note'>K(s) is the product of the law gain and the sections "
+                   "shown, each a ratio of polynomials in s with ω in rad/s (not Hz); the loop "
+                   "is closed as u = −K(s) y.</p>")
     elif design.get("controller"):
         n = len(design["controller"].get("A", []))
         out.append(f"<p>MIMO controller state space with {n} states "
@@ -259,13 +323,13 @@ def _design_section(design: Mapping[str, Any]) -> str:
 
 #: columns of the parts table, per passive law
 _PART_COLUMNS = {
-    "tmd": [("mode", "Mode"), ("site", "Site", "text"), ("mass_kg", "Mass (kg)"),
-            ("freq_hz", "Frequency (Hz)"), ("damping", "Damping ratio"),
+    "tmd": [("mode", "Mode (#)"), ("site", "Site", "text"), ("mass_kg", "Mass (kg)"),
+            ("freq_hz", "Frequency (Hz)"), ("damping", "Damping ratio (–)"),
             ("stiffness_n_per_m", "Spring (N/m)"), ("damping_n_s_per_m", "Dashpot (N·s/m)")],
     "viscous": [("between", "Between", "text"), ("coefficient_n_s_per_m", "Coefficient (N·s/m)"),
                 ("stiffness_n_per_m", "Mounting (N/m)")],
     "shunt": [("pair", "Pair", "text"), ("actuator", "Strut", "text"), ("kind", "Network", "text"),
-              ("mode", "Mode"), ("resistance_ohm", "R (Ω)"), ("inductance_h", "L (H)")],
+              ("mode", "Mode (#)"), ("resistance_ohm", "R (Ω)"), ("inductance_h", "L (H)")],
 }
 
 
@@ -316,8 +380,9 @@ def _assessment_section(assessment: Mapping[str, Any]) -> str:
            f"<p>Closed loop {'stable' if assessment.get('stable') else 'UNSTABLE'}. Each "
            "closed-loop pole is matched to its open-loop mode by assignment.</p>"]
     out.append(_table(assessment.get("modes", []), [
-        ("mode", "Mode"), ("open_freq_hz", "Open freq (Hz)"), ("open_damping", "Open damping"),
-        ("closed_freq_hz", "Closed freq (Hz)"), ("closed_damping", "Closed damping"),
+        ("mode", "Mode (#)"), ("open_freq_hz", "Open freq (Hz)"),
+        ("open_damping", "Open damping (–)"), ("closed_freq_hz", "Closed freq (Hz)"),
+        ("closed_damping", "Closed damping (–)"),
         ("peak_reduction_db", "Peak reduction (dB)")]))
     if assessment.get("passive"):
         out.append("<h2>Stability margins</h2><p>None: passive, no loop to break (no delay, "
@@ -341,8 +406,12 @@ def _assessment_section(assessment: Mapping[str, Any]) -> str:
     out.append("<h2>Requirements</h2>")
     if reqs:
         rows = [dict(r, met_text="met" if r.get("met") else "NOT MET") for r in reqs]
-        out.append(_table(rows, [("name", "Requirement", "text"), ("required", "Required"),
-                                 ("achieved", "Achieved"), ("met_text", "Status", "status")]))
+        out.append(_table(rows, [("name", "Requirement", "text"),
+                                 ("required", "Required (unit of the requirement)"),
+                                 ("achieved", "Achieved (same unit)"),
+                                 ("met_text", "Status", "status")]))
+        out.append("<p class='note'>Units: damping ratios are dimensionless, margins in dB and "
+                   "degrees, RMS values in the output's SI unit (m, m/s, m/s², N).</p>")
         out.append(_list("Not applicable", assessment.get("notes") or []))
     else:
         out.append("<p>None stated in the plant file.</p>")
@@ -383,19 +452,59 @@ def _export_section(export: Mapping[str, Any]) -> str:
              "sections": len(lp.get("sos") or [])} for lp in loops]
     if rows:
         out.append(_table(rows, [("pair", "Loop", "text"),
-                                 ("cascade_gain", "Cascade gain (actuator per sensor unit)"),
-                                 ("sections", "Second-order sections")]))
+                                 ("cascade_gain", "Cascade gain (actuator unit per sensor unit)"),
+                                 ("sections", "Second-order sections (#)")]))
     verification = (export.get("verification") or {}).get("modes") or []
     if verification:
         out.append("<h3>Verified in discrete time</h3>")
         out.append(_table(verification, [
-            ("mode", "Mode"),
-            ("continuous_damping", "Continuous damping (no sampling delay)"),
-            ("discrete_damping", "Sampled damping (hold + one sample)"),
+            ("mode", "Mode (#)"),
+            ("continuous_damping", "Continuous damping (no sampling delay, –)"),
+            ("discrete_damping", "Sampled damping (hold + one sample, –)"),
         ]))
+    fixed_point = export.get("fixed_point")
+    if isinstance(fixed_point, Mapping) and fixed_point.get("loops"):
+        out.append(_fixed_point(fixed_point))
     files = export.get("files") or []
     if files:
         out.append(_list("Files", [str(f) for f in files]))
+    return "\n".join(out)
+
+
+def _fixed_point(fixed: Mapping[str, Any]) -> str:
+    """The fixed-point sections: integers, fractional bits and the poles' shift."""
+    word = str(fixed.get("number_format", "")).upper()
+    out = [f"<h3>Fixed point ({_e(word)})</h3>",
+           f"<p class='note'>{_e(fixed.get('convention', ''))}</p>"]
+    loops, rows = [], []
+    for lp in fixed.get("loops") or []:
+        loops.append({k: lp.get(k) for k in ("name", "input_full_scale", "output_limit",
+                                              "peak_command", "noise_rms")})
+        for branch in lp.get("branches") or []:
+            for k, sec in enumerate(branch.get("sections") or [], start=1):
+                before, after = sec.get("pole_before") or {}, sec.get("pole_after") or {}
+                rows.append({
+                    "loop": lp.get("name"), "section": k,
+                    "integers": " ".join(str(i) for i in sec.get("integers") or []),
+                    "bits": f"{sec.get('num_frac_bits')}/{sec.get('a1_frac_bits')}/"
+                            f"{sec.get('a2_frac_bits')}",
+                    "freq_before": before.get("freq_hz"), "freq_after": after.get("freq_hz"),
+                    "damping_before": before.get("damping"),
+                    "damping_after": after.get("damping"),
+                    "accepted": "yes" if sec.get("accepted") else "NO", "met": sec.get("accepted"),
+                })
+    out.append(_table(loops, [("name", "Loop", "text"),
+                              ("input_full_scale", "Input full scale (sensor unit)"),
+                              ("output_limit", "Output limit (actuator unit)"),
+                              ("peak_command", "Peak command (actuator unit)"),
+                              ("noise_rms", "Quantization noise RMS (actuator unit)")]))
+    out.append(_table(rows, [("loop", "Loop", "text"), ("section", "Section (#)"),
+                             ("integers", "b0 b1 b2 a1 a2 (integers)", "text"),
+                             ("bits", "Fractional bits num/a1/a2 (#)", "text"),
+                             ("freq_before", "Pole before (Hz)"), ("freq_after", "Pole after (Hz)"),
+                             ("damping_before", "Damping before (–)"),
+                             ("damping_after", "Damping after (–)"),
+                             ("accepted", "Accepted", "status")]))
     return "\n".join(out)
 
 
@@ -435,16 +544,22 @@ def _move_section(move: Mapping[str, Any], figure: bytes | None) -> str:
     out.append("<p class='note'>–: not settled within the record. A shaper delays the end of "
                "the command by its duration; the shaped runs' settling times include it.</p>")
     if figure:
-        data = base64.b64encode(figure).decode("ascii")
         caption = "The same move: open loop, shaped, damped, damped and shaped"
-        out.append(f'<figure><img alt="{_e(caption)}" style="max-width: 100%" '
-                   f'src="data:image/png;base64,{data}"><figcaption>{_e(caption)}</figcaption>'
-                   "</figure>")
+        out.append(f'<figure class="wide">{_img(figure, caption)}'
+                   f"<figcaption>{_e(caption)}</figcaption></figure>")
     out.append(_list("Notes", move.get("notes") or []))
     return "\n".join(out)
 
 
 # ---------------------------------------------------------------------- helpers
+def _img(image: bytes, caption: str) -> str:
+    """An embedded figure: PNG or SVG bytes as a data URI (the report needs no network)."""
+    head = image[:256].lstrip()
+    mime = "image/svg+xml" if head.startswith((b"<?xml", b"<svg")) else "image/png"
+    data = base64.b64encode(image).decode("ascii")
+    return f'<img alt="{_e(caption)}" src="data:{mime};base64,{data}">'
+
+
 def _branch_text(branch: Mapping[str, Any]) -> str:
     text = _num(branch.get("gain"))
     for sec in branch.get("sections", []):
@@ -477,12 +592,13 @@ def _table(rows: Sequence[Mapping[str, Any]], columns: Sequence[tuple]) -> str:
             if kind == "status":
                 cls = "met" if row.get("met") else "unmet"
                 cells.append(f'<td class="text {cls}">{_e(str(value))}</td>')
-            elif kind == "text":
-                cells.append(f'<td class="text">{_e(_plain(value))}</td>')
+            elif kind in ("text", "formula"):
+                cls = "text" if kind == "text" else "text formula"
+                cells.append(f'<td class="{cls}">{_e(_plain(value))}</td>')
             else:
                 cells.append(f"<td>{_e(_plain(value))}</td>")
         body.append("<tr>" + "".join(cells) + "</tr>")
-    return f"<table><tr>{head}</tr>{''.join(body)}</table>"
+    return f"<div class='scroll'><table><tr>{head}</tr>{''.join(body)}</table></div>"
 
 
 def _any(value: Any) -> str:
@@ -506,7 +622,7 @@ def _mapping(value: Mapping[str, Any]) -> str:
         else:
             rows.append(f"<tr><th class='text'>{_e(_label(key))}</th>"
                         f"<td class='text'>{_e(_plain(item))}</td></tr>")
-    return "<table>" + "".join(rows) + "</table>"
+    return "<div class='scroll'><table>" + "".join(rows) + "</table></div>"
 
 
 #: unit suffixes of JSON keys and how a heading shows them
@@ -570,6 +686,40 @@ def _num(value: Any) -> str:
     if 1e4 <= abs(value) < 1e6:
         return f"{value:.0f}"  # 20000 Hz, not 2e+04
     return f"{value:.4g}"
+
+
+#: a number a browser could break inside: a sign, or an exponent with its sign
+_BREAKABLE = re.compile(r"(?<![\w.])[-−+±]?\d+(?:\.\d+)?(?:e[-+−]?\d+)?(?![\w.])")
+_SEGMENTS = re.compile(r"(<[^>]*>)")
+
+
+def _guard_numbers(text: str) -> str:
+    """Wrap every signed or exponent number of the page's text in a no-wrap span.
+
+    Tags, and the contents of ``<style>`` and ``<script>``, are left alone; so "4.604e-08" or
+    "−180" never break across lines.
+    """
+    out, skip = [], False
+    for piece in _SEGMENTS.split(text):
+        if piece.startswith("<"):
+            lower = piece.lower()
+            if lower.startswith(("<style", "<script")):
+                skip = True
+            elif lower.startswith(("</style", "</script")):
+                skip = False
+            out.append(piece)
+        elif skip or not piece:
+            out.append(piece)
+        else:
+            out.append(_BREAKABLE.sub(_span, piece))
+    return "".join(out)
+
+
+def _span(match: re.Match) -> str:
+    token = match.group(0)
+    if any(c in token for c in "-−+±e") and len(token) > 1:
+        return f'<span class="num">{token}</span>'
+    return token
 
 
 def _e(text: Any) -> str:

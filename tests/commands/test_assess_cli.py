@@ -91,12 +91,16 @@ def test_json_output_and_plots(tmp_path):
     assert data["modes"][0]["mode"] == 1
     assert data["loops"][0]["pair"] == "fv"
     assert data["all_met"] is True
-    assert len(data["plots"]) == 8  # 2 FRF, locus, damping, Nyquist, 2 cumulative, 1/3 oct
+    # 2 FRF, loop gain, |S| and |T|, Nyquist, locus, damping, 2 cumulative, 1/3 oct
+    assert len(data["plots"]) == 10
     for path in data["plots"]:
         assert open(path, "rb").read(8) == b"\x89PNG\r\n\x1a\n"
     # the figures exist now: a second run refuses to replace them (exit 2) unless --force
     assert _run(plant, design, "--samples", "0", "--plots", str(figs))[0] == 2
     assert _run(plant, design, "--samples", "0", "--plots", str(figs), "--force")[0] == 0
+    code, out, _ = _run(plant, design, "--json", "--samples", "0", "--plots",
+                        str(tmp_path / "svg"), "--figure-format", "svg")
+    assert code == 0 and all(p.endswith(".svg") for p in json.loads(out)["plots"])
 
 
 @pytest.mark.parametrize("option", ["--delay-s", "--drift", "--samples", "--plots"])

@@ -150,6 +150,7 @@ def test_robustness_and_design_read_as_sentences_with_all_values_kept():
     text = render_report(
         ReportInputs(check=inputs.check, design=design.to_dict(), assessment=assessment)
     )
+    text = re.sub(r'<span class="num">([^<]*)</span>', r"\1", text)  # numbers kept whole
     for line in robustness_lines(assessment["robustness"]):
         shown = line.replace("+-", "±").replace(" -> ", " → ")
         assert f"<li>{html.escape(shown)}</li>" in text
@@ -172,3 +173,61 @@ def test_passive_design_shows_its_parts_and_no_margins():
     assert "tip" in text and "Spring (N/m)" in text
     assert "does not apply (passive: no loop)" in text
     assert "Gain margin (dB)" not in text
+
+
+def test_numbers_never_break_and_tables_scroll():
+    inputs = _inputs()
+    check = dict(inputs.check, warnings=["residual 4.604e-08 at -180 deg"])
+    text = render_report(ReportInputs(check=check, design=inputs.design,
+                                      assessment=inputs.assessment))
+    assert '<span class="num">4.604e-08</span>' in text
+    assert '<span class="num">-180</span>' in text
+    assert "white-space: nowrap" in text
+    # every table sits in a horizontally scrolling wrapper
+    assert text.count("<table") == text.count("<div class='scroll'><table") + text.count(
+        '<div class="scroll"><table')
+    # style and script are untouched
+    assert '<span class="num">' not in text.split("</style>")[0]
+
+
+def test_print_stylesheet_and_units_in_headers():
+    text = render_report(_inputs())
+    assert "@media print" in text and "break-inside: avoid" in text
+    assert "break-after: avoid" in text and "d.open=true" in text
+    heads = re.findall(r"<th class=\"\">([^<]*)</th>", text)  # the numeric columns
+    assert heads and all("(" in h for h in heads), [h for h in heads if "(" not in h]
+    assert "ω in rad/s" in text
+
+
+def test_provenance_at_the_top():
+    inputs = _inputs()
+    prov = {"created": "2026-01-02 03:04 UTC", "command": "dampctl report p.toml d.json -o r",
+            "inputs": [{"role": "plant", "path": "p.toml", "sha256": "ab" * 32}]}
+    text = render_report(ReportInputs(check=inputs.check, design=inputs.design,
+                                      assessment=inputs.assessment, provenance=prov))
+    top = text.split("Safety.")[0]
+    assert "2026-01-02 03:04 UTC" in top and "dampctl report p.toml d.json -o r" in top
+    assert "p.toml" in top and "abababababababab" in top and "abc" in top  # fingerprints
+
+
+def test_fixed_point_table_and_different_targets():
+    inputs = _inputs()
+    export = {"rate_hz": 10000.0, "method": "tustin", "fixed": "q15", "loops": [],
+              "fixed_point": {"number_format": "q15", "convention": "round(c * 2**F)",
+                              "loops": [{"name": "p1", "input_full_scale": 0.2,
+                                         "output_limit": 40.0, "peak_command": 40.0,
+                                         "noise_rms": 1e-4, "branches": [{"sections": [
+                                             {"integers": [22719, 22719, 0, -21408, 0],
+                                              "num_frac_bits": 17, "a1_frac_bits": 15,
+                                              "a2_frac_bits": 15, "accepted": True,
+                                              "pole_before": {"freq_hz": 1354.9, "damping": 1.0},
+                                              "pole_after": {"freq_hz": 1355.0,
+                                                             "damping": 1.0}}]}]}]}}
+    sizing = {"law": "dvf", "target_damping": 0.05, "modes": [2, 3], "rows": []}
+    text = render_report(ReportInputs(check=inputs.check, design=inputs.design,
+                                      assessment=dict(inputs.assessment, target_modes=[1]),
+                                      export=export, sizing=sizing))
+    assert "Fixed point (Q15)" in text
+    assert '22719 22719 0 <span class="num">-21408</span> 0' in text
+    assert "on target modes 2, 3" in text
+    assert "Sizing and assessment used different target modes: sizing 2, 3, assessment 1" in text
