@@ -69,6 +69,23 @@ Input shaping
     design_shaper, load_shaper
         ZV/ZVD/ZVDD/EI shapers for a plant's modes, and the shaper file
 
+Figures (matplotlib; each returns what it drew, with its ``figure`` to show or save)
+    plot_frf, plot_damping, plot_cumulative_rms, plot_third_octave
+        an assessment: FRF (magnitude above phase), damping per mode, RMS, velocity spectrum
+    plot_loop_gain, plot_loop_sensitivity, plot_nyquist, plot_root_locus
+        a loop: Bode of L with crossovers and margins, |S| and |T|, Nyquist zoomed on −1,
+        closed-loop poles in Hz with lines of constant damping
+    plot_damping_and_cost, plot_mode_damping
+        a sizing result
+    plot_response, plot_forces, plot_moves, plot_sensitivity, plot_impulses
+        simulations and input shapers
+    plot_frf_overlay, plot_cost_result, plot_frf_match, plot_stability_chart
+        several designs or options; a plant against measurement, a modal fit
+
+Notebooks
+    ``ModalPlant``, ``Design``, ``Assessment`` and ``SizingResult`` show a compact table
+    (``_repr_html_``) and give ``to_frame()`` (pandas, optional) and ``to_dict()``
+
 Errors
     DampctlError and its subclasses (see :mod:`dampctl.errors`)
 """
@@ -110,6 +127,26 @@ from dampctl.model.plant import (
 )
 from dampctl.model.plantfile import dump_plant, load_plant, parse_plant
 from dampctl.model.survey import survey_plant
+from dampctl.report.figures import (
+    plot_cumulative_rms,
+    plot_damping,
+    plot_frf,
+    plot_loop_gain,
+    plot_loop_sensitivity,
+    plot_nyquist,
+    plot_root_locus,
+    plot_third_octave,
+)
+from dampctl.report.figures_compare import plot_cost_result, plot_frf_overlay
+from dampctl.report.figures_measured import plot_frf_match, plot_stability_chart
+from dampctl.report.figures_sizing import plot_damping_and_cost, plot_mode_damping
+from dampctl.report.figures_time import (
+    plot_forces,
+    plot_impulses,
+    plot_moves,
+    plot_response,
+    plot_sensitivity,
+)
 from dampctl.sizing.size import SizingResult, size_pairs
 
 __version__ = "0.1.0"
@@ -156,6 +193,25 @@ __all__ = [
     "load_plant",
     "load_shaper",
     "parse_plant",
+    "plot_cost_result",
+    "plot_cumulative_rms",
+    "plot_damping",
+    "plot_damping_and_cost",
+    "plot_forces",
+    "plot_frf",
+    "plot_frf_match",
+    "plot_frf_overlay",
+    "plot_impulses",
+    "plot_loop_gain",
+    "plot_loop_sensitivity",
+    "plot_mode_damping",
+    "plot_moves",
+    "plot_nyquist",
+    "plot_response",
+    "plot_root_locus",
+    "plot_sensitivity",
+    "plot_stability_chart",
+    "plot_third_octave",
     "signal_name",
     "simulate_disturbance",
     "simulate_move",

@@ -490,6 +490,17 @@ class Design:
                 raise DesignError(problem, source=source, field=f"parts[{k + 1}].{where}")
 
     # ------------------------------------------------------------------ file form
+    def to_frame(self):
+        """The loops (or parts) as a pandas DataFrame (needs pandas: ``pip install pandas``)."""
+        from dampctl.tables import design_rows, frame
+
+        return frame(design_rows(self))
+
+    def _repr_html_(self) -> str:
+        from dampctl.tables import design_html
+
+        return design_html(self)
+
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready dictionary (full float precision); :func:`design_from_dict` inverts it."""
         out: dict[str, Any] = {

@@ -14,14 +14,15 @@ from repo import ROOT
 PACKAGE = ROOT / "dampctl"
 
 #: rank of each stage; a module may import ranks <= its own, and among equal ranks only its own
-#: stage. The shared utilities (errors, fileio, progress, schemas) are rank 0: anyone may use
-#: them.
+#: stage. The shared utilities (errors, fileio, progress, schemas, tables) are rank 0: anyone
+#: may use them.
 RANK = {
     "errors": 0,
     "fileio": 0,
     "progress": 0,
     "values": 0,
     "schemas": 0,
+    "tables": 0,
     "model": 1,
     "design": 2,
     "analysis": 3,

@@ -31,6 +31,7 @@ import json
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from types import MappingProxyType
+from typing import Any
 
 import numpy as np
 
@@ -288,6 +289,23 @@ class ModalPlant:
                 )
 
     # ------------------------------------------------------------------ look-ups
+    def to_dict(self) -> dict[str, Any]:
+        """The plant file's content as plain Python values (what ``dump_plant`` writes)."""
+        from dampctl.model.plantfile import _document
+
+        return _document(self)
+
+    def to_frame(self):
+        """The modes as a pandas DataFrame (needs pandas: ``pip install pandas``)."""
+        from dampctl.tables import frame, plant_rows
+
+        return frame(plant_rows(self))
+
+    def _repr_html_(self) -> str:
+        from dampctl.tables import plant_html
+
+        return plant_html(self)
+
     @property
     def n_modes(self) -> int:
         """Number of modes."""

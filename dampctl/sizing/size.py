@@ -235,6 +235,17 @@ class SizingResult:
         """The row of the recommended count, if any."""
         return None if self.recommended is None else self.rows[self.recommended - 1]
 
+    def to_frame(self):
+        """The best set per pair count as a pandas DataFrame (needs pandas)."""
+        from dampctl.tables import frame, sizing_rows
+
+        return frame(sizing_rows(self))
+
+    def _repr_html_(self) -> str:
+        from dampctl.tables import sizing_html
+
+        return sizing_html(self)
+
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready form (what ``dampctl size --json`` prints)."""
         row = self.recommended_row
