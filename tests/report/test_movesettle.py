@@ -88,7 +88,7 @@ def test_report_command_with_move_options(tmp_path):
                 stdout=out, stderr=err)
     assert code in (0, 1), err.getvalue()
     text = page.read_text()
-    assert "Move and settle" in text and "±2e-08 m" in text
+    assert "Move and settle" in text and '<span class="num">±2e-08</span> m' in text
     err = io.StringIO()
     assert main(["report", plant, str(design), "-o", str(tmp_path / "x.html"), "--drive",
                  "coil"], stdout=io.StringIO(), stderr=err) == 2
