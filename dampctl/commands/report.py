@@ -1,4 +1,8 @@
-"""``dampctl report PLANT DESIGN -o report.html``: one self-contained HTML design report."""
+"""``dampctl report PLANT DESIGN... -o report.html``: one self-contained HTML design report.
+
+With one design: the full report (plant, sizing, design, assessment, export, move). With two to
+six: one report of them side by side (:mod:`dampctl.report.designs`).
+"""
 
 from __future__ import annotations
 
@@ -42,7 +46,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         The subcommand's parser.
     """
     parser.add_argument("plant", help="plant file (TOML); - reads it from standard input")
-    parser.add_argument("design", help="design file written by dampctl tune (JSON)")
+    parser.add_argument("design", nargs="+", metavar="DESIGN",
+                        help="design file written by dampctl tune (JSON); two to six design "
+                             "files give one report of them side by side (FRFs, damping, "
+                             "margins overlaid)")
     parser.add_argument("-o", "--output", required=True, metavar="FILE",
                         help="report file to write (HTML)")
     add_force_option(parser, "the report file")
@@ -241,6 +248,9 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     int
         Exit code (bad input raises a DampctlError, turned into exit 2 by the CLI).
     """
+    if len(args.design) > 1:
+        return _run_designs(args, out)
+    args.design = args.design[0]
     inputs = [p for p in (args.plant, args.design, args.sizing, args.export, args.measured,
                           args.shaper) if p]
     check_output(args.output, inputs=inputs, replace=args.force)
@@ -277,6 +287,45 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         if unmet:
             out.write(f"requirements not met: {', '.join(unmet)}\n")
     return 0 if result.all_met else 1
+
+
+def _run_designs(args: argparse.Namespace, out: TextIO) -> int:
+    """``dampctl report PLANT D1 D2 ...``: several designs in one report."""
+    from dampctl.report.designs import MAX_DESIGNS, designs_report
+
+    paths = list(args.design)
+    if len(paths) > MAX_DESIGNS:
+        raise UsageError(f"a report compares at most {MAX_DESIGNS} designs, got {len(paths)}")
+    single = [o for o, v in (("--sizing", args.sizing), ("--export", args.export),
+                             ("--measured", args.measured), ("--move", args.move)) if v]
+    if single:
+        raise UsageError(f"{single[0]} belongs to a report of one design; give one DESIGN")
+    inputs = [args.plant, *paths]
+    check_output(args.output, inputs=inputs, replace=args.force)
+    plant = load_plant(args.plant)
+    stems = [Path(p).stem for p in paths]
+    names = stems if len(set(stems)) == len(stems) else paths
+    designs = []
+    for name, path in zip(names, paths, strict=True):
+        design = load_design(path)
+        design.check_plant(plant, source=path)
+        designs.append((name, design))
+    roles = [("plant", args.plant)] + [(f"design {n}", p) for n, p in zip(names, paths,
+                                                                          strict=True)]
+    html, results = designs_report(
+        plant, designs, delay_s=args.delay_s, figure_format=args.figure_format,
+        provenance=provenance_of(getattr(args, "argv", None), roles),
+    )
+    path = write_text(args.output, html, inputs=inputs, replace=args.force)
+    unmet = [f"{n}: {r.name}" for n, a in zip(names, results, strict=True) for r in a.unmet]
+    all_met = all(a.all_met for a in results)
+    if args.json:
+        print_json({"report": str(path), "all_met": all_met, "unmet": unmet}, out, "report")
+    else:
+        out.write(f"wrote {path}\n")
+        if unmet:
+            out.write(f"requirements not met: {', '.join(unmet)}\n")
+    return 0 if all_met else 1
 
 
 def provenance_of(argv=None, files=(), *, texts=None) -> dict[str, Any]:

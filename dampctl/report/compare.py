@@ -226,6 +226,7 @@ def compare_designs(
     shaper_name: str | None = None,
     move: MoveSpec | None = None,
     progress=None,
+    assessments: Sequence | None = None,
 ) -> Comparison:
     """Compare designs (active and passive), a shaper, and their combinations on one plant.
 
@@ -244,6 +245,8 @@ def compare_designs(
         The move whose settling time is compared.
     progress : Progress, optional
         Advanced by one step per design, and per simulated move.
+    assessments : sequence of Assessment, optional
+        The designs' assessments, when the caller has them already (same order).
 
     Returns
     -------
@@ -262,10 +265,13 @@ def compare_designs(
     targets = tuple(plant.requirements.modes) or tuple(
         sorted({m for _, d in designs for m in d.target_modes})
     ) or tuple(range(1, plant.n_modes + 1))
-    assessments = []
-    for _, design in designs:
-        assessments.append(assess(plant, design, samples=0))
-        step()
+    if assessments is not None and len(assessments) != len(designs):
+        raise UsageError("give one assessment per design")
+    if assessments is None:
+        assessments = []
+        for _, design in designs:
+            assessments.append(assess(plant, design, samples=0))
+            step()
     inputs = tuple(d.name for d in plant.disturbances)
     outputs = tuple(o.name for o in plant.outputs)
     if not outputs:

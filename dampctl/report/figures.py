@@ -17,6 +17,7 @@ from pathlib import Path
 import numpy as np
 
 from dampctl.report.figures_loop import (
+    _phase_ticks,
     plot_loop_gain,
     plot_loop_sensitivity,
     plot_nyquist,
@@ -129,9 +130,16 @@ def plot_frf(assessment, output: int = 0, disturbance: int = 0, *, ax=None) -> D
         h_closed = c.frf_closed_h[output, disturbance]
     else:  # an assessment made before the complex FRFs were kept: magnitude only
         h_open, h_closed, ph = c.frf_open[output], c.frf_closed[output], None
-    a = mag.loglog(f[keep], np.abs(h_open[keep]), label="open loop", **OPEN_LOOP)
+    no_path = not np.any(np.abs(h_open[keep]) > 0)  # the loop alone couples them
+    a = [] if no_path else mag.loglog(f[keep], np.abs(h_open[keep]), label="open loop",
+                                      **OPEN_LOOP)
     b = mag.loglog(f[keep], np.abs(h_closed[keep]), label="closed loop", **CLOSED_LOOP)
     artists = [*a, *b]
+    peak = float(np.max(np.abs(h_closed[keep])))
+    if not no_path:
+        peak = max(peak, float(np.max(np.abs(h_open[keep]))))
+    if peak > 0:
+        mag.set_ylim(bottom=max(float(np.min(np.abs(h_closed[keep]))), peak * 1e-9) / 2)
     source = c.frf_inputs[disturbance]
     per = "N" if source in assessment.response.disturbances else "input unit"
     mag.set_ylabel(f"|H| ({c.frf_units[output]}/{per})")
@@ -139,9 +147,12 @@ def plot_frf(assessment, output: int = 0, disturbance: int = 0, *, ax=None) -> D
                   fontsize=10)
     mag.set_xlim(*band)
     grid(mag, which="both")
+    if no_path:
+        mag.plot([], [], label="open loop: zero (no path without the loop)", **OPEN_LOOP)
     mag.legend(frameon=False)
     if ph is not None:
-        for h, style in ((h_open, OPEN_LOOP), (h_closed, CLOSED_LOOP)):
+        for h, style in ([(h_closed, CLOSED_LOOP)] if no_path
+                         else [(h_open, OPEN_LOOP), (h_closed, CLOSED_LOOP)]):
             phase = np.degrees(np.unwrap(np.angle(h[keep])))
             phase -= 360.0 * np.round(phase[0] / 360.0)
             artists += ph.semilogx(f[keep], phase, **style)
@@ -149,7 +160,8 @@ def plot_frf(assessment, output: int = 0, disturbance: int = 0, *, ax=None) -> D
         ph.set_xlabel("frequency (Hz)")
         ph.xaxis.set_major_formatter(plain_ticks())
         low, high = ph.get_ylim()
-        ph.set_yticks(np.arange(90 * np.ceil(low / 90), high + 1, 90))
+        ph.set_yticks(_phase_ticks(low, high))
+        ph.set_ylim(low, high)
         grid(ph, which="both")
     else:
         mag.set_xlabel("frequency (Hz)")

@@ -24,6 +24,7 @@ from dampctl.report.style import safe_name as _safe
 __all__ = [
     "comparison_pngs",
     "plot_cost_result",
+    "plot_damping_overlay",
     "plot_frf_overlay",
     "write_comparison_pngs",
 ]
@@ -91,6 +92,53 @@ def plot_frf_overlay(
     ax.grid(True, which="both", alpha=0.3)
     ax.legend(frameon=False, fontsize="small")
     return Drawn(figure, ax, tuple(artists))
+
+
+def plot_damping_overlay(
+    modes, freqs_hz, open_damping, closed: Mapping[str, np.ndarray], *, ax=None
+) -> Drawn:
+    """Damping ratio of every mode: as built, and with each design (grouped bars, log scale).
+
+    Parameters
+    ----------
+    modes : sequence of int
+        Mode numbers (1-based).
+    freqs_hz : sequence of float
+        Their natural frequencies (Hz), for the tick labels.
+    open_damping : sequence of float
+        Damping ratio of each mode as built.
+    closed : mapping of str to sequence of float
+        Design name to the closed-loop damping ratio of each mode.
+    ax : matplotlib Axes, optional
+        Where to draw.
+
+    Returns
+    -------
+    Drawn
+    """
+    from dampctl.report.style import MIST, grid, hz_label
+
+    figure, ax = _axes(ax)
+    x = np.arange(len(modes))
+    groups = 1 + len(closed)
+    width = 0.84 / groups
+    bars = [ax.bar(x - 0.42 + width / 2, np.maximum(open_damping, 1e-6), width, color=MIST,
+                   label="as built")]
+    for k, ((name, values), colour) in enumerate(
+        zip(closed.items(), _colours(len(closed)), strict=True), start=1
+    ):
+        bars.append(ax.bar(x - 0.42 + width * (k + 0.5), np.maximum(values, 1e-6), width,
+                           color=colour, label=name))
+    ax.set_yscale("log")
+    ax.set_xticks(x, [f"{m}\n{hz_label(f)}" for m, f in zip(modes, freqs_hz, strict=True)])
+    ax.yaxis.set_major_formatter(_plain_ticks())
+    ax.yaxis.set_minor_formatter(_plain_ticks(minor=True))
+    ax.set_xlabel("mode")
+    ax.set_ylabel("damping ratio (–)")
+    ax.set_title("damping per mode, every design")
+    grid(ax, axis="y", which="both")
+    ax.legend(frameon=False, fontsize="small")
+    return Drawn(figure, ax, tuple(bars))
 
 
 def _colours(n: int):

@@ -19,7 +19,7 @@ from typing import Any
 from dampctl import __version__
 from dampctl.analysis.assess_json import robustness_lines
 
-__all__ = ["ReportInputs", "render_report"]
+__all__ = ["ReportInputs", "provenance_html", "render_report"]
 
 SAFETY_TEXT = (
     "An active loop that is unstable on hardware can damage the structure, and piezo amplifiers "
@@ -162,11 +162,31 @@ def render_report(inputs: ReportInputs) -> str:
 # ---------------------------------------------------------------------- sections
 def _provenance(inputs: ReportInputs) -> str:
     """Date, dampctl version, command line and input files with their fingerprints."""
-    prov = inputs.provenance or {}
+    law = str(inputs.design.get("law", "")).upper()
+    return provenance_html(inputs.provenance, inputs.check.get("fingerprint", ""), law)
+
+
+def provenance_html(prov: Mapping[str, Any] | None, fingerprint: str, law: str = "") -> str:
+    """The report's head: date, dampctl version, law, plant fingerprint, command, inputs.
+
+    Parameters
+    ----------
+    prov : mapping, optional
+        ``created``, ``command`` and ``inputs`` (see :class:`ReportInputs`).
+    fingerprint : str
+        The plant's fingerprint.
+    law : str, optional
+        The law(s) shown.
+
+    Returns
+    -------
+    str
+    """
+    prov = prov or {}
     rows = [("Created", _e(prov.get("created") or "–")),
             ("dampctl", _e(__version__)),
-            ("Law", f"<b>{_e(str(inputs.design.get('law', '')).upper())}</b>"),
-            ("Plant fingerprint", f"<code>{_e(inputs.check.get('fingerprint', ''))}</code>")]
+            ("Law", f"<b>{_e(law)}</b>"),
+            ("Plant fingerprint", f"<code>{_e(fingerprint)}</code>")]
     if prov.get("command"):
         rows.append(("Command", f"<code>{_e(prov['command'])}</code>"))
     for item in prov.get("inputs") or []:
