@@ -535,14 +535,14 @@ def render_comparison(comparison: Comparison, figures: Mapping[str, bytes] | Non
 
 def _columns(c: Comparison) -> list[tuple]:
     cols = [("name", "Option", "text"), ("kind", "Kind", "text"),
-            ("min_damping", "Smallest damping")]
+            ("min_damping", "Smallest damping (–)")]
     cols += [(f"peak:{o}", f"Peak reduction {o} (dB)") for o in c.outputs]
     cols += [(f"rms:{o}", f"RMS {o} ({u})") for o, u in zip(c.outputs, c.output_units,
                                                            strict=True)]
     if c.move is not None:
         cols.append(("settling_time_s", "Settling time (s)"))
-    cols += [("effort", "Effort (RMS)"), ("added_mass_kg", "Added mass (kg)"),
-             ("cost", "Cost")]
+    cols += [("effort", "Effort (RMS, actuator unit)"), ("added_mass_kg", "Added mass (kg)"),
+             ("cost", "Cost (price units of the plant file)")]
     return cols
 
 
