@@ -79,6 +79,23 @@ def test_report_shows_a_missed_requirement(tmp_path):
     assert "Requirements not met: min_damping" in html
     assert "NOT MET" in html
     assert "requirements not met: min_damping" in out
+    # the top records how the report was made: the command line and the inputs' digests
+    import hashlib
+
+    top = html.split("Safety.")[0]
+    assert f"dampctl report {plant_file} {design_file} -o {report}" in top
+    assert hashlib.sha256(plant_file.read_bytes()).hexdigest()[:16] in top
+    assert hashlib.sha256(design_file.read_bytes()).hexdigest()[:16] in top
+    # SVG figures embedded on request; pdf is for --plots folders only
+    svg = tmp_path / "svg.html"
+    code, _, err = _run(["report", str(plant_file), str(design_file), "-o", str(svg),
+                         "--figure-format", "svg"])
+    assert code == 1, err
+    text = svg.read_text(encoding="utf-8")
+    assert "data:image/svg+xml;base64," in text and "data:image/png" not in text
+    code, _, err = _run(["report", str(plant_file), str(design_file), "-o",
+                         str(tmp_path / "pdf.html"), "--figure-format", "pdf"])
+    assert code == 2 and "invalid choice" in err
 
 
 def test_report_refuses_to_overwrite_its_input(tmp_path):
