@@ -56,7 +56,7 @@ def plot_damping_and_cost(result, ax=None) -> dict:
             result.recommended, color=MIST, lw=6, alpha=0.6, zorder=0, label="recommended"
         )
     ax.set_xlabel("number of pairs")
-    ax.set_ylabel("smallest damping ratio over target modes")
+    ax.set_ylabel("smallest damping ratio over target modes (–)")
     ax.set_xticks(k)
     twin = ax.twinx()
     cost = twin.plot(k, [r.cost for r in result.rows], "^-", color=AMBER, label="cost")
@@ -114,7 +114,7 @@ def plot_mode_damping(result, ax=None) -> dict:
         target = ax.axhline(result.target_damping, color=BRICK, lw=1, ls=":", label="target")
     ax.set_xticks(x, [str(m) for m in modes])
     ax.set_xlabel("target mode")
-    ax.set_ylabel("closed-loop damping ratio")
+    ax.set_ylabel("closed-loop damping ratio (–)")
     ax.legend(fontsize="x-small")
     grid(ax, axis="y")
     ax.set_title("damping of each target mode for the best set of each size")
