@@ -39,19 +39,21 @@ from types import MappingProxyType
 from typing import Any
 
 import numpy as np
-from scipy.linalg import block_diag
 
 from dampctl.errors import DesignError
 from dampctl.model.passive import (
-    GROUND,
     Absorber,
     Damper,
     PassivePart,
     Shunt,
     part_from_dict,
+    part_problem,
     part_to_dict,
 )
 from dampctl.model.plant import ModalPlant, signal_name
+from dampctl.model.ssblocks import block_diagonal, branch_matrices, inverse_bilinear, parallel
+from dampctl.model.summary import plant_summary, summary_differences
+from dampctl.values import Range, describe, read_float, read_int, read_rows, read_str
 
 __all__ = [
     "Branch",
@@ -64,6 +66,8 @@ __all__ = [
 
 #: laws whose design is a set of passive parts (no loop)
 PASSIVE_LAWS: tuple[str, ...] = ("tmd", "viscous", "shunt")
+#: laws whose design is one MIMO controller (the others: one loop per pair)
+MIMO_LAWS: tuple[str, ...] = ("lqg", "custom")
 LAWS: tuple[str, ...] = ("dvf", "iff", "ppf", "lqg", "custom", *PASSIVE_LAWS)
 FORMAT = "dampctl-design"
 FORMAT_VERSION = 1
@@ -208,8 +212,8 @@ class Loop:
 
     def statespace_matrices(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
         """Minimal-per-section state space (A, B, C, D) of K(s); one input, one output."""
-        blocks = [_branch_matrices(b) for b in self.branches]
-        return _parallel(blocks)
+        blocks = [branch_matrices(b) for b in self.branches]
+        return parallel(blocks)
 
 
 @dataclass(frozen=True)
@@ -246,6 +250,10 @@ class Design:
     parts : sequence of Absorber, Damper or Shunt, optional
         The passive parts of a passive design (tmd: absorbers, viscous: dampers, shunt:
         shunts); a passive design has no loops, no controller, no actuators and no sensors.
+    plant_summary : mapping, optional
+        :func:`~dampctl.model.summary.plant_summary` of the plant it was designed for, so that
+        a mismatch can name the fields that changed. Design files written before it existed
+        have none: a mismatch then says the fingerprint differs without naming fields.
     """
 
     law: str
@@ -260,6 +268,7 @@ class Design:
     info: Mapping[str, Any] = field(default_factory=dict)
     controller_rate_hz: float | None = None
     parts: tuple[PassivePart, ...] = ()
+    plant_summary: Mapping[str, Any] | None = None
 
     def __post_init__(self) -> None:
         if self.law not in LAWS:
@@ -377,9 +386,9 @@ class Design:
         self._no_loop()
         if self.controller is not None:
             if self.controller_rate_hz is not None:
-                return _inverse_bilinear(self.controller, 1.0 / self.controller_rate_hz)
+                return inverse_bilinear(self.controller, 1.0 / self.controller_rate_hz)
             return tuple(np.array(m) for m in self.controller)
-        return _block_diagonal([lp.statespace_matrices() for lp in self.loops])
+        return block_diagonal([lp.statespace_matrices() for lp in self.loops])
 
     def discrete_matrices(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
         """(A, B, C, D) of a discrete controller as given (``controller_rate_hz``).
@@ -477,15 +486,38 @@ class Design:
         source : str, optional
             Design file name for the message.
         """
-        if plant.fingerprint != self.plant_fingerprint:
+        if self.plant_fingerprint not in (plant.fingerprint, plant.legacy_fingerprint):
+            if self.plant_summary is None:
+                what = ("this design file has no plant summary (written by an older dampctl), "
+                        "so the changed fields cannot be named")
+            else:
+                diffs = summary_differences(self.plant_summary, plant_summary(plant))
+                what = "; ".join(diffs[:6]) + (f"; and {len(diffs) - 6} more"
+                                               if len(diffs) > 6 else "")
+                what = what or "mode shapes or site values changed"
             raise DesignError(
-                f"was designed for a plant with fingerprint {self.plant_fingerprint}, but this "
-                f"plant's is {plant.fingerprint} (modes or hardware changed); tune it again",
+                f"was designed for another plant (fingerprint {self.plant_fingerprint}, this "
+                f"plant's is {plant.fingerprint}): {what}; tune it again",
                 source=source,
                 field="plant_fingerprint",
             )
+        for k, mode in enumerate(self.target_modes):
+            if not 1 <= mode <= plant.n_modes:
+                raise DesignError(f"mode {mode} does not exist (the plant has {plant.n_modes})",
+                                  source=source, field=f"target_modes[{k + 1}]")
+        known = {"actuators": [a.name for a in plant.actuators],
+                 "sensors": [x.name for x in plant.sensors]}
+        for key, names in (("actuators", self.actuators), ("sensors", self.sensors)):
+            for k, name in enumerate(names):
+                if name not in known[key]:
+                    raise DesignError(f"the plant has no {key[:-1]} {name!r}", source=source,
+                                      field=f"{key}[{k + 1}]")
+        for k, loop in enumerate(self.loops):
+            if loop.pair not in [p.name for p in plant.pairs]:
+                raise DesignError(f"the plant has no pair {loop.pair!r}", source=source,
+                                  field=f"loops[{k + 1}].pair")
         for k, part in enumerate(self.parts):
-            problem, where = _part_problem(plant, part)
+            problem, where = part_problem(plant, part)
             if problem:
                 raise DesignError(problem, source=source, field=f"parts[{k + 1}].{where}")
 
@@ -546,6 +578,8 @@ class Design:
             out["controller"] = {"A": A.tolist(), "B": B.tolist(), "C": C.tolist(), "D": D.tolist()}
             if self.controller_rate_hz is not None:
                 out["controller_rate_hz"] = self.controller_rate_hz
+        if self.plant_summary is not None:
+            out["plant_summary"] = _jsonable(dict(self.plant_summary))
         out["info"] = _jsonable(dict(self.info))
         return out
 
@@ -556,6 +590,13 @@ class Design:
 
 def design_from_dict(data: Mapping[str, Any], *, source: str | None = None) -> Design:
     """Build a :class:`Design` from its dictionary (the parsed design file).
+
+    Every value is read strictly (:mod:`dampctl.values`): a gain is a finite number, never a
+    boolean or a string; names are strings; target modes whole numbers >= 1; a loop is written
+    once; the law's fields match its name (dvf, iff and ppf hold ``loops``; lqg and custom a
+    ``controller``; tmd, viscous and shunt ``parts``). Errors name the field
+    (``loops[1].branches[1].gain``). Whether the design fits a given plant (modes, names,
+    fingerprint) is :meth:`Design.check_plant`.
 
     Parameters
     ----------
@@ -569,61 +610,145 @@ def design_from_dict(data: Mapping[str, Any], *, source: str | None = None) -> D
     Design
     """
     try:
-        if data.get("format") != FORMAT:
-            raise DesignError(f"not a dampctl design (format must be {FORMAT!r})", field="format")
-        loops = tuple(
-            Loop(
-                pair=lp["pair"],
-                actuator=lp["actuator"],
-                sensor=lp["sensor"],
-                gain=lp["gain"],
-                branches=tuple(
-                    Branch(
-                        gain=b["gain"],
-                        label=b.get("label", ""),
-                        sections=tuple(
-                            Section(tuple(s["num"]), tuple(s["den"])) for s in b.get("sections", ())
-                        ),
-                    )
-                    for b in lp["branches"]
-                ),
-            )
-            for lp in data.get("loops", ())
-        )
-        raw_parts = data.get("parts", ())
-        if not isinstance(raw_parts, list | tuple):
-            raise DesignError("expected a list of parts", field="parts")
-        parts = tuple(
-            part_from_dict(p, f"parts[{k + 1}]") for k, p in enumerate(raw_parts)
-        )
-        ctrl = data.get("controller")
-        controller = (
-            None
-            if ctrl is None
-            else tuple(
-                np.array(ctrl[k], dtype=float).reshape(_shape(ctrl, k, data)) for k in "ABCD"
-            )
-        )
-        return Design(
-            law=data["law"],
-            plant_fingerprint=data["plant_fingerprint"],
-            actuators=tuple(data["actuators"]),
-            sensors=tuple(data["sensors"]),
-            target_modes=tuple(data.get("target_modes", ())),
-            loops=loops,
-            controller=controller,
-            pairs=tuple(data.get("pairs", ())),
-            plant_title=data.get("plant_title", ""),
-            info=data.get("info", {}),
-            controller_rate_hz=data.get("controller_rate_hz"),
-            parts=parts,
-        )
+        return _design_from_dict(data)
     except DesignError as exc:
         raise DesignError(exc.message, source=source, field=exc.field) from None
-    except KeyError as exc:
-        raise DesignError("missing required key", source=source, field=str(exc.args[0])) from None
-    except (TypeError, ValueError) as exc:
-        raise DesignError(f"malformed design ({exc})", source=source) from None
+
+
+def _design_from_dict(data: Mapping[str, Any]) -> Design:
+    if data.get("format") != FORMAT:
+        raise DesignError(f"not a dampctl design (format must be {FORMAT!r})", field="format")
+    law = read_str(_need(data, "law"), "law", error=DesignError)
+    if law not in LAWS:
+        raise DesignError(f"law must be one of {', '.join(LAWS)}, got {law!r}", field="law")
+    wanted = "parts" if law in PASSIVE_LAWS else "controller" if law in MIMO_LAWS else "loops"
+    for key in ("loops", "controller", "parts"):
+        if key != wanted and data.get(key) not in (None, [], ()):
+            raise DesignError(f"a {law} design holds {wanted}, not {key}", field=key)
+    if wanted != "parts" and data.get(wanted) is None:
+        raise DesignError(f"missing required key (a {law} design holds {wanted})", field=wanted)
+    loops = tuple(_read_loop(lp, f"loops[{k + 1}]")
+                  for k, lp in enumerate(_list(data.get("loops", []), "loops")))
+    for k, loop in enumerate(loops):
+        for j in range(k):
+            for what in ("pair", "actuator"):
+                if getattr(loops[j], what) == getattr(loop, what):
+                    raise DesignError(
+                        f"{what} {getattr(loop, what)!r} has a loop already (loops[{j + 1}]): "
+                        "a loop is written once",
+                        field=f"loops[{k + 1}].{what}",
+                    )
+    parts = tuple(part_from_dict(p, f"parts[{k + 1}]")
+                  for k, p in enumerate(_list(data.get("parts", []), "parts")))
+    actuators = _names(data, "actuators")
+    sensors = _names(data, "sensors")
+    controller = None
+    if data.get("controller") is not None:
+        controller = _read_controller(data["controller"], len(sensors), len(actuators))
+    rate = data.get("controller_rate_hz")
+    summary = data.get("plant_summary")
+    if summary is not None and not isinstance(summary, Mapping):
+        raise DesignError(f"expected a table, got {describe(summary)}", field="plant_summary")
+    info = data.get("info", {})
+    if not isinstance(info, Mapping):
+        raise DesignError(f"expected a table, got {describe(info)}", field="info")
+    return Design(
+        law=law,
+        plant_fingerprint=read_str(_need(data, "plant_fingerprint"), "plant_fingerprint",
+                                   error=DesignError, empty=False),
+        actuators=actuators,
+        sensors=sensors,
+        target_modes=tuple(
+            read_int(m, f"target_modes[{k + 1}]", bounds=Range(1, None), error=DesignError)
+            for k, m in enumerate(_list(data.get("target_modes", []), "target_modes"))
+        ),
+        loops=loops,
+        controller=controller,
+        pairs=_names(data, "pairs"),
+        plant_title=read_str(data.get("plant_title", ""), "plant_title", error=DesignError),
+        info=info,
+        controller_rate_hz=None if rate is None else read_float(
+            rate, "controller_rate_hz", bounds=Range(0, None, "Hz", low_open=True),
+            error=DesignError),
+        parts=parts,
+        plant_summary=summary,
+    )
+
+
+def _need(data: Mapping[str, Any], key: str) -> Any:
+    if key not in data:
+        raise DesignError("missing required key", field=key)
+    return data[key]
+
+
+def _list(value: Any, where: str) -> list:
+    if not isinstance(value, list | tuple):
+        raise DesignError(f"expected a list, got {describe(value)}", field=where)
+    return list(value)
+
+
+def _names(data: Mapping[str, Any], key: str) -> tuple[str, ...]:
+    return tuple(read_str(v, f"{key}[{k + 1}]", error=DesignError, empty=False)
+                 for k, v in enumerate(_list(data.get(key, []), key)))
+
+
+def _table(value: Any, where: str) -> Mapping[str, Any]:
+    if not isinstance(value, Mapping):
+        raise DesignError(f"expected a table, got {describe(value)}", field=where)
+    return value
+
+
+def _read_loop(raw: Any, where: str) -> Loop:
+    lp = _table(raw, where)
+    names = {k: read_str(_need_at(lp, k, where), f"{where}.{k}", error=DesignError, empty=False)
+             for k in ("pair", "actuator", "sensor")}
+    branches = []
+    for j, rb in enumerate(_list(_need_at(lp, "branches", where), f"{where}.branches")):
+        at = f"{where}.branches[{j + 1}]"
+        b = _table(rb, at)
+        sections = []
+        for i, rs in enumerate(_list(b.get("sections", []), f"{at}.sections")):
+            sat = f"{at}.sections[{i + 1}]"
+            sec = _table(rs, sat)
+            coeffs = {}
+            for key in ("num", "den"):
+                values = _list(_need_at(sec, key, sat), f"{sat}.{key}")
+                coeffs[key] = tuple(read_float(v, f"{sat}.{key}[{n + 1}]", error=DesignError)
+                                    for n, v in enumerate(values))
+            try:
+                sections.append(Section(coeffs["num"], coeffs["den"]))
+            except DesignError as exc:
+                raise DesignError(exc.message, field=sat) from None
+        branches.append(Branch(
+            gain=read_float(_need_at(b, "gain", at), f"{at}.gain", error=DesignError),
+            sections=tuple(sections),
+            label=read_str(b.get("label", ""), f"{at}.label", error=DesignError),
+        ))
+    if not branches:
+        raise DesignError("a loop needs at least one controller branch", field=f"{where}.branches")
+    return Loop(gain=read_float(_need_at(lp, "gain", where), f"{where}.gain", error=DesignError),
+                branches=tuple(branches), **names)
+
+
+def _need_at(table: Mapping[str, Any], key: str, where: str) -> Any:
+    if key not in table:
+        raise DesignError("missing required key", field=f"{where}.{key}")
+    return table[key]
+
+
+def _read_controller(raw: Any, n_in: int, n_out: int):
+    ctrl = _table(raw, "controller")
+    a_rows = _list(_need_at(ctrl, "A", "controller"), "controller.A")
+    n = len(a_rows)
+    mats = []
+    for key, rows, cols in (("A", n, n), ("B", n, n_in), ("C", n_out, n), ("D", n_out, n_in)):
+        where = f"controller.{key}"
+        value = read_rows(_need_at(ctrl, key, "controller"), where, cols, error=DesignError)
+        if len(value) != rows:
+            raise DesignError(f"expected {rows} rows of {cols} (states {n}, sensors {n_in}, "
+                              f"actuators {n_out}), got {len(value)}", field=where)
+        mats.append(np.array(value, dtype=float).reshape(rows, cols))
+    return tuple(mats)
 
 
 def load_design(path: str | Path) -> Design:
@@ -647,59 +772,14 @@ def load_design(path: str | Path) -> Design:
         ) from None
     except (UnicodeDecodeError, json.JSONDecodeError) as exc:
         raise DesignError(f"not a JSON design file ({exc})", source=str(path)) from None
+    except RecursionError:
+        raise DesignError("not a design file (JSON nested too deep)", source=str(path)) from None
     if not isinstance(data, dict):
         raise DesignError("not a dampctl design (expected a JSON object)", source=str(path))
     return design_from_dict(data, source=str(path))
 
 
 # ---------------------------------------------------------------------- helpers
-def _inverse_bilinear(mats, sample_time_s: float):
-    """Continuous (A, B, C, D) whose bilinear discretization at T is the given one."""
-    Ad, Bd, Cd, Dd = (np.asarray(m, dtype=float) for m in mats)
-    n = Ad.shape[0]
-    if n == 0:
-        return Ad.copy(), Bd.copy(), Cd.copy(), Dd.copy()
-    inv = np.linalg.inv(Ad + np.eye(n))
-    A = (2.0 / sample_time_s) * (np.eye(n) - 2.0 * inv)
-    B = (2.0 / sample_time_s) * inv @ Bd
-    C = 2.0 * Cd @ inv
-    D = Dd - Cd @ inv @ Bd
-    return A, B, C, D
-
-
-def _part_problem(plant: ModalPlant, part) -> tuple[str, str]:
-    """What is wrong with a passive part on this plant ("" when nothing), and the field."""
-    if isinstance(part, Absorber):
-        if part.site not in plant.sites:
-            return f"unknown site {part.site!r}", "site"
-        if part.mode > plant.n_modes:
-            return f"mode {part.mode} does not exist (the plant has {plant.n_modes})", "mode"
-    elif isinstance(part, Damper):
-        for name in part.between:
-            if name != GROUND and name not in plant.sites:
-                return f"unknown site {name!r}", "between"
-    elif isinstance(part, Shunt):
-        actuator = next((a for a in plant.actuators if a.name == part.actuator), None)
-        if actuator is None or not actuator.piezo:
-            return (
-                f"{part.actuator!r} is not a piezoelectric strut of the plant (a strut with "
-                "capacitance_f and coupling_k)",
-                "actuator",
-            )
-        pair = next((p for p in plant.pairs if p.name == part.pair), None)
-        if pair is None or pair.actuator != part.actuator:
-            return f"the plant has no pair {part.pair!r} on {part.actuator!r}", "pair"
-        if part.mode > plant.n_modes:
-            return f"mode {part.mode} does not exist (the plant has {plant.n_modes})", "mode"
-    return "", ""
-
-
-def _shape(ctrl, key, data):
-    n = len(ctrl["A"])
-    n_in, n_out = len(data["sensors"]), len(data["actuators"])
-    return {"A": (n, n), "B": (n, n_in), "C": (n_out, n), "D": (n_out, n_in)}[key]
-
-
 def _jsonable(value: Any) -> Any:
     if isinstance(value, Mapping):
         return {str(k): _jsonable(v) for k, v in value.items()}
@@ -713,60 +793,4 @@ def _jsonable(value: Any) -> Any:
         return None
     return value
 
-
-def _section_matrices(section: Section):
-    """Controllable canonical form of one section (0, 1 or 2 states)."""
-    den = np.array(section.den) / section.den[0]
-    num = np.zeros(len(den))
-    num[len(den) - len(section.num) :] = np.array(section.num) / section.den[0]
-    order = len(den) - 1
-    d = num[0]
-    if order == 0:
-        return np.zeros((0, 0)), np.zeros((0, 1)), np.zeros((1, 0)), np.array([[d]])
-    rest = num[1:] - d * den[1:]  # strictly proper part, highest power first
-    A = np.zeros((order, order))
-    A[0, :] = -den[1:]
-    if order == 2:
-        A[1, 0] = 1.0
-    B = np.zeros((order, 1))
-    B[0, 0] = 1.0
-    C = rest.reshape(1, order)
-    return A, B, C, np.array([[d]])
-
-
-def _series(first, second):
-    """second ∘ first (first's output drives second's input)."""
-    A1, B1, C1, D1 = first
-    A2, B2, C2, D2 = second
-    n1, n2 = A1.shape[0], A2.shape[0]
-    A = np.zeros((n1 + n2, n1 + n2))
-    A[:n1, :n1] = A1
-    A[n1:, :n1] = B2 @ C1
-    A[n1:, n1:] = A2
-    B = np.vstack([B1, B2 @ D1])
-    C = np.hstack([D2 @ C1, C2])
-    return A, B, C, D2 @ D1
-
-
-def _branch_matrices(branch: Branch):
-    system = (np.zeros((0, 0)), np.zeros((0, 1)), np.zeros((1, 0)), np.array([[branch.gain]]))
-    for section in branch.sections:
-        system = _series(system, _section_matrices(section))
-    return system
-
-
-def _parallel(blocks):
-    A = _blkdiag([b[0] for b in blocks])
-    B = np.vstack([b[1] for b in blocks])
-    C = np.hstack([b[2] for b in blocks])
-    D = sum(b[3] for b in blocks)
-    return A, B, C, D
-
-
-def _block_diagonal(systems):
-    return tuple(block_diag(*[np.atleast_2d(s[k]) for s in systems]) for k in range(4))
-
-
-def _blkdiag(mats):
-    return block_diag(*mats)
 

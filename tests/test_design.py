@@ -109,8 +109,19 @@ def test_fingerprint_mismatch(plant):
     design = loop_design(plant)
     design.check_plant(plant)
     other = chain_plant([1.0, 0.5], [5e5, 2.1e5], damping=0.01)
-    with pytest.raises(DesignError, match=r"d\.json: plant_fingerprint: was designed for a plant"):
+    with pytest.raises(DesignError, match=r"d\.json: plant_fingerprint: was designed for another"):
         design.check_plant(other, source="d.json")
+    # the design file keeps a plant summary (the laws store it): the message names what changed
+    from dataclasses import replace
+
+    from dampctl.model.summary import plant_summary
+
+    named = r"designed for another plant .*: mode 1 freq_hz 76.3021 → 77.0724; mode 2"
+    with pytest.raises(DesignError, match=named):
+        replace(design, plant_summary=plant_summary(plant)).check_plant(other)
+    bare = design  # no summary, as a design file from before it
+    with pytest.raises(DesignError, match="no plant summary"):
+        bare.check_plant(other)
 
 
 def test_fingerprint_ignores_outputs_and_requirements(plant):

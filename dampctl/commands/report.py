@@ -32,6 +32,7 @@ from dampctl.model.plant import ModalPlant
 from dampctl.model.plantfile import load_plant
 from dampctl.model.survey import survey_plant
 from dampctl.report.html import ReportInputs, render_report
+from dampctl.values import Range, describe, read_float, read_int, read_str
 
 NAME = "report"
 HELP = "write a self-contained HTML report of a design on its plant"
@@ -259,13 +260,10 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     design.check_plant(plant, source=args.design)
     sizing = _read_json(args.sizing, "--sizing") if args.sizing else None
     export = _read_json(args.export, "--export") if args.export else None
-    if sizing is not None and "rows" not in sizing:
-        raise UsageError(f"--sizing: {args.sizing} is not a sizing result (no 'rows')")
-    if export is not None and not {"rate_hz", "method"} <= set(export):
-        raise UsageError(
-            f"--export: {args.export} is not an export summary (no 'rate_hz'/'method'; give "
-            "the controller.json written by dampctl export)"
-        )
+    if sizing is not None:
+        _check_sizing(sizing, args.sizing, plant)
+    if export is not None:
+        _check_export(export, args.export, plant, design)
     measured = None
     if args.measured:
         from dampctl.commands.plant_fit import output_kinds
@@ -369,12 +367,71 @@ def provenance_of(argv=None, files=(), *, texts=None) -> dict[str, Any]:
     return {"created": now, "command": command, "inputs": inputs}
 
 
+def _check_sizing(sizing: Mapping[str, Any], path: str, plant) -> None:
+    """A sizing result of ``dampctl size --json`` for this plant, its fields of the right type."""
+    if sizing.get("format") != "dampctl-sizing" or not isinstance(sizing.get("rows"), list):
+        raise UsageError(f"--sizing: {path} is not a sizing result (its format is not "
+                         "dampctl-sizing with a list of rows: give dampctl size --json output)")
+    _check_fingerprint(sizing, path, "--sizing", plant)
+    for k, mode in enumerate(_list(sizing.get("modes", []), path, "modes")):
+        read_int(mode, f"--sizing: {path}: modes[{k + 1}]", bounds=Range(1, plant.n_modes),
+                 error=UsageError)
+    for k, row in enumerate(sizing["rows"]):
+        where = f"--sizing: {path}: rows[{k + 1}]"
+        if not isinstance(row, Mapping):
+            raise UsageError(f"{where}: expected a table, got {describe(row)}")
+        read_int(row.get("pairs_used"), f"{where}.pairs_used", bounds=Range(0, None),
+                 error=UsageError)
+        for key in ("min_damping", "achievable_min_damping", "cost"):
+            if row.get(key) is not None:
+                read_float(row[key], f"{where}.{key}", error=UsageError)
+        for j, m in enumerate(_list(row.get("mode_damping", []), path, f"rows[{k + 1}]"
+                                    ".mode_damping")):
+            at = f"{where}.mode_damping[{j + 1}]"
+            if not isinstance(m, Mapping):
+                raise UsageError(f"{at}: expected a table, got {describe(m)}")
+            read_int(m.get("mode"), f"{at}.mode", bounds=Range(1, plant.n_modes), error=UsageError)
+            if m.get("damping") is not None:
+                read_float(m["damping"], f"{at}.damping", error=UsageError)
+
+
+def _check_export(export: Mapping[str, Any], path: str, plant, design) -> None:
+    """The controller.json of ``dampctl export`` (or its --json) for this plant and design."""
+    if export.get("format") not in ("dampctl-discrete", "dampctl-export"):
+        raise UsageError(f"--export: {path} is not an export summary (its format is not "
+                         "dampctl-discrete: give the controller.json written by dampctl export, "
+                         "or its --json output)")
+    _check_fingerprint(export, path, "--export", plant)
+    read_float(export.get("rate_hz"), f"--export: {path}: rate_hz",
+               bounds=Range(0, None, "Hz", low_open=True), error=UsageError)
+    read_str(export.get("method"), f"--export: {path}: method", error=UsageError)
+    stated = export.get("law")
+    if stated is not None and stated != design.law:
+        raise UsageError(f"--export: {path}: law: the export is of a {stated!r} design, the "
+                         f"design given is {design.law!r}")
+
+
+def _check_fingerprint(data: Mapping[str, Any], path: str, option: str, plant) -> None:
+    stated = data.get("plant_fingerprint")
+    if stated is None:
+        return  # written before the fingerprint was stored: nothing to check against
+    if stated not in (plant.fingerprint, plant.legacy_fingerprint):
+        raise UsageError(f"{option}: {path}: plant_fingerprint: made for another plant "
+                         f"(fingerprint {stated}, this plant's is {plant.fingerprint})")
+
+
+def _list(value: Any, path: str, key: str) -> list:
+    if not isinstance(value, list):
+        raise UsageError(f"{path}: {key}: expected a list, got {describe(value)}")
+    return value
+
+
 def _read_json(path: str, option: str) -> dict:
     try:
         data = json.loads(Path(path).read_text(encoding="utf-8"))
     except OSError as exc:
         raise UsageError(f"{option}: cannot read {path} ({exc.strerror or exc})") from None
-    except (UnicodeDecodeError, json.JSONDecodeError) as exc:
+    except (UnicodeDecodeError, json.JSONDecodeError, RecursionError) as exc:
         raise UsageError(f"{option}: {path} is not JSON ({exc})") from None
     if not isinstance(data, dict):
         raise UsageError(f"{option}: {path} does not hold a JSON object")

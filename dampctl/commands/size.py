@@ -151,6 +151,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         pngs = sizing_pngs(result, figure_format=args.figure_format)
         files = write_files(args.plots, pngs, inputs=[args.plant], replace=args.force)
     payload = result.to_dict()
+    payload["plant_fingerprint"] = plant.fingerprint
     payload["plots"] = [str(f) for f in files]
     payload["safety"] = list(SAFETY_LINES)
     if args.json:
@@ -189,7 +190,8 @@ def _passive(args: argparse.Namespace, out: TextIO) -> int:
                              kind=args.shunt, max_pairs=args.max_pairs,
                              target_damping=args.target_damping)
     if args.json:
-        print_json(result.to_dict(), out, "sizing-passive")
+        print_json({**result.to_dict(), "plant_fingerprint": plant.fingerprint}, out,
+                   "sizing-passive")
     else:
         size = "mass ratio" if result.size_name == "mass_ratio" else "struts"
         target = "none" if result.target_damping is None else f"{result.target_damping:g}"

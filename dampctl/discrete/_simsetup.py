@@ -323,7 +323,7 @@ def actuator_results(plant, channels, record, limits, keep) -> tuple[ActuatorRes
 
 def sample_count(duration_s: float, rate: float) -> int:
     if not (math.isfinite(duration_s) and duration_s > 0):
-        raise UsageError(f"duration must be > 0 s, got {duration_s!r}")
+        raise UsageError(f"--duration: must be > 0 s, got {duration_s!r}")
     steps = math.floor(duration_s * rate + 1e-9) + 1
     if steps > MAX_SAMPLES:
         raise UsageError(

@@ -14,6 +14,7 @@ from dampctl.errors import UsageError
 from dampctl.laws._checks import ModeGroups, mode_groups, resolve_pairs, target_indices
 from dampctl.laws._tuning import Evaluation, LoopModel
 from dampctl.model.plant import ModalPlant, Pair
+from dampctl.model.summary import plant_summary
 
 __all__ = ["Setup", "finish", "loop_gains", "search_outcome", "setup"]
 
@@ -175,6 +176,7 @@ def finish(
     return Design(
         law=law,
         plant_fingerprint=plant.fingerprint,
+        plant_summary=plant_summary(plant),
         actuators=tuple(lp.actuator for lp in loops),
         sensors=tuple(lp.sensor for lp in loops),
         target_modes=tuple(i + 1 for i in request.targets),

@@ -23,6 +23,7 @@ from dampctl.design import Design
 from dampctl.errors import UsageError
 from dampctl.model.passive import PassivePart
 from dampctl.model.plant import ModalPlant
+from dampctl.model.summary import plant_summary
 from dampctl.model.survey import find_clusters
 
 __all__ = [
@@ -392,6 +393,7 @@ def passive_design(
     return Design(
         law=law,
         plant_fingerprint=plant.fingerprint,
+        plant_summary=plant_summary(plant),
         actuators=(),
         sensors=(),
         target_modes=tuple(modes),

@@ -25,6 +25,7 @@ import numpy as np
 from dampctl.design import Design
 from dampctl.errors import DesignError, UsageError
 from dampctl.model.plant import ModalPlant
+from dampctl.model.summary import plant_summary
 
 __all__ = ["controller_from_file", "design_from_statespace"]
 
@@ -157,6 +158,7 @@ def design_from_statespace(
         return Design(
             law="custom",
             plant_fingerprint=plant.fingerprint,
+            plant_summary=plant_summary(plant),
             actuators=tuple(acts),
             sensors=tuple(sens),
             target_modes=tuple(targets),
@@ -206,20 +208,35 @@ def controller_from_file(path: str | Path):
             raise DesignError(
                 f"cannot read the controller file ({exc.strerror or exc})", source=source
             ) from None
-        except (UnicodeDecodeError, json.JSONDecodeError) as exc:
+        except (UnicodeDecodeError, json.JSONDecodeError, RecursionError) as exc:
             raise DesignError(f"not a JSON controller file ({exc})", source=source) from None
         if not isinstance(data, dict):
             raise DesignError("expected a JSON object with A, B, C, D", source=source)
         arrays = data
+    from dampctl.values import read_float, read_rows
+
     out = []
     for key in "ABCD":
         if key not in arrays:
             raise DesignError("missing array", source=source, field=key)
         value = arrays[key]
+        try:  # strict: a boolean or a string is not a number, rows are of one length
+            if isinstance(value, list) and value and all(isinstance(r, list) for r in value):
+                value = read_rows(value, key, len(value[0]), error=DesignError)
+            elif isinstance(value, list):
+                value = [read_float(v, f"{key}[{k + 1}]", error=DesignError)
+                         for k, v in enumerate(value)]
+        except DesignError as exc:
+            raise DesignError(exc.message, source=source, field=exc.field) from None
+        if isinstance(value, np.ndarray) and value.dtype.kind not in "iuf":
+            raise DesignError(f"expected numbers, got an array of {value.dtype}", source=source,
+                              field=key)
         try:
             arr = np.array(value, dtype=float)
         except (TypeError, ValueError):
             raise DesignError("not a matrix of numbers", source=source, field=key) from None
+        if not np.all(np.isfinite(arr)):
+            raise DesignError("must be finite", source=source, field=key)
         if arr.ndim == 1 and arr.size == 0:
             arr = arr.reshape(0, 0)
         out.append(arr)

@@ -113,6 +113,7 @@ from dampctl.laws._lqg_gains import (
 from dampctl.laws.reduction import Reduction, reduce_controller
 from dampctl.laws.spillover import check_on_plant
 from dampctl.model.plant import ModalPlant
+from dampctl.model.summary import plant_summary
 
 __all__ = [
     "BACKOFF_FACTORS",
@@ -592,6 +593,7 @@ def _make(plant, actuators, sensors, targets, controller, pairs, info) -> Design
     return Design(
         law="lqg",
         plant_fingerprint=plant.fingerprint,
+        plant_summary=plant_summary(plant),
         actuators=tuple(actuators),
         sensors=tuple(sensors),
         target_modes=tuple(i + 1 for i in targets),

@@ -29,6 +29,7 @@ __all__ = [
     "PassivePart",
     "Shunt",
     "part_from_dict",
+    "part_problem",
     "part_to_dict",
 ]
 
@@ -350,3 +351,43 @@ def part_from_dict(data: Mapping[str, Any], where: str = "parts") -> PassivePart
     except DesignError as exc:
         field = f"{where}.{exc.field}" if exc.field else where
         raise DesignError(exc.message, field=field) from None
+
+
+def part_problem(plant, part) -> tuple[str, str]:
+    """What is wrong with a passive part on this plant ("" when nothing), and the field.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant the part is to act on.
+    part : Absorber, Damper or Shunt
+        The part.
+
+    Returns
+    -------
+    tuple of str
+        (problem, field of the part), both "" when the part fits the plant.
+    """
+    if isinstance(part, Absorber):
+        if part.site not in plant.sites:
+            return f"unknown site {part.site!r}", "site"
+        if part.mode > plant.n_modes:
+            return f"mode {part.mode} does not exist (the plant has {plant.n_modes})", "mode"
+    elif isinstance(part, Damper):
+        for name in part.between:
+            if name != GROUND and name not in plant.sites:
+                return f"unknown site {name!r}", "between"
+    elif isinstance(part, Shunt):
+        actuator = next((a for a in plant.actuators if a.name == part.actuator), None)
+        if actuator is None or not actuator.piezo:
+            return (
+                f"{part.actuator!r} is not a piezoelectric strut of the plant (a strut with "
+                "capacitance_f and coupling_k)",
+                "actuator",
+            )
+        pair = next((p for p in plant.pairs if p.name == part.pair), None)
+        if pair is None or pair.actuator != part.actuator:
+            return f"the plant has no pair {part.pair!r} on {part.actuator!r}", "pair"
+        if part.mode > plant.n_modes:
+            return f"mode {part.mode} does not exist (the plant has {plant.n_modes})", "mode"
+    return "", ""

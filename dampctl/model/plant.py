@@ -421,11 +421,30 @@ class ModalPlant:
 
     @property
     def fingerprint(self) -> str:
-        """Short hash of everything a damping loop depends on (modes, sites, hardware, pairs).
+        """Short hash of everything a damping design depends on, and of nothing else.
 
-        Outputs, disturbances, requirements, part prices and the title are left out, so editing
-        them does not invalidate a design.
+        In it: the modes (frequency, damping, modal mass), the mode shapes at every site, the
+        actuators' and sensors' kinds, sites, strut stiffness, piezo constants and roll-offs
+        (``bandwidth_hz``), the pairs, and the loop delay and sample rate of the requirements.
+        Left out: costs, sensor noise densities and force or stroke limits (assessment reads
+        those from the plant it is given), outputs, disturbances, the other requirements, part
+        prices and the title, so editing them does not invalidate a design.
         """
+        req = self.requirements
+        payload = {
+            "modes": [[m.freq_hz, m.damping, m.modal_mass_kg] for m in self.modes],
+            "sites": {k: [float(x) for x in v] for k, v in sorted(self.sites.items())},
+            "actuators": [_plain(a, _NOT_DESIGN_KEYS) for a in self.actuators],
+            "sensors": [_plain(s, _NOT_DESIGN_KEYS) for s in self.sensors],
+            "pairs": [_plain(p) for p in self.pairs],
+            "loop": [req.loop_delay_s, req.sample_rate_hz],
+        }
+        return _hash(payload)
+
+    @property
+    def legacy_fingerprint(self) -> str:
+        """The fingerprint as dampctl 0.x wrote it before the loop delay and sample rate entered
+        it and costs, noise and limits left it; design files carrying it are still accepted."""
         payload = {
             "modes": [[m.freq_hz, m.damping, m.modal_mass_kg] for m in self.modes],
             "sites": {k: [float(x) for x in v] for k, v in sorted(self.sites.items())},
@@ -433,8 +452,7 @@ class ModalPlant:
             "sensors": [_plain(s) for s in self.sensors],
             "pairs": [_plain(p) for p in self.pairs],
         }
-        text = json.dumps(payload, sort_keys=True, separators=(",", ":"), default=repr)
-        return hashlib.sha256(text.encode()).hexdigest()[:16]
+        return _hash(payload)
 
     # ------------------------------------------------------------------ modal rows
     def input_row(self, name: str) -> np.ndarray:
@@ -730,10 +748,19 @@ def _shape_row(row, field: str) -> np.ndarray:
 _LATER_KEYS = frozenset({"capacitance_f", "coupling_k"})
 
 
-def _plain(item) -> dict:
+#: hardware keys a design does not depend on (assessment reads them from the plant it is given)
+_NOT_DESIGN_KEYS = frozenset({"cost", "noise_density", "max_force_n", "max_stroke_m"})
+
+
+def _hash(payload: dict) -> str:
+    text = json.dumps(payload, sort_keys=True, separators=(",", ":"), default=repr)
+    return hashlib.sha256(text.encode()).hexdigest()[:16]
+
+
+def _plain(item, leave_out: frozenset[str] = frozenset()) -> dict:
     out = {}
     for key, value in item.__dict__.items():
-        if key in _LATER_KEYS and value is None:
+        if key in leave_out or (key in _LATER_KEYS and value is None):
             continue
         out[key] = list(value) if isinstance(value, tuple) else value
     return out

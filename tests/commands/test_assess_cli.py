@@ -72,7 +72,7 @@ def test_exit_1_names_the_requirement_and_the_shortfall(tmp_path):
 def test_exit_2_on_fingerprint_mismatch_and_bad_options(tmp_path):
     code, out, err = _run(*_files(tmp_path, other_plant=True))
     assert code == 2 and out == ""
-    assert "design.json: plant_fingerprint: was designed for a plant" in err
+    assert "design.json: plant_fingerprint: was designed for another plant" in err
     assert err.count("\n") == 1
     plant, design = _files(tmp_path)
     assert _run(plant, design, "--drift", "2")[0] == 2

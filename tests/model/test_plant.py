@@ -363,3 +363,75 @@ def test_unknown_input_and_output_names():
         plant.frf([1.0], ["f1"], ["nope"])
     with pytest.raises(PlantError, match="freq_hz"):
         plant.frf([-1.0], ["f1"], ["x1"])
+
+
+# ---------------------------------------------------------------------- the fingerprint
+def _oscillator():
+    from repo import PLANTS
+
+    from dampctl.model.plantfile import load_plant
+
+    return load_plant(PLANTS / "oscillator.toml")
+
+
+def _edit(plant, **changes):
+    """A copy of the plant with one thing changed (``modes``, ``actuators``... or a field of
+    the requirements given as ``requirements=dict(...)``)."""
+    from dataclasses import replace
+
+    req = changes.pop("requirements", None)
+    if req is not None:
+        changes["requirements"] = replace(plant.requirements, **req)
+    return replace(plant, **changes)
+
+
+def test_fingerprint_leaves_out_cost_noise_and_limits():
+    from dataclasses import replace
+
+    plant = _oscillator()
+    act, (vel, gap) = plant.actuators[0], plant.sensors
+    for other in (
+        _edit(plant, actuators=(replace(act, cost=1.0),)),
+        _edit(plant, actuators=(replace(act, max_force_n=3.0),)),
+        _edit(plant, actuators=(replace(act, max_stroke_m=1e-3),)),
+        _edit(plant, sensors=(replace(vel, noise_density=5e-6), gap)),
+        _edit(plant, sensors=(vel, replace(gap, cost=7.0))),
+        _edit(plant, requirements={"min_damping": 0.3, "min_gain_margin_db": 3.0}),
+        _edit(plant, title="renamed"),
+    ):
+        assert other.fingerprint == plant.fingerprint
+
+
+def test_fingerprint_covers_what_the_design_depends_on():
+    from dataclasses import replace
+
+    plant = _oscillator()
+    mode, act, (vel, gap) = plant.modes[0], plant.actuators[0], plant.sensors
+    edits = {
+        "freq_hz": _edit(plant, modes=(replace(mode, freq_hz=35.0),)),
+        "damping": _edit(plant, modes=(replace(mode, damping=0.02),)),
+        "modal_mass_kg": _edit(plant, modes=(replace(mode, modal_mass_kg=3.0),)),
+        "shape": _edit(plant, sites={"mass": np.array([0.9])}),
+        "actuator bandwidth": _edit(plant, actuators=(replace(act, bandwidth_hz=4000.0),)),
+        "sensor bandwidth": _edit(plant, sensors=(replace(vel, bandwidth_hz=900.0), gap)),
+        "sensor kind": _edit(plant, sensors=(replace(vel, kind="acceleration"), gap)),
+        "pair": _edit(plant, pairs=(replace(plant.pairs[0], sensor="gap"), plant.pairs[1])),
+        "loop delay": _edit(plant, requirements={"loop_delay_s": 2e-4}),
+        "sample rate": _edit(plant, requirements={"sample_rate_hz": 8000.0}),
+    }
+    prints = {name: p.fingerprint for name, p in edits.items()}
+    assert plant.fingerprint not in prints.values(), prints
+    assert len(set(prints.values())) == len(prints)
+
+
+def test_summary_names_what_changed():
+    from dataclasses import replace
+
+    from dampctl.model.summary import plant_summary, summary_differences
+
+    plant = _oscillator()
+    other = _edit(plant, modes=(replace(plant.modes[0], freq_hz=35.0),),
+                  requirements={"sample_rate_hz": 8000.0})
+    assert summary_differences(plant_summary(plant), plant_summary(plant)) == []
+    assert summary_differences(plant_summary(plant), plant_summary(other)) == [
+        "mode 1 freq_hz 31.831 → 35", "sample_rate_hz 10000 → 8000"]
