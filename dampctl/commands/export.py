@@ -15,7 +15,7 @@ from dampctl.commands._common import (
     table,
 )
 from dampctl.design import load_design
-from dampctl.discrete.export import export_design
+from dampctl.discrete.export import export_design, modes_above_nyquist
 from dampctl.discrete.writers import (
     FILE_NAMES,
     FORMATS,
@@ -108,6 +108,12 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         metavar="LIST",
         help="files to write, comma-separated from json, csv, c (default json,csv,c)",
     )
+    parser.add_argument(
+        "--allow-aliasing",
+        action="store_true",
+        help="export even when the sample rate is below twice a controlled mode (by default "
+        "that is refused: the loop cannot act on a mode above the Nyquist frequency)",
+    )
     parser.add_argument("-o", "--output", required=True, metavar="DIR", help="output folder")
     add_force_option(
         parser, "the export files in DIR (other formats of an earlier export there are removed)"
@@ -193,9 +199,24 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
     design.check_plant(plant, source=args.design)
     if design.passive:
         return _parts_list(args, plant, design, formats, out)
+    if isinstance(input_range, dict):
+        known = [lp.pair for lp in design.loops] or list(design.pairs)
+        for name in input_range:
+            if name not in known:
+                raise UsageError(f"--input-range: {name!r} is not a loop of the design (its "
+                                 f"pairs: {', '.join(known) or 'none'})")
     rate = args.rate if args.rate is not None else plant.requirements.sample_rate_hz
     if rate is None:
         raise UsageError("--rate is required (the plant file states no sample_rate_hz)")
+    high = modes_above_nyquist(plant, design.target_modes, rate)
+    if high and not args.allow_aliasing:
+        listing = ", ".join(f"mode {m} ({f:.6g} Hz)" for m, f in high)
+        filters = " (a PPF filter tuned above it cannot be realised)" if design.law == "ppf" else ""
+        raise UsageError(
+            f"--rate: {rate:g} Hz is below twice {listing}: the Nyquist frequency "
+            f"{rate / 2:g} Hz is below a controlled mode{filters}; raise the rate or give "
+            "--allow-aliasing"
+        )
     result = export_design(
         plant,
         design,

@@ -458,6 +458,17 @@ def tune_payload(plant, design, modes, *, design_file: str | None = None) -> dic
     met = None if target is None or smallest is None else bool(smallest >= target * (1 - 1e-6))
     table_dict = modes.to_dict()
     warnings = list(info.get("warnings", []))
+    rate = plant.requirements.sample_rate_hz
+    if rate is not None and not design.passive:
+        from dampctl.discrete.export import modes_above_nyquist
+
+        high = modes_above_nyquist(plant, design.target_modes, rate)
+        if high:
+            listing = ", ".join(f"mode {m} ({f:.6g} Hz)" for m, f in high)
+            warnings.append(
+                f"the plant's sample_rate_hz {rate:g} Hz is below twice {listing}: a sampled "
+                "loop cannot act on it (dampctl export refuses it unless --allow-aliasing)"
+            )
     if not modes.stable and not any("UNSTABLE" in w for w in warnings):
         warnings.append(
             "the closed loop is UNSTABLE (largest pole real part "

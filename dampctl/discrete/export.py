@@ -36,7 +36,7 @@ from dampctl.discrete.sections import ParallelForm, _block_diagonal
 from dampctl.errors import UsageError
 from dampctl.model.plant import ModalPlant
 
-__all__ = ["ExportResult", "Realisation", "export_design", "realisations"]
+__all__ = ["ExportResult", "Realisation", "export_design", "modes_above_nyquist", "realisations"]
 
 FIXED = ("none", "q15", "q31")
 
@@ -81,6 +81,31 @@ class Realisation:
     scaling: LoopScaling | None = None
     noise_rms: float = 0.0
     coefficient_error_rms: float = 0.0
+
+
+def modes_above_nyquist(plant: ModalPlant, modes, rate_hz: float) -> tuple[tuple[int, float], ...]:
+    """Controlled modes at or above the Nyquist frequency of a sample rate.
+
+    A loop sampled at ``rate_hz`` cannot act on a mode at ``f >= rate_hz / 2``: the mode
+    aliases to a lower frequency and a filter tuned to it (PPF) cannot be realised (Shannon's
+    sampling theorem; Franklin, Powell & Workman, *Digital Control of Dynamic Systems*, 1998).
+
+    Parameters
+    ----------
+    plant : ModalPlant
+    modes : iterable of int
+        Mode numbers (1-based), e.g. a design's ``target_modes``.
+    rate_hz : float
+        Sample rate (Hz).
+
+    Returns
+    -------
+    tuple of (int, float)
+        (mode, frequency in Hz) of each mode at or above ``rate_hz / 2``.
+    """
+    nyquist = 0.5 * float(rate_hz)
+    return tuple((m, plant.modes[m - 1].freq_hz) for m in modes
+                 if 1 <= m <= plant.n_modes and plant.modes[m - 1].freq_hz >= nyquist)
 
 
 def realisations(controller: DiscreteController) -> tuple[Realisation, ...]:

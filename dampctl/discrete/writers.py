@@ -38,6 +38,7 @@ __all__ = [
     "FILE_NAMES",
     "FORMATS",
     "c_header",
+    "c_identifiers",
     "export_files",
     "json_text",
     "payload",
@@ -279,6 +280,33 @@ def _csv_cell(text: str) -> str:
     return f'"{text}"' if any(ch in text for ch in ',"<') else text
 
 
+def c_identifiers(names: list[str]) -> dict[str, str]:
+    """A distinct C identifier for each name (``coil-1`` and ``coil_1`` both map to ``coil_1``;
+    the second becomes ``coil_1_2``). Case counts too: the header also derives upper-case macro
+    names, so two identifiers equal up to case are made distinct as well.
+
+    Parameters
+    ----------
+    names : list of str
+        Realisation names, distinct strings.
+
+    Returns
+    -------
+    dict of str to str
+    """
+    out: dict[str, str] = {}
+    taken: set[str] = set()
+    for name in names:
+        base = _ident(name)
+        ident, k = base, 1
+        while ident.upper() in taken:
+            k += 1
+            ident = f"{base}_{k}"
+        taken.add(ident.upper())
+        out[name] = ident
+    return out
+
+
 def _ident(name: str) -> str:
     ident = re.sub(r"[^0-9A-Za-z_]", "_", name)
     return ident if ident and not ident[0].isdigit() else f"_{ident}"
@@ -370,14 +398,15 @@ def c_header(result: ExportResult) -> str:
     ]
     if not result.realisations:
         lines.append("/* MIMO controller without a modal realisation: see controller.json. */")
+    idents = c_identifiers([real.name for real in result.realisations])
     for real in result.realisations:
-        lines += _c_float_realisation(real)
+        lines += _c_float_realisation(real, idents[real.name])
     if result.fixed != "none":
         word = "int16_t" if result.fixed == "q15" else "int32_t"
         top = "32767" if result.fixed == "q15" else "2147483647"
         lines.append(_C_FIXED.format(word=word, top=top))
         for real in result.fixed_realisations:
-            lines += _c_fixed_realisation(real)
+            lines += _c_fixed_realisation(real, idents.get(real.name) or _ident(real.name))
     lines.append("#endif /* DAMPCTL_CONTROLLER_H */")
     return "\n".join(lines) + "\n"
 
@@ -391,8 +420,7 @@ def _live(branch) -> bool:
     return branch.gain != 0.0 and bool(np.any(np.asarray(branch.sos)[:, :3] != 0.0))
 
 
-def _c_float_realisation(real: Realisation) -> list[str]:
-    name = _ident(real.name)
+def _c_float_realisation(real: Realisation, name: str) -> list[str]:
     out = [f"/* {real.name}: {real.actuator} from {real.sensor} */"]
     live = [(j, b) for j, b in enumerate(real.form.branches) if _live(b)]
     if not live and real.form.feedthrough == 0.0:
@@ -424,8 +452,7 @@ def _c_float_realisation(real: Realisation) -> list[str]:
     return out
 
 
-def _c_fixed_realisation(real: Realisation) -> list[str]:
-    name = _ident(real.name)
+def _c_fixed_realisation(real: Realisation, name: str) -> list[str]:
     scaling = real.scaling
     out = [
         f"/* {real.name}, fixed point: branch cascades on integer samples. Input word = "

@@ -252,3 +252,34 @@ def test_passive_design_gives_a_parts_list(tmp_path, plant):
     csv_text = (tmp_path / "out" / "parts.csv").read_text()
     assert csv_text.splitlines()[0].startswith("part,label,mode,site")
     assert not (tmp_path / "out" / "controller.h").exists()
+
+
+def test_a_rate_below_twice_a_controlled_mode_is_refused(tmp_path, plant):
+    # Shannon: a loop sampled at fs acts on nothing above fs / 2. The chain's modes
+    top = plant.modes[-1].freq_hz  # the highest controlled mode (target modes 1, 2, 3)
+    p, d = _files(tmp_path, plant, _dvf(plant))
+    rate = 1.9 * top  # Nyquist 0.95 top: mode 3 only is above it
+    code, _out, err = _run([p, d, "-o", str(tmp_path / "x"), "--rate", f"{rate!r}"])
+    assert code == 2 and "mode 3" in err and "mode 2" not in err and "--allow-aliasing" in err
+    assert not (tmp_path / "x").exists()
+    code, _out, err = _run([p, d, "-o", str(tmp_path / "x"), "--rate", f"{2.01 * top!r}"])
+    assert code in (0, 1) and "--allow-aliasing" not in err, err  # 1: unstable when sampled
+    code, _out, err = _run([p, d, "-o", str(tmp_path / "y"), "--rate", f"{rate!r}",
+                           "--allow-aliasing"])
+    assert code in (0, 1) and "--allow-aliasing" not in err  # no longer refused as bad input
+
+
+def test_a_ppf_target_above_nyquist_is_refused(tmp_path, plant):
+    p, d = _files(tmp_path, plant, _slow_ppf(plant))  # PPF filter on mode 1
+    rate = 1.5 * plant.modes[0].freq_hz
+    code, _out, err = _run([p, d, "-o", str(tmp_path / "x"), "--rate", f"{rate!r}"])
+    assert code == 2 and "mode 1" in err and "PPF" in err
+
+
+def test_modes_above_nyquist_closed_form(plant):
+    from dampctl.discrete.export import modes_above_nyquist
+
+    f = [m.freq_hz for m in plant.modes]
+    assert modes_above_nyquist(plant, (1, 2, 3), 2 * f[1]) == ((2, f[1]), (3, f[2]))
+    assert modes_above_nyquist(plant, (1, 2), 2.0001 * f[1]) == ()
+    assert modes_above_nyquist(plant, (1,), 2 * f[1]) == ()

@@ -353,3 +353,22 @@ def test_shunt_design_prints_the_piezo_caution(piezo_file, tmp_path):
                             "-o", tmp_path / "s.json")
     assert code in (0, 1), err
     assert SHUNT_LINES[0] in human and SAFETY_LINES[0] not in human
+
+
+def test_a_sample_rate_below_twice_a_target_mode_is_a_warning(tmp_path):
+    # Shannon: a loop sampled at fs cannot act above fs / 2 (export refuses it; tune warns)
+    text = (ROOT / "plants" / "oscillator.toml").read_text()  # one mode at 31.83 Hz
+    low = tmp_path / "low.toml"
+    low.write_text(text.replace("sample_rate_hz = 10000.0", "sample_rate_hz = 60.0"))
+    out_path = tmp_path / "d.json"
+    code, out, err = _run(str(low), "--law", "dvf", "--pairs", "coil_vel", "-o", str(out_path),
+                          "--json")
+    assert code in (0, 1), err
+    warnings = json.loads(out)["warnings"]
+    assert any("below twice mode 1 (31.831 Hz)" in w and "--allow-aliasing" in w
+               for w in warnings), warnings
+    ok = tmp_path / "ok.toml"
+    ok.write_text(text.replace("sample_rate_hz = 10000.0", "sample_rate_hz = 64.0"))
+    code, out, err = _run(str(ok), "--law", "dvf", "--pairs", "coil_vel", "-o",
+                          str(tmp_path / "e.json"), "--json")
+    assert not any("below twice" in w for w in json.loads(out)["warnings"])

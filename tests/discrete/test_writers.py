@@ -236,3 +236,77 @@ def test_c_header_of_a_mimo_design_compiles_in_single_precision(tmp_path, plant)
     # time: over 300 samples about 1e-4 of the peak; double (the default) is exact to 1e-12
     err = np.max(np.abs(got - want)) / np.max(np.abs(want))
     assert 1e-8 < err <= 1e-3
+
+
+TWO_PAIRS = """title = "two loops whose names map to one C identifier"
+[[modes]]
+freq_hz = 20.0
+damping = 0.01
+[[modes]]
+freq_hz = 55.0
+damping = 0.01
+[sites]
+a = [1.0, 0.5]
+b = [0.5, -1.0]
+[[actuators]]
+name = "fa"
+kind = "force"
+site = "a"
+[[actuators]]
+name = "fb"
+kind = "force"
+site = "b"
+[[sensors]]
+name = "va"
+kind = "velocity"
+site = "a"
+[[sensors]]
+name = "vb"
+kind = "velocity"
+site = "b"
+[[pairs]]
+name = "p-a"
+actuator = "fa"
+sensor = "va"
+[[pairs]]
+name = "p_a"
+actuator = "fb"
+sensor = "vb"
+"""
+
+
+def test_c_identifiers_are_distinct():
+    from dampctl.discrete.writers import c_identifiers
+
+    got = c_identifiers(["p-a", "p_a", "P_A", "1x", "p a"])
+    assert got["p-a"] == "p_a" and got["1x"] == "_1x"
+    assert len({v.upper() for v in got.values()}) == 5, got
+
+
+@needs_cc
+@pytest.mark.parametrize("fixed", ["none", "q15"])
+def test_header_with_colliding_names_compiles(tmp_path, fixed):
+    # 'p-a' and 'p_a' both map to the identifier p_a: the second becomes p_a_2, and the
+    # header builds under -Wall -Werror (a duplicate definition would not)
+    from dampctl.laws.dvf import design as dvf
+    from dampctl.model.plantfile import parse_plant
+
+    two = parse_plant(TWO_PAIRS)
+    design = dvf(two, ["p-a", "p_a"])
+    result = export_design(two, design, RATE, fixed=fixed, input_range=1e-2)
+    header = c_header(result)
+    assert "dampctl_p_a_command" in header and "dampctl_p_a_2_command" in header
+    main = (
+        '#include <stdio.h>\n#include "controller.h"\nint main(void) {\n'
+        "    dampctl_real s1[DAMPCTL_P_A_STATES] = {0};\n"
+        "    dampctl_real s2[DAMPCTL_P_A_2_STATES] = {0};\n"
+        '    printf("%.9g %.9g\\n", (double)dampctl_p_a_command(s1, 1.0),'
+        " (double)dampctl_p_a_2_command(s2, 1.0));\n"
+        "    return 0;\n}\n"
+    )
+    got = _compile_and_run(tmp_path, header, main)
+    # the first sample of each loop is its direct gain b0 (times the cascade gain), negated
+    first = [-r.form.feedthrough - sum(b.gain * np.prod(np.asarray(b.sos)[:, 0])
+                                      for b in r.form.branches)
+             for r in result.realisations]
+    np.testing.assert_allclose(got, first, rtol=1e-6, atol=1e-12)
