@@ -30,11 +30,13 @@ __all__ = [
     "effective_controller",
     "lag_elements",
     "match_modes",
+    "match_repeated",
     "modal_damping",
     "open_loop_poles",
     "pade_matrices",
     "plant_loop_delay_s",
     "reference_omega",
+    "repeated_clusters",
     "sampling_delay_s",
     "series_matrices",
 ]
@@ -523,4 +525,84 @@ def closed_loop_modes(
         plant, design, delay_s=delay_s, roll_off=roll_off, pade_order=pade_order
     )
     roots = loop_roots(plant, design.actuators, design.sensors, ctrl)
-    return match_to_modes(open_loop_poles(plant.omegas, plant.dampings), roots.poles)
+    open_poles = open_loop_poles(plant.omegas, plant.dampings)
+    matched = match_to_modes(open_poles, roots.poles)
+    clusters = repeated_clusters(open_poles)
+    if not clusters:
+        return matched
+    loop = closed_loop_matrix(plant.statespace_matrices(design.actuators, design.sensors),
+                              ctrl.matrices())
+    return match_repeated(matched, clusters, loop)
+
+
+def repeated_clusters(open_poles: np.ndarray, *, rtol: float = 1e-9) -> list[list[int]]:
+    """Groups of modes (0-based) with the same open-loop pole (exactly repeated frequencies).
+
+    Parameters
+    ----------
+    open_poles : array_like of complex
+        Open-loop upper pole of each mode.
+    rtol : float, optional
+        Relative distance under which two poles count as the same.
+
+    Returns
+    -------
+    list of list of int
+        Each group of two or more modes, in mode order.
+    """
+    poles = np.asarray(open_poles, dtype=complex)
+    order = np.argsort(np.abs(poles), kind="stable")
+    groups, current = [], [int(order[0])] if poles.size else []
+    for k in order[1:]:
+        last = poles[current[-1]]
+        if abs(poles[k] - last) <= rtol * max(abs(last), 1e-300):
+            current.append(int(k))
+        else:
+            groups.append(current)
+            current = [int(k)]
+    groups.append(current)
+    return [sorted(g) for g in groups if len(g) > 1]
+
+
+def match_repeated(matched: MatchedModes, clusters: list[list[int]], loop: np.ndarray
+                   ) -> MatchedModes:
+    """Re-assign the poles of each repeated cluster to the modes by their eigenvectors.
+
+    Poles alone cannot tell two modes of one frequency apart: both open-loop poles are the
+    same point, so a pole moved by the loop is as near one as the other. The closed-loop
+    eigenvector can: projected on the modal subspace of the cluster (the states
+    ``[ω_i q_i, q_i']`` of its modes), it says which shape direction the pole belongs to. Each
+    pole of the cluster goes to the mode holding the largest share of its eigenvector (a linear
+    assignment on those shares), so a direction no loop sees keeps its own open-loop pole.
+
+    Parameters
+    ----------
+    matched : MatchedModes
+        The matching by pole distance (:func:`match_modes`).
+    clusters : list of list of int
+        Groups of modes with the same open-loop pole (:func:`repeated_clusters`).
+    loop : ndarray
+        Closed-loop state matrix, plant states (two per mode, in mode order) first.
+
+    Returns
+    -------
+    MatchedModes
+    """
+    poles = matched.poles.copy()
+    size = loop.shape[0]
+    for group in clusters:
+        cluster_poles = poles[group]
+        share = np.empty((len(group), len(group)))
+        for k, p in enumerate(cluster_poles):
+            # eigenvector of the pole: the right singular vector of (loop - p I) of least gain
+            _u, _s, vh = np.linalg.svd(loop - p * np.eye(size))
+            v = vh[-1].conj()
+            energy = np.array([abs(v[2 * m]) ** 2 + abs(v[2 * m + 1]) ** 2 for m in group])
+            share[k] = energy / max(energy.sum(), 1e-300)
+        rows, cols = linear_sum_assignment(-share)
+        for k, j in zip(rows, cols, strict=True):
+            poles[group[j]] = cluster_poles[k]
+    omega, damping = modal_damping(poles)
+    return MatchedModes(poles=poles, freq_hz=omega / (2.0 * np.pi), damping=damping,
+                        other_poles=matched.other_poles, stable=matched.stable,
+                        max_real_part=matched.max_real_part)

@@ -164,3 +164,67 @@ def test_delay_and_roll_off_reduce_added_damping():
     added = (late.damping[0] - 0.01) / (ideal.damping[0] - 0.01)
     assert added == pytest.approx(np.cos(200.0 * 1e-3), rel=0.05)
     assert late.other_poles.size > 0
+
+
+# ---------------------------------------------------------------------- repeated frequencies
+def _twin_plant(sees=(1.0, 0.0)):
+    """Two modes at exactly 100.0 Hz with orthogonal shapes; one pair at site 'a' whose shape
+    values are ``sees`` (1, 0: it sees mode 1's direction only)."""
+    return ModalPlant(
+        modes=(Mode(100.0, 0.01), Mode(100.0, 0.01), Mode(260.0, 0.01)),
+        sites={"a": np.array([sees[0], sees[1], 0.4]), "b": np.array([0.0, 1.0, 0.3])},
+        actuators=(Actuator("fa", "force", site="a"),),
+        sensors=(Sensor("va", "velocity", site="a"),),
+        pairs=(Pair("pa", "fa", "va"),),
+        requirements=Requirements(modes=(2,), min_damping=0.05),
+    )
+
+
+def _dvf_on_a(plant, gain=60.0, targets=(2,)):
+    return Design(law="dvf", plant_fingerprint=plant.fingerprint, actuators=("fa",),
+                  sensors=("va",), target_modes=targets,
+                  loops=(Loop("pa", "fa", "va", gain, branches=(Branch(gain),)),))
+
+
+def test_a_loop_that_sees_one_of_two_repeated_modes_is_not_credited_to_the_other():
+    from dampctl.analysis.modetable import closed_loop_table
+
+    plant = _twin_plant()
+    design = _dvf_on_a(plant)
+    table = closed_loop_table(plant, design, delay_s=0.0, roll_off=False)
+    # mode 2's direction is not seen by any pair: it keeps its open-loop pole exactly
+    assert table.rows[1].closed_damping == pytest.approx(0.01, rel=1e-6)
+    assert table.rows[0].closed_damping > 0.03
+    assert table.target_min_damping() < 0.05  # the target on mode 2 is not met
+    # against python-control: the closed-loop eigenvectors of the same loop, projected on the
+    # modal subspace of the cluster (states [ω q, q'] of modes 1 and 2)
+    A, B, C, D = plant.statespace_matrices(["fa"], ["va"])
+    loop = control.feedback(control.ss(A, B, C, D), control.ss([], [], [], [[60.0]]))
+    values, vectors = np.linalg.eig(loop.A)
+    near = [k for k, p in enumerate(values) if p.imag > 0 and abs(abs(p) / (2 * np.pi) - 100) < 20]
+    assert len(near) == 2
+    for k in near:
+        share = [np.sum(np.abs(vectors[2 * m : 2 * m + 2, k]) ** 2) for m in (0, 1)]
+        mode = int(np.argmax(share))
+        assert max(share) / sum(share) > 0.99
+        zeta = -values[k].real / abs(values[k])
+        assert table.rows[mode].closed_damping == pytest.approx(zeta, rel=1e-9)
+
+
+def test_the_order_of_the_repeated_modes_does_not_matter():
+    from dampctl.analysis.modetable import closed_loop_table
+
+    plant = _twin_plant(sees=(0.0, 1.0))  # the pair sees mode 2 only now
+    table = closed_loop_table(plant, _dvf_on_a(plant, targets=(1,)), delay_s=0.0,
+                              roll_off=False)
+    assert table.rows[0].closed_damping == pytest.approx(0.01, rel=1e-6)
+    assert table.rows[1].closed_damping > 0.03
+    assert table.target_min_damping() == pytest.approx(0.01, rel=1e-6)
+
+
+def test_repeated_clusters():
+    from dampctl.analysis.closedloop import open_loop_poles, repeated_clusters
+
+    w = 2 * np.pi * np.array([100.0, 50.0, 100.0, 100.0 * (1 + 1e-6), 50.0])
+    poles = open_loop_poles(w, np.full(5, 0.01))
+    assert repeated_clusters(poles) == [[1, 4], [0, 2]]
