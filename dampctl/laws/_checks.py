@@ -22,7 +22,7 @@ import numpy as np
 
 from dampctl.errors import DesignRefused, UsageError
 from dampctl.model.plant import ModalPlant, Pair
-from dampctl.model.survey import cluster_rank, find_clusters, pair_rows
+from dampctl.model.survey import cluster_rank, find_clusters, pair_rows, pair_visibility
 
 __all__ = [
     "ModeGroups",
@@ -32,7 +32,8 @@ __all__ = [
     "target_indices",
 ]
 
-#: relative size of |b c̃|/ω below which a pair does not see a mode
+#: visibility (survey.pair_visibility: shape values against the mode's own largest) below
+#: which a pair does not see a mode
 VISIBILITY_TOL = 1e-6
 
 
@@ -204,9 +205,8 @@ def mode_groups(
     """
     names = [p.name for p in pairs]
     b_rows, c_rows = pair_rows(plant, names)
-    strength = np.abs(b_rows * c_rows) / plant.omegas
-    peak = np.max(strength, axis=1, keepdims=True)
-    seen = (strength >= VISIBILITY_TOL * np.where(peak > 0, peak, np.inf)).any(axis=0)
+    # scale-free: each mode against its own shape, not against the pair's strongest mode
+    seen = (pair_visibility(plant, names) >= VISIBILITY_TOL).any(axis=0)
     targets = [i for i in targets]
     unseen = tuple(i + 1 for i in targets if not seen[i])
     remaining = {i for i in targets if seen[i]}

@@ -11,12 +11,20 @@ This is what ``dampctl check`` prints. Measures used:
   kind and sensor kind, e.g. all force/velocity pairs), so the shares of one mode sum to 1 over
   the pairs of each kind; HSVs of pairs of different units are not compared. Damping is
   floored at 1e-6 for undamped modes.
-* **Visibility**: a mode is seen by a pair when γ_ip ≥ ``visibility_tol`` × the pair's largest
-  γ over all modes (default 1e-3); a mode seen by no pair cannot be damped by any of them.
+* **Visibility**: a mode is seen by a pair when its modal residue |b_ip c_ip| (input row per
+  unit modal mass times the sensor's shape row: what a loop gain multiplies to move that mode's
+  pole) is at least ``visibility_tol`` (default 1e-3) of the pair's largest residue. The
+  residue carries no 1/(ζω) (the Hankel singular value does), so the test does not depend on
+  where a mode lies in frequency or how damped it is: a 100 kHz mode of a plant that starts
+  at 0.1 Hz is judged like the first one. A mode seen by no pair cannot be damped by any of
+  them.
 * **Clusters**: modes whose natural frequencies lie within ``cluster_tol`` (relative, default
-  2 %) of a neighbour, chained. Damping the k modes of a cluster independently needs at least k
-  pairs whose shape vectors on the cluster span it (PBH rank test; Hautus 1969): the rank of the
-  actuator rows and of the sensor rows restricted to the cluster, with tolerance 1e-6 relative.
+  2 %) of a neighbour, chained; a chain wider than ``cluster_tol`` (many modes, each near the
+  next) is cut where a mode lies more than ``cluster_tol`` above the first mode of the cluster
+  being built, so no cluster spans more than ``cluster_tol``. Damping the k modes of a cluster
+  independently needs at least k pairs whose shape vectors on the cluster span it (PBH rank
+  test; Hautus 1969): the rank of the actuator rows and of the sensor rows restricted to the
+  cluster, with tolerance 1e-6 relative.
 * **Dominant modes** of a performance output: each mode's share of the output's mean-square
   response under the plant's disturbances (unit white forces at the actuators when there are
   none), from the single-mode approximation σ_i² ≈ (c_i ω_i^order b_i)² S(f_i) / (8 ζ_i ω_i³)
@@ -39,6 +47,7 @@ __all__ = [
     "cluster_rank",
     "find_clusters",
     "pair_rows",
+    "pair_visibility",
     "survey_plant",
 ]
 
@@ -134,17 +143,55 @@ def find_clusters(freqs_hz: np.ndarray, cluster_tol: float = 0.02) -> list[list[
     """
     freqs = np.asarray(freqs_hz, dtype=float)
     order = np.argsort(freqs)
-    clusters, current = [], [int(order[0])] if freqs.size else []
+    chains, current = [], [int(order[0])] if freqs.size else []
     for a, b in itertools.pairwise(order):
         if (freqs[b] - freqs[a]) <= cluster_tol * freqs[a]:
             current.append(int(b))
         else:
-            if len(current) > 1:
-                clusters.append(current)
+            chains.append(current)
             current = [int(b)]
-    if len(current) > 1:
-        clusters.append(current)
+    chains.append(current)
+    clusters: list[list[int]] = []
+    for chain in chains:
+        # a chain wider than the tolerance is cut where a mode lies beyond the tolerance from
+        # the first mode of the cluster being built
+        start = 0
+        for k in range(1, len(chain) + 1):
+            if k == len(chain) or freqs[chain[k]] - freqs[chain[start]] > (
+                cluster_tol * freqs[chain[start]]
+            ):
+                if k - start > 1:
+                    clusters.append(chain[start:k])
+                start = k
     return clusters
+
+
+def pair_visibility(plant: ModalPlant, pairs: list[str]) -> np.ndarray:
+    """How much of each mode a pair sees, free of frequency and damping.
+
+    Parameters
+    ----------
+    plant : ModalPlant
+        The plant.
+    pairs : list of str
+        Pair names.
+
+    Returns
+    -------
+    ndarray, shape (n_pairs, n_modes)
+        |b_ip c_ip|, the modal residue of the pair (input row per unit modal mass times the
+        sensor's shape row, without the ω powers of its kind), over the pair's largest; 0..1.
+        The Hankel singular value |b c̃|/(4ζω) carries 1/(ζω) besides: comparing it across
+        modes weighs a 100 kHz mode 10⁶ times below a 0.1 Hz one of the same shape. The
+        residue is what the loop gain multiplies to move the mode's pole (the added modal
+        damping of a rate feedback of gain g is g b c / (2ω), so the gain a mode needs scales
+        with its own ω and not with the other modes').
+    """
+    b_rows, _ = pair_rows(plant, pairs)
+    raw = np.array([plant.output_row(plant.pair(name).sensor)[0] for name in pairs])
+    residue = np.abs(b_rows * raw.reshape(b_rows.shape))
+    peak = np.max(residue, axis=1, keepdims=True) if residue.size else residue
+    return np.divide(residue, peak, out=np.zeros_like(residue), where=peak > 0)
 
 
 def pair_rows(plant: ModalPlant, pairs: list[str]) -> tuple[np.ndarray, np.ndarray]:
@@ -259,7 +306,7 @@ def survey_plant(
         )
     warnings = []
     if names:
-        seen = hsv >= visibility_tol * np.max(hsv, axis=1, keepdims=True)
+        seen = pair_visibility(plant, names) >= visibility_tol
         unseen = tuple(int(i + 1) for i in np.flatnonzero(~seen.any(axis=0)))
     else:
         unseen = tuple(range(1, plant.n_modes + 1))

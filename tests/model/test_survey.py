@@ -6,7 +6,13 @@ import pytest
 
 from dampctl.model.components import Actuator, Disturbance, Mode, Output, Pair, Sensor
 from dampctl.model.plant import ModalPlant
-from dampctl.model.survey import cluster_rank, find_clusters, pair_rows, survey_plant
+from dampctl.model.survey import (
+    cluster_rank,
+    find_clusters,
+    pair_rows,
+    pair_visibility,
+    survey_plant,
+)
 
 
 def one_mode(freq_hz: float, zeta: float, b: float, c: float, kind: str) -> ModalPlant:
@@ -96,7 +102,9 @@ def test_collocation_flag():
 
 def test_find_clusters_chains_neighbours():
     freqs = np.array([300.0, 100.0, 101.5, 150.0, 306.0, 312.0, 500.0])
-    assert find_clusters(freqs, 0.02) == [[1, 2], [0, 4, 5]]
+    # 300-306-312 chain by neighbours, but 312 is 4 % above 300: cut there
+    assert find_clusters(freqs, 0.02) == [[1, 2], [0, 4]]
+    assert find_clusters(freqs, 0.05) == [[1, 2], [0, 4, 5]]
     assert find_clusters(freqs, 0.001) == []
     assert find_clusters(np.array([50.0]), 0.02) == []
 
@@ -178,3 +186,39 @@ def test_no_pairs_warns():
     assert survey.pairs == ()
     assert survey.unseen_modes == (1,)
     assert any("no candidate pairs" in w for w in survey.warnings)
+
+
+def test_a_long_chain_of_near_repeated_modes_is_split():
+    # 40 modes each 1.5 % above the last: every neighbour is within 2 %, the chain spans 78x;
+    # each cluster spans at most 2 % (two modes: 1.5 %; three would span 3 %)
+    freqs = 100.0 * 1.015 ** np.arange(40)
+    clusters = find_clusters(freqs, 0.02)
+    assert clusters == [[k, k + 1] for k in range(0, 40, 2)]
+    for group in clusters:
+        assert freqs[group[-1]] <= 1.02 * freqs[group[0]]
+
+
+def test_visibility_is_scale_free_across_six_decades():
+    # modes at 0.1 Hz, 100 Hz and 100 kHz, each seen alike by one velocity/force pair (shape
+    # value 1 at the pair's site, modal mass 1 kg). The modal HSV γ = |b||c|/(4ζω) spans six
+    # decades (1/ω), so comparing with the pair's strongest mode called the 100 kHz mode
+    # unseen; the modal residue b c (no 1/(ζω)) sees every mode alike.
+    freqs = (0.1, 100.0, 1e5)
+    plant = ModalPlant(
+        modes=[Mode(freq_hz=f, damping=0.01) for f in freqs],
+        sites={"a": [1.0, 1.0, 1.0], "n": [0.0, 2.0, 0.5]},
+        actuators=[Actuator(name="f", kind="force", site="a")],
+        sensors=[Sensor(name="v", kind="velocity", site="a")],
+        pairs=[Pair(name="p", actuator="f", sensor="v")],
+    )
+    survey = survey_plant(plant)
+    assert survey.unseen_modes == ()
+    hsv = survey.pairs[0].hsv
+    assert hsv[2] / hsv[0] == pytest.approx(1e-6, rel=1e-9)  # γ ∝ 1/ω: six decades
+    np.testing.assert_allclose(pair_visibility(plant, ["p"])[0], [1.0, 1.0, 1.0])
+    # a site at a node of mode 2 only does not see mode 2, whatever the other modes do
+    node = ModalPlant(
+        modes=plant.modes, sites={"a": [1.0, 1e-5, 1.0], "n": [0.0, 2.0, 0.5]},
+        actuators=plant.actuators, sensors=plant.sensors, pairs=plant.pairs,
+    )
+    assert survey_plant(node).unseen_modes == (2,)
