@@ -11,13 +11,13 @@ This is what ``dampctl check`` prints. Measures used:
   kind and sensor kind, e.g. all force/velocity pairs), so the shares of one mode sum to 1 over
   the pairs of each kind; HSVs of pairs of different units are not compared. Damping is
   floored at 1e-6 for undamped modes.
-* **Visibility**: a mode is seen by a pair when its modal residue |b_ip c_ip| (input row per
-  unit modal mass times the sensor's shape row: what a loop gain multiplies to move that mode's
-  pole) is at least ``visibility_tol`` (default 1e-3) of the pair's largest residue. The
-  residue carries no 1/(ζω) (the Hankel singular value does), so the test does not depend on
-  where a mode lies in frequency or how damped it is: a 100 kHz mode of a plant that starts
-  at 0.1 Hz is judged like the first one. A mode seen by no pair cannot be damped by any of
-  them.
+* **Visibility**: a mode is seen by a pair when the loop can move its pole: the mode's own
+  term of the pair's response, r_i/ω_i² (r = b c, the modal residue), against the other modes'
+  terms at its frequency, Σ r_j/(ω_j² − ω_i²), is the relative spacing of the pole and the
+  loop zero beside it, and it must be at least ``visibility_tol`` (default 1e-3). It compares
+  the mode with what it takes to damp it, not with the pair's strongest mode, and it does not
+  depend on where the mode lies in frequency: a 100 kHz mode of a plant that starts at 0.1 Hz
+  is judged like the first one. A mode seen by no pair cannot be damped by any of them.
 * **Clusters**: modes whose natural frequencies lie within ``cluster_tol`` (relative, default
   2 %) of a neighbour, chained; a chain wider than ``cluster_tol`` (many modes, each near the
   next) is cut where a mode lies more than ``cluster_tol`` above the first mode of the cluster
@@ -167,7 +167,7 @@ def find_clusters(freqs_hz: np.ndarray, cluster_tol: float = 0.02) -> list[list[
 
 
 def pair_visibility(plant: ModalPlant, pairs: list[str]) -> np.ndarray:
-    """How much of each mode a pair sees, free of frequency and damping.
+    """How much of each mode a pair sees: the mode's own term against the rest, at its frequency.
 
     Parameters
     ----------
@@ -179,19 +179,30 @@ def pair_visibility(plant: ModalPlant, pairs: list[str]) -> np.ndarray:
     Returns
     -------
     ndarray, shape (n_pairs, n_modes)
-        |b_ip c_ip|, the modal residue of the pair (input row per unit modal mass times the
-        sensor's shape row, without the ω powers of its kind), over the pair's largest; 0..1.
-        The Hankel singular value |b c̃|/(4ζω) carries 1/(ζω) besides: comparing it across
-        modes weighs a 100 kHz mode 10⁶ times below a 0.1 Hz one of the same shape. The
-        residue is what the loop gain multiplies to move the mode's pole (the added modal
-        damping of a rate feedback of gain g is g b c / (2ω), so the gain a mode needs scales
-        with its own ω and not with the other modes').
+        min(1, |r_i/ω_i²| / |Σ_{j≠i} r_j/(ω_j² − ω_i²)|) with r = b c the modal residue of the
+        pair (input row per unit modal mass times the sensor's shape row): the relative
+        spacing (ω_i² − z_i²)/ω_i² of the mode's pole and the loop zero next to it. A loop
+        can move a mode's pole only as far as that zero (for a collocated pair the largest
+        damping it can add is about a quarter of this spacing: A. Preumont, *Vibration Control
+        of Active Structures*, 3rd ed. 2011, from memory), so this is what the mode needs to
+        be damped, measured on the mode itself: the other modes enter only through the zero,
+        never as a yardstick. Terms of modes at the same frequency (a repeated cluster) are
+        left out of the sum. 1 when nothing else responds there.
     """
     b_rows, _ = pair_rows(plant, pairs)
     raw = np.array([plant.output_row(plant.pair(name).sensor)[0] for name in pairs])
-    residue = np.abs(b_rows * raw.reshape(b_rows.shape))
-    peak = np.max(residue, axis=1, keepdims=True) if residue.size else residue
-    return np.divide(residue, peak, out=np.zeros_like(residue), where=peak > 0)
+    residue = b_rows * raw.reshape(b_rows.shape)
+    w2 = plant.omegas**2
+    gap = w2[None, :] - w2[:, None]  # [i, j] = ω_j² − ω_i²
+    same = np.abs(gap) <= 1e-9 * np.maximum(w2[:, None], 1e-300)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        weights = np.where(same, 0.0, 1.0 / np.where(same, 1.0, gap))  # 1/(ω_j² − ω_i²)
+    background = np.abs(residue @ weights.T)  # [p, i] = |Σ_j r_pj / (ω_j² − ω_i²)|
+    own = np.abs(residue) / np.maximum(w2, 1e-300)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = np.where(background > 0, own / np.where(background > 0, background, 1.0),
+                         np.where(own > 0, 1.0, 0.0))
+    return np.minimum(ratio, 1.0)
 
 
 def pair_rows(plant: ModalPlant, pairs: list[str]) -> tuple[np.ndarray, np.ndarray]:

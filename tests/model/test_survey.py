@@ -202,7 +202,8 @@ def test_visibility_is_scale_free_across_six_decades():
     # modes at 0.1 Hz, 100 Hz and 100 kHz, each seen alike by one velocity/force pair (shape
     # value 1 at the pair's site, modal mass 1 kg). The modal HSV γ = |b||c|/(4ζω) spans six
     # decades (1/ω), so comparing with the pair's strongest mode called the 100 kHz mode
-    # unseen; the modal residue b c (no 1/(ζω)) sees every mode alike.
+    # unseen; the mode's own term against the others' at its frequency (the pole-zero
+    # spacing) sees every mode.
     freqs = (0.1, 100.0, 1e5)
     plant = ModalPlant(
         modes=[Mode(freq_hz=f, damping=0.01) for f in freqs],
@@ -215,10 +216,32 @@ def test_visibility_is_scale_free_across_six_decades():
     assert survey.unseen_modes == ()
     hsv = survey.pairs[0].hsv
     assert hsv[2] / hsv[0] == pytest.approx(1e-6, rel=1e-9)  # γ ∝ 1/ω: six decades
-    np.testing.assert_allclose(pair_visibility(plant, ["p"])[0], [1.0, 1.0, 1.0])
+    # mode 3: own term r/ω3², the two modes below give -r/ω3² each: spacing 1/2
+    np.testing.assert_allclose(pair_visibility(plant, ["p"])[0], [1.0, 1.0, 0.5], rtol=1e-5)
     # a site at a node of mode 2 only does not see mode 2, whatever the other modes do
     node = ModalPlant(
         modes=plant.modes, sites={"a": [1.0, 1e-5, 1.0], "n": [0.0, 2.0, 0.5]},
         actuators=plant.actuators, sensors=plant.sensors, pairs=plant.pairs,
     )
     assert survey_plant(node).unseen_modes == (2,)
+
+
+def test_visibility_is_the_pole_zero_spacing_of_the_loop():
+    # A collocated loop moves a mode's pole toward the zero beside it; the visibility is the
+    # relative spacing (ω² − z²)/ω² to first order. Reference: the transmission zeros of the
+    # same plant computed by python-control (slycot ab08nd) from its state space.
+    plant = ModalPlant(
+        modes=[Mode(freq_hz=f, damping=1e-6) for f in (10.0, 12.0, 40.0)],
+        sites={"a": [1.0, 0.05, 0.7]},
+        actuators=[Actuator(name="f", kind="force", site="a")],
+        sensors=[Sensor(name="x", kind="displacement", site="a")],
+        pairs=[Pair(name="p", actuator="f", sensor="x")],
+    )
+    A, B, C, D = plant.statespace_matrices(["f"], ["x"])
+    zeros = np.abs(control.ss(A, B, C, D).zeros())
+    w2 = plant.omegas[1]
+    z2 = zeros[np.argmin(np.abs(zeros - w2))]
+    spacing = (w2**2 - z2**2) / w2**2
+    got = pair_visibility(plant, ["p"])[0, 1]
+    assert got == pytest.approx(abs(spacing), rel=0.02)
+    assert got < 0.01  # the small residue on mode 2: pole and zero nearly cancel
