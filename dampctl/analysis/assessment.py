@@ -27,11 +27,14 @@ from typing import Any
 import numpy as np
 
 from dampctl.analysis.closedloop import (
+    closed_loop_matrix,
     match_modes,
+    match_repeated,
     modal_damping,
     open_loop_poles,
     plant_loop_delay_s,
     reference_omega,
+    repeated_clusters,
 )
 from dampctl.analysis.loopmodel import (
     GainLocus,
@@ -363,7 +366,12 @@ def assess(
                     reference_omega(plant))
     ctrl = loop_controller(plant, design, delay_s=delay, omega_ref=omega_ref, roll_off=roll_off)
     poles = loop_poles(plant, design, ctrl)
-    matched = match_modes(open_loop_poles(plant.omegas, plant.dampings), poles)
+    open_poles = open_loop_poles(plant.omegas, plant.dampings)
+    matched = match_modes(open_poles, poles)
+    clusters = repeated_clusters(open_poles)
+    if clusters:  # exactly repeated modes: poles to shape directions by eigenvector
+        mats = plant.statespace_matrices(design.actuators, design.sensors)
+        matched = match_repeated(matched, clusters, closed_loop_matrix(mats, ctrl))
     step()
 
     multi = len(design.actuators) > 1
@@ -469,8 +477,15 @@ def _mode_rows(plant, matched, grid, outputs, mag_open, mag_closed) -> tuple[Mod
         # resonance (within ±max(3 ζ, 1 %) of its frequency), not on a neighbour's flank
         band = max(3.0 * float(plant.dampings[k]), 0.01)
         f_window = grid[window]
+        # modes at exactly the same frequency share one peak: an output shows mode k only when
+        # its shape on k is not negligible next to the others of that frequency
+        twins = np.flatnonzero(np.abs(freqs - freqs[k]) <= 1e-9 * freqs[k])
         if np.any(window):
             for o, name in enumerate(outputs):
+                if twins.size > 1:
+                    row = np.abs(plant.output_row(name)[0])
+                    if row[k] < 1e-3 * np.max(row[twins]):
+                        continue
                 peak_open = np.max(mag_open[o, window])
                 peak_closed = np.max(mag_closed[o, window])
                 if peak_open > 0 and peak_closed > 0:

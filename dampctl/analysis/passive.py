@@ -44,8 +44,10 @@ from dampctl.analysis.closedloop import (
     MatchedModes,
     block_diagonal,
     match_modes,
+    match_repeated,
     modal_damping,
     open_loop_poles,
+    repeated_clusters,
 )
 from dampctl.analysis.response import ClosedLoopFrf
 from dampctl.errors import DesignError
@@ -519,7 +521,7 @@ def passive_modes(
     model = parts if isinstance(parts, PassiveModel) else passive_model(plant, parts)
     A = passive_statespace(plant, model)[0]
     poles = np.linalg.eigvals(A)
-    return pair_part_poles(plant, model, poles)
+    return pair_part_poles(plant, model, poles, state_matrix=A)
 
 
 def pair_part_poles(
@@ -527,6 +529,8 @@ def pair_part_poles(
     model: PassiveModel,
     poles: np.ndarray,
     open_poles: np.ndarray | None = None,
+    *,
+    state_matrix: np.ndarray | None = None,
 ) -> PassiveModes:
     """Match poles to modes, find each tuned part's own pole, keep the less damped per mode.
 
@@ -541,6 +545,10 @@ def pair_part_poles(
     open_poles : array_like of complex, optional
         The modes' open-loop poles to match against (default the plant's; a drifted plant's
         in a drift study).
+    state_matrix : ndarray, optional
+        The state matrix the poles are of (plant states first): with it, the poles of exactly
+        repeated modes go to the shape directions by eigenvector
+        (:func:`~dampctl.analysis.closedloop.match_repeated`).
 
     Returns
     -------
@@ -549,6 +557,9 @@ def pair_part_poles(
     if open_poles is None:
         open_poles = open_loop_poles(plant.omegas, plant.dampings)
     matched = match_modes(open_poles, poles)
+    clusters = repeated_clusters(open_poles) if state_matrix is not None else []
+    if clusters:
+        matched = match_repeated(matched, clusters, state_matrix)
     rest = np.asarray(matched.other_poles, dtype=complex)
     tuned = [k for k, e in enumerate(model.ports.elements) if e.tuning_omega]
     own: list[complex | None] = [None] * len(model.parts)

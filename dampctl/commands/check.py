@@ -176,8 +176,9 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         out.write(table(headers, rows) + "\n")
         if unseen:
             out.write(
-                "(-: no pair sees the mode: its response at every pair is below 1e-3 of the "
-                "pair's strongest mode, so the shares say nothing)\n"
+                "(-: no pair sees the mode: at every pair its own response is below 1e-3 of "
+                "the other modes' at its frequency, so no loop can move it; the shares say "
+                "nothing)\n"
             )
     for name, items in survey.dominant_modes.items():
         listing = ", ".join(f"mode {m} ({s:.0%})" for m, s in items) or "none"

@@ -205,7 +205,7 @@ def mode_groups(
     """
     names = [p.name for p in pairs]
     b_rows, c_rows = pair_rows(plant, names)
-    # scale-free: each mode against its own shape, not against the pair's strongest mode
+    # scale-free: each mode's own term against the others' at its frequency (pole-zero spacing)
     seen = (pair_visibility(plant, names) >= VISIBILITY_TOL).any(axis=0)
     targets = [i for i in targets]
     unseen = tuple(i + 1 for i in targets if not seen[i])

@@ -243,8 +243,9 @@ def _plant_section(check: Mapping[str, Any]) -> str:
         n = len(modes)
         unseen = set(check.get("unseen_modes", []))
         if unseen:
-            out.append("<p class='note'>– : no pair sees the mode (response below 1e-3 of "
-                       "each pair's strongest mode), so its shares say nothing.</p>")
+            out.append("<p class='note'>– : no pair sees the mode (at every pair its own "
+                       "response is below 1e-3 of the other modes' at its frequency), so its "
+                       "shares say nothing.</p>")
         rows = []
         for p in pairs:
             row = {"pair": p.get("pair"), "kind": p.get("kind", ""),

@@ -272,3 +272,26 @@ def test_peak_reduction_left_out_where_no_output_shows_the_mode():
     assert a.modes[0].peak_reduction_db > 1.0
     assert a.modes[1].peak_reduction_db is None
     assert "xo" in a.modes[1].peak_reduction_by_output_db
+
+
+def test_repeated_modes_a_loop_does_not_see_get_no_credit():
+    # two modes at exactly 100.0 Hz, one pair that sees mode 1 only: mode 2 keeps its open-loop
+    # pole (its closed-loop damping is the open 0.01), no peak reduction is claimed for it at
+    # the pair's sensor (which does not move in mode 2), and the requirement is not met
+    plant = ModalPlant(
+        modes=(Mode(100.0, 0.01), Mode(100.0, 0.01), Mode(260.0, 0.01)),
+        sites={"a": np.array([1.0, 0.0, 0.4]), "b": np.array([0.0, 1.0, 0.3])},
+        actuators=(Actuator("fa", "force", site="a"),),
+        sensors=(Sensor("va", "velocity", site="a"),),
+        pairs=(Pair("pa", "fa", "va"),),
+        requirements=Requirements(modes=(1, 2), min_damping=0.05),
+    )
+    design = Design(law="dvf", plant_fingerprint=plant.fingerprint, actuators=("fa",),
+                    sensors=("va",), target_modes=(1, 2),
+                    loops=(Loop("pa", "fa", "va", 60.0, branches=(Branch(60.0),)),))
+    result = assess(plant, design, delay_s=0.0, samples=0)
+    one, two = result.modes[0], result.modes[1]
+    assert two.closed_damping == pytest.approx(0.01, rel=1e-6)
+    assert one.closed_damping > 0.03
+    assert two.peak_reduction_db is None and one.peak_reduction_db > 3.0
+    assert not result.all_met

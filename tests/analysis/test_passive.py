@@ -225,3 +225,19 @@ def test_not_a_piezo_strut():
         piezo_constants(Actuator("s", "strut", between=("g", "x"), stiffness_n_per_m=1.0))
     with pytest.raises(DesignError, match="no passive parts"):
         passive_model(plant, [])
+
+
+def test_a_damper_on_one_of_two_repeated_modes_is_credited_to_that_mode():
+    # two modes at exactly 100.0 Hz; a viscous damper from site a to the ground moves only
+    # mode 1's direction (site a does not move in mode 2). Mode 2 keeps its open-loop pole.
+    # Reference: the eigenvectors of the same augmented state matrix from numpy, projected on
+    # each mode's states.
+    plant = ModalPlant(modes=(Mode(100.0, 0.01), Mode(100.0, 0.01)),
+                       sites={"a": np.array([1.0, 0.0]), "b": np.array([0.0, 1.0])})
+    for site, seen in (("a", 0), ("b", 1)):
+        modes = passive_modes(plant, [Damper(between=(site, "ground"),
+                                             coefficient_n_s_per_m=40.0)])
+        damping = modes.matched.damping
+        assert damping[1 - seen] == pytest.approx(0.01, rel=1e-6)
+        z = 0.01 + 40.0 / (2 * 2 * np.pi * 100.0)  # c/(2 m ω) added to the seen mode (m = 1)
+        assert damping[seen] == pytest.approx(z, rel=1e-6)
