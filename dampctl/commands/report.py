@@ -30,6 +30,7 @@ from dampctl.fileio import check_output, write_text
 from dampctl.model.measured import MeasuredFRF, load_frf
 from dampctl.model.plant import ModalPlant
 from dampctl.model.plantfile import load_plant
+from dampctl.model.summary import plant_summary, summary_differences
 from dampctl.model.survey import survey_plant
 from dampctl.report.html import ReportInputs, render_report
 from dampctl.values import Range, describe, read_float, read_int, read_str
@@ -416,8 +417,14 @@ def _check_fingerprint(data: Mapping[str, Any], path: str, option: str, plant) -
     if stated is None:
         return  # written before the fingerprint was stored: nothing to check against
     if stated not in (plant.fingerprint, plant.legacy_fingerprint):
+        summary = data.get("plant_summary")
+        if isinstance(summary, Mapping):
+            diffs = summary_differences(summary, plant_summary(plant))
+            what = "; ".join(diffs[:6]) or "mode shapes or site values changed"
+        else:
+            what = "the file has no plant summary, so the changed fields cannot be named"
         raise UsageError(f"{option}: {path}: plant_fingerprint: made for another plant "
-                         f"(fingerprint {stated}, this plant's is {plant.fingerprint})")
+                         f"(fingerprint {stated}, this plant's is {plant.fingerprint}): {what}")
 
 
 def _list(value: Any, path: str, key: str) -> list:

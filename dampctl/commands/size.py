@@ -20,6 +20,7 @@ from dampctl.commands._common import (
 from dampctl.errors import UsageError
 from dampctl.fileio import check_output_folder, write_files
 from dampctl.model.plantfile import load_plant
+from dampctl.model.summary import plant_summary
 from dampctl.sizing.size import LAWS, size_pairs
 from dampctl.values import Range
 
@@ -152,6 +153,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         files = write_files(args.plots, pngs, inputs=[args.plant], replace=args.force)
     payload = result.to_dict()
     payload["plant_fingerprint"] = plant.fingerprint
+    payload["plant_summary"] = plant_summary(plant)
     payload["plots"] = [str(f) for f in files]
     payload["safety"] = list(SAFETY_LINES)
     if args.json:
@@ -190,8 +192,8 @@ def _passive(args: argparse.Namespace, out: TextIO) -> int:
                              kind=args.shunt, max_pairs=args.max_pairs,
                              target_damping=args.target_damping)
     if args.json:
-        print_json({**result.to_dict(), "plant_fingerprint": plant.fingerprint}, out,
-                   "sizing-passive")
+        print_json({**result.to_dict(), "plant_fingerprint": plant.fingerprint,
+                    "plant_summary": plant_summary(plant)}, out, "sizing-passive")
     else:
         size = "mass ratio" if result.size_name == "mass_ratio" else "struts"
         target = "none" if result.target_damping is None else f"{result.target_damping:g}"

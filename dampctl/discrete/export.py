@@ -9,8 +9,9 @@ structure.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 
@@ -35,6 +36,7 @@ from dampctl.discrete.scaling import NORMS, LoopScaling, scale_form
 from dampctl.discrete.sections import ParallelForm, _block_diagonal
 from dampctl.errors import UsageError
 from dampctl.model.plant import ModalPlant
+from dampctl.model.summary import plant_summary
 
 __all__ = ["ExportResult", "Realisation", "export_design", "modes_above_nyquist", "realisations"]
 
@@ -245,6 +247,9 @@ class ExportResult:
         Frequency tolerance used for the refusal.
     scaling : {"linf", "l2"}
         Node norm of the fixed-point scaling.
+    plant_summary : mapping or None
+        :func:`~dampctl.model.summary.plant_summary` of the plant exported for, so that a
+        report given the export can name what changed when the plant no longer matches.
     """
 
     controller: DiscreteController
@@ -257,6 +262,7 @@ class ExportResult:
     tolerance: float
     frequency_tolerance: float = FREQUENCY_TOLERANCE
     scaling: str = "linf"
+    plant_summary: Mapping[str, Any] | None = None
 
     @property
     def stable(self) -> bool:
@@ -402,6 +408,7 @@ def export_design(
         tolerance=float(tolerance),
         frequency_tolerance=float(frequency_tolerance),
         scaling=scaling,
+        plant_summary=plant_summary(plant),
     )
 
 

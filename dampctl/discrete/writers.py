@@ -191,6 +191,7 @@ def payload(result: ExportResult) -> dict:
         "fixed": result.fixed,
         "law": c.law,
         "plant_fingerprint": c.plant_fingerprint,
+        **({"plant_summary": dict(result.plant_summary)} if result.plant_summary else {}),
         "actuators": list(c.actuators),
         "sensors": list(c.sensors),
         "target_modes": list(c.target_modes),
