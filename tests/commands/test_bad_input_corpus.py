@@ -157,6 +157,9 @@ def _drop(path: str) -> Callable[[str], str]:
     return _json(edit)
 
 
+#: a file entry that makes a FIFO (a special file) instead of writing text
+FIFO = "<fifo>"
+
 TUNE = ("tune", "p.toml", "--law", "dvf", "--pairs", "coil_vel", "-o", "new.json")
 ASSESS = ("assess", "p.toml", "d.json")
 EXPORT = ("export", "p.toml", "d.json", "-o", "newex")
@@ -344,6 +347,10 @@ def _option_cases() -> list[Case]:
                                  "-o", "p.toml", "--force"), "p.toml"),
         Case("tune-exists", ("tune", "p.toml", "--law", "dvf", "--pairs", "coil_vel", "-o",
                              "d.json"), "d.json"),
+        Case("tune-output-fifo", (*TUNE[:-1], "pipe", "--force"), "pipe", {"pipe": FIFO}),
+        Case("report-output-fifo", (*REPORT[:-1], "pipe", "--force"), "pipe", {"pipe": FIFO}),
+        Case("export-output-fifo", (*EXPORT[:-1], "pipe", "--force"), "pipe", {"pipe": FIFO}),
+        Case("check-plant-dir-slash", ("check", "ex/"), "ex"),
         Case("tune-output-dir", ("tune", "p.toml", "--law", "dvf", "--pairs", "coil_vel",
                                  "-o", "ex", "--force"), "ex"),
         Case("tune-output-parent-missing", ("tune", "p.toml", "--law", "dvf", "--pairs",
@@ -424,7 +431,12 @@ def _checksums(folder: Path) -> dict[str, str]:
         for name in dirs + files:
             path = Path(root, name)
             rel = str(path.relative_to(folder))
-            out[rel] = "dir" if path.is_dir() else hashlib.sha256(path.read_bytes()).hexdigest()
+            if path.is_dir():
+                out[rel] = "dir"
+            elif not path.is_file():  # a FIFO: never read it (that would block)
+                out[rel] = f"special {path.stat().st_mode:o}"
+            else:
+                out[rel] = hashlib.sha256(path.read_bytes()).hexdigest()
     return out
 
 
@@ -434,6 +446,9 @@ def test_bad_input(case, inputs, tmp_path, monkeypatch):
     shutil.copytree(inputs, work)
     for name, edit in case.files.items():
         path = work / name
+        if edit == FIFO:
+            os.mkfifo(path)
+            continue
         text = edit(path.read_text()) if callable(edit) else edit
         path.write_bytes(text.encode("utf-8", "surrogateescape"))
     monkeypatch.chdir(work)
