@@ -1,6 +1,7 @@
 """The Design value: file round trip, state space vs branch responses, plant fingerprint."""
 
 import json
+import re
 
 import control
 import numpy as np
@@ -237,3 +238,43 @@ def test_passive_parts_must_exist_on_the_plant(plant, tmp_path):
     with pytest.raises(DesignError, match="must be > 0") as caught:
         load_design(path)
     assert caught.value.field == "parts[1].mass_kg"
+
+
+def test_a_design_file_with_the_earlier_fingerprint_is_still_accepted(plant):
+    from dataclasses import replace
+
+    old = replace(loop_design(plant), plant_fingerprint=plant.legacy_fingerprint)
+    old.check_plant(plant)  # written before delay and rate entered the fingerprint
+    assert plant.legacy_fingerprint != plant.fingerprint
+
+
+@pytest.mark.parametrize(
+    ("path", "value", "field"),
+    [
+        (("loops", 0, "gain"), True, "loops[1].gain"),
+        (("loops", 1, "branches", 0, "gain"), "5", "loops[2].branches[1].gain"),
+        (("loops", 0, "branches", 0, "sections", 0, "den"), [1.0, None],
+         "loops[1].branches[1].sections[1].den[2]"),
+        (("target_modes",), [1, 2.5], "target_modes[2]"),
+        (("actuators",), ["f1", 3], "actuators[2]"),
+    ],
+)
+def test_design_file_fields_are_read_strictly(plant, path, value, field):
+    data = loop_design(plant).to_dict()
+    at = data
+    for key in path[:-1]:
+        at = at[key]
+    at[path[-1]] = value
+    with pytest.raises(DesignError, match=re.escape(f"d.json: {field}: ")):
+        design_from_dict(data, source="d.json")
+
+
+def test_a_loop_written_twice_and_a_law_with_the_wrong_fields_are_refused(plant):
+    data = loop_design(plant).to_dict()
+    data["loops"][1]["pair"] = data["loops"][0]["pair"]
+    with pytest.raises(DesignError, match=r"loops\[2\]\.pair: pair 'p1' has a loop already"):
+        design_from_dict(data)
+    data = loop_design(plant).to_dict()
+    data["law"] = "lqg"
+    with pytest.raises(DesignError, match="a lqg design holds controller, not loops"):
+        design_from_dict(data)
