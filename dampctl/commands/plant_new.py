@@ -112,6 +112,7 @@ sample_rate_hz = 10000.0                  # sample rate (Hz) of the real-time co
 loop_delay_s = 5e-5                       # further loop delay (s): converters, computation
 min_gain_margin_db = 6.0                  # gain margin (dB) of each loop, one at a time
 min_phase_margin_deg = 35.0               # phase margin (degrees) of each loop
+min_disk_margin_db = 3.0                  # disk margin (dB): gain change on all loops at once
 max_rms = { mass_motion = 1e-6 }          # largest closed-loop RMS per output (its SI unit)
 """
 

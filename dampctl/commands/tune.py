@@ -661,6 +661,57 @@ def _print_law_facts(info: dict, out: TextIO) -> None:
         out.write(table(headers, rows) + "\n")
     if info.get("roll_off_hz"):
         out.write(f"\nroll-off corner {info['roll_off_hz']:.4g} Hz ({info['roll_off_rule']})\n")
+    _print_margins(info, out)
+
+
+def _print_margins(info: dict, out: TextIO) -> None:
+    """Per-loop margins, the all-loop disk margin, and what limits the gains."""
+    margins = info.get("margins")
+    if isinstance(margins, list) and margins and "pair" in margins[0]:
+        out.write(
+            "\nmargins (each loop broken at the plant input, the others closed; exact delay):\n"
+        )
+        rows = [
+            [
+                m["pair"],
+                _num(m["gain_margin_db"]) if m["gain_margin_db"] is not None else "inf",
+                _num(m["phase_margin_deg"]) if m["phase_margin_deg"] is not None else "inf",
+                _num(m["delay_margin_s"]) if m["delay_margin_s"] is not None else "inf",
+                _num(m["crossover_hz"]),
+            ]
+            for m in margins
+        ]
+        headers = ["loop", "gain margin (dB)", "phase margin (deg)", "delay margin (s)",
+                   "crossover (Hz)"]
+        out.write(table(headers, rows) + "\n")
+        disk = info.get("disk_margin") or {}
+        if disk.get("gain_margin_db") is not None:
+            out.write(
+                f"all-loop disk margin: ±{disk['gain_margin_db']:.3g} dB, "
+                f"±{disk['phase_margin_deg']:.3g}° on every loop at once "
+                f"(at {disk['frequency_hz']:.4g} Hz)\n"
+            )
+        need = info.get("margin_requirements") or {}
+        stated = [
+            f"{label} {need[key]:g}{unit}"
+            for key, label, unit in (
+                ("min_gain_margin_db", "gain margin", " dB"),
+                ("min_phase_margin_deg", "phase margin", "°"),
+                ("min_disk_margin_db", "disk margin", " dB"),
+            )
+            if need.get(key) is not None
+        ]
+        out.write(f"required: {', '.join(stated) if stated else 'none stated'}\n")
+    if info.get("limited_by"):
+        out.write(f"gains limited by: {'; '.join(info['limited_by'])}\n")
+    for c in info.get("capped_modes") or []:
+        best = c["max_damping"]
+        out.write(
+            f"capped: mode {c['mode']} ({c['reason']}): the loops cannot raise its damping "
+            f"{c['open_loop_damping']:.3g} by 10 %"
+            + (f" (at most {best:.3g})" if best is not None else "")
+            + "; left out of the max-min, kept above half its open-loop damping\n"
+        )
 
 
 #: ``--target-damping none``: tune without a target (maximize the smallest damping)

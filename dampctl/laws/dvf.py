@@ -48,6 +48,7 @@ from dampctl.design import Branch, Design, Loop, Section
 from dampctl.errors import DesignRefused, UsageError
 from dampctl.laws._assemble import finish, loop_gains, search_outcome, setup
 from dampctl.laws._checks import check_collocated
+from dampctl.laws._objective import build_objective, constraint_info, with_margins
 from dampctl.laws._tuning import search_gains, stack_loops
 from dampctl.model.plant import ModalPlant, Pair
 
@@ -89,6 +90,7 @@ def design(
     delay_s: float | None = None,
     roll_off_hz: float | None = None,
     refine: bool = True,
+    report_margins: bool = True,
 ) -> Design:
     """Design direct velocity feedback loops on collocated pairs.
 
@@ -118,6 +120,9 @@ def design(
         Refine the gains loop by loop after the common-scale search (default). False keeps
         the common scale only: about a third of the eigenvalue solves, for fast screening
         (sizing), at some loss of damping with several loops.
+    report_margins : bool, optional
+        Compute the finished design's margins into ``info`` (``margins``, ``disk_margin``,
+        ``margin_requirements``; default). False skips them (sizing's unit designs).
     Returns
     -------
     Design
@@ -157,14 +162,17 @@ def design(
 
     fixed = loop_gains(gain, len(request.pairs))
     warnings: list[str] = []
+    limits: dict = {}
     if fixed is not None:
         gains, tuning, reached, evaluations = fixed, "fixed gain", None, 0
         if np.any(gains < 0):
             warnings.append("a negative velocity gain adds energy: the loop will not damp")
     else:
         base = _normalization(plant, request)
+        objective = build_objective(request, unit_loops, base, (-4.0, 3.0))
+        request = objective.request
         result = search_gains(
-            lambda g: model.evaluate_gains(unit, g).score,
+            objective.scores,
             base,
             target=request.target_damping,
             refine_loops=refine,
@@ -172,6 +180,7 @@ def design(
         )
         gains, evaluations = result.gains, result.evaluations
         tuning, reached = search_outcome(request.target_damping, result.reached)
+        limits = constraint_info(objective, gains, reached)
     loops = [_loop(p, g, f) for p, g, f in zip(request.pairs, gains, filters, strict=True)]
     final = model.evaluate_gains(unit, gains)
     units = [_gain_unit(plant, p) for p in request.pairs]
@@ -190,8 +199,9 @@ def design(
             for kind in kinds
         ],
         "evaluations": evaluations,
+        **limits,
     }
-    return finish(
+    design = finish(
         request,
         LAW,
         loops,
@@ -201,6 +211,7 @@ def design(
         info=info,
         warnings=warnings,
     )
+    return with_margins(design, plant, request.delay_s) if report_margins else design
 
 
 def _check_pair(plant: ModalPlant, pair: Pair) -> None:

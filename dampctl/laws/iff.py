@@ -45,6 +45,7 @@ from dampctl.design import Branch, Design, Loop, Section
 from dampctl.errors import DesignRefused, UsageError
 from dampctl.laws._assemble import finish, loop_gains, search_outcome, setup
 from dampctl.laws._checks import check_collocated
+from dampctl.laws._objective import build_objective, constraint_info, with_margins
 from dampctl.laws._tuning import search_gains, stack_loops
 from dampctl.model.plant import ModalPlant, Pair
 
@@ -106,6 +107,7 @@ def design(
     delay_s: float | None = None,
     leak_hz: float | None = None,
     refine: bool = True,
+    report_margins: bool = True,
 ) -> Design:
     """Design integral force feedback loops on strut/force-sensor pairs.
 
@@ -134,6 +136,9 @@ def design(
         Refine the gains loop by loop after the common-scale search (default). False keeps
         the common scale only: about a third of the eigenvalue solves, for fast screening
         (sizing), at some loss of damping with several loops.
+    report_margins : bool, optional
+        Compute the finished design's margins into ``info`` (``margins``, ``disk_margin``,
+        ``margin_requirements``; default). False skips them (sizing's unit designs).
     Returns
     -------
     Design
@@ -176,6 +181,7 @@ def design(
     fixed = loop_gains(gain, len(request.pairs))
     warnings: list[str] = []
     evaluations = 0
+    limits: dict = {}
     if fixed is not None:
         gains, tuning, reached = fixed, "fixed gain", None
         if np.any(gains < 0):
@@ -184,16 +190,20 @@ def design(
         optima = [a["optimal_gain"] for a in targeted if a["optimal_gain"]]
         optima = optima or [float(np.min(plant.omegas[list(request.targets)]))]
         low, high = math.log10(min(optima)), math.log10(max(optima))
+        log_range = (low - 2.0, high + 1.5)
+        objective = build_objective(request, unit_loops, np.ones(len(request.pairs)), log_range)
+        request = objective.request
         result = search_gains(
-            lambda g: model.evaluate_gains(unit, g).score,
+            objective.scores,
             np.ones(len(request.pairs)),
             target=request.target_damping,
             refine_loops=refine,
-            log_range=(low - 2.0, high + 1.5),
+            log_range=log_range,
             points_per_decade=8,
         )
         gains, evaluations = result.gains, result.evaluations
         tuning, reached = search_outcome(request.target_damping, result.reached)
+        limits = constraint_info(objective, gains, reached)
     loops = [_loop(p, g, k, leak) for p, g, k in zip(request.pairs, gains, stiffness, strict=True)]
     final = model.evaluate_gains(unit, gains)
     for entry in targeted:
@@ -209,8 +219,9 @@ def design(
             "z = natural frequency with the struts removed"
         ),
         "evaluations": evaluations,
+        **limits,
     }
-    return finish(
+    design = finish(
         request,
         LAW,
         loops,
@@ -220,6 +231,7 @@ def design(
         info=info,
         warnings=warnings,
     )
+    return with_margins(design, plant, request.delay_s) if report_margins else design
 
 
 def _leak_rule(leak_hz: float, given: bool, lowest_hz: float) -> str:

@@ -48,6 +48,8 @@ from dampctl.design import Branch, Design, Loop, Section
 from dampctl.errors import DesignRefused
 from dampctl.laws._assemble import finish, loop_gains, setup
 from dampctl.laws._checks import check_collocated
+from dampctl.laws._constraints import MarginLimits
+from dampctl.laws._objective import PROBE, broken_constraints, with_margins
 from dampctl.laws._tuning import stack_loops
 from dampctl.model.plant import ModalPlant, Pair
 
@@ -119,6 +121,7 @@ def design(
     target_damping: float | None = None,
     gain: float | Sequence[float] | None = None,
     delay_s: float | None = None,
+    report_margins: bool = True,
 ) -> Design:
     """Design PPF filter banks on collocated displacement (or strain) pairs.
 
@@ -142,6 +145,9 @@ def design(
         the design is reported unstable.
     delay_s : float, optional
         Loop delay (s); default :func:`dampctl.analysis.closedloop.plant_loop_delay_s`.
+    report_margins : bool, optional
+        Compute the finished design's margins into ``info`` (``margins``, ``disk_margin``,
+        ``margin_requirements``; default). False skips them (sizing's unit designs).
 
     Returns
     -------
@@ -169,6 +175,7 @@ def design(
     fixed = loop_gains(gain, len(request.pairs))
     warnings: list[str] = []
     evaluations = 0
+    constraint: dict = {}
     if fixed is not None:
         if request.target_damping is not None:
             zeta_c = request.target_damping
@@ -185,7 +192,14 @@ def design(
                 f"{dc:.4g} >= 1, the loop is UNSTABLE (lower the gain)"
             )
     else:
-        zeta_c, evaluations, reached = _tune(bank, model, request)
+        limits = MarginLimits.build(plant, request.pairs, delay_s=request.delay_s)
+        limits = limits if limits.stated else None
+        zeta_c, evaluations, reached = _tune(bank, model, request, limits)
+        if not reached:
+            constraint = {
+                "limited_by": _limited_by(bank, model, request, limits, zeta_c),
+                "capped_modes": [],
+            }
         tuning = (
             "maximize the smallest damping"
             if request.target_damping is None
@@ -226,8 +240,9 @@ def design(
         "static_stability": bool(dc < 1.0),
         "static_condition": "lambda_max(G(0) K(0)) < 1 (Lanzon & Petersen 2008; from memory)",
         "evaluations": evaluations,
+        **constraint,
     }
-    return finish(
+    design = finish(
         request,
         LAW,
         loops,
@@ -237,6 +252,7 @@ def design(
         info=info,
         warnings=warnings,
     )
+    return with_margins(design, plant, request.delay_s) if report_margins else design
 
 
 class _Bank:
@@ -303,7 +319,31 @@ class _Bank:
         return float(np.max(np.linalg.eigvals(self.dc_plant @ k_pos).real))
 
 
-def _tune(bank: _Bank, model, request) -> tuple[float, int, bool | None]:
+def _responses(loops, freq_hz: np.ndarray) -> np.ndarray:
+    """Diagonal controller response of decentralized loops, shape (n_freq, n, n)."""
+    diag = np.stack([lp.response(freq_hz) for lp in loops], axis=-1)
+    out = np.zeros((*diag.shape, diag.shape[-1]), dtype=complex)
+    idx = np.arange(diag.shape[-1])
+    out[:, idx, idx] = diag
+    return out
+
+
+def _limited_by(bank: _Bank, model, request, limits, zeta_c: float) -> list[str]:
+    """What stops the rule damping from rising: the constraints broken at 1.1 ζ_c."""
+    n = len(request.pairs)
+    probe = zeta_c * PROBE
+    loops = bank.loops(probe, np.full(n, equal_damping_rule(1.0, probe)[2]))
+    if bank.dc_loop_gain(loops) > MAX_DC_LOOP_GAIN:
+        return ["the static stability condition (DC loop gain)"]
+    ev = model.evaluate([model.effective(stack_loops(loops))])
+    check = None
+    if limits is not None:
+        check = limits.check_controllers(_responses(loops, limits.freq_hz)[None])
+    found = broken_constraints(request, ev, 0, check, limits)
+    return found or ["the smallest damping of the target modes peaks here"]
+
+
+def _tune(bank: _Bank, model, request, limits=None) -> tuple[float, int, bool | None]:
     """Rule damping ζ_c: max-min damping, or the smallest reaching the target."""
     n = len(request.pairs)
     count = 0
@@ -311,15 +351,24 @@ def _tune(bank: _Bank, model, request) -> tuple[float, int, bool | None]:
     def scores(candidates: np.ndarray, limit: float = MAX_DC_LOOP_GAIN) -> np.ndarray:
         nonlocal count
         out = np.full(candidates.size, -np.inf)
-        controllers, index = [], []
+        controllers, index, banks = [], [], []
         for j, zeta_c in enumerate(candidates):
             loops = bank.loops(float(zeta_c), np.full(n, equal_damping_rule(1.0, zeta_c)[2]))
             if bank.dc_loop_gain(loops) <= limit:
                 controllers.append(model.effective(stack_loops(loops)))
                 index.append(j)
+                banks.append(loops)
         if controllers:
-            out[index] = model.evaluate(controllers).score
+            values = model.evaluate(controllers).score
             count += len(controllers)
+            if limits is not None:
+                live = np.flatnonzero(np.isfinite(values))
+                if live.size:
+                    check = limits.check_controllers(
+                        np.array([_responses(banks[j], limits.freq_hz) for j in live])
+                    )
+                    values[live[~check.ok]] = -np.inf
+            out[index] = values
         return out
 
     target = request.target_damping

@@ -115,6 +115,7 @@ RANGES: Mapping[str, Range] = MappingProxyType(
         "loop_delay_s": Range(0.0, 1.0, "s"),
         "min_gain_margin_db": Range(0.0, 100.0, "dB"),
         "min_phase_margin_deg": Range(0.0, 180.0, "deg", high_open=True),
+        "min_disk_margin_db": Range(0.0, 100.0, "dB", low_open=True),
         "max_rms": Range(0.0, 1e12, low_open=True),
     }
 )
@@ -512,6 +513,10 @@ class Requirements:
         Loop delay (s) besides sampling (computation, converters).
     min_gain_margin_db, min_phase_margin_deg : float, optional
         Required loop-at-a-time margins (dB, degrees).
+    min_disk_margin_db : float, optional
+        Required all-loop symmetric disk margin (dB): every loop's gain may change by this
+        much up or down, with the matching phase, on all loops at once (Seiler, Packard &
+        Gahinet, IEEE Control Systems Magazine 40(5), 2020).
     max_rms : mapping of str to float, optional
         Largest closed-loop RMS allowed at each named performance output (its SI unit).
     """
@@ -522,6 +527,7 @@ class Requirements:
     loop_delay_s: float | None = None
     min_gain_margin_db: float | None = None
     min_phase_margin_deg: float | None = None
+    min_disk_margin_db: float | None = None
     max_rms: Mapping[str, float] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
@@ -538,7 +544,7 @@ class Requirements:
             raise PlantError("a mode number is given twice", field="modes")
         object.__setattr__(self, "modes", tuple(int(m) for m in modes))
         for name in ("min_damping", "sample_rate_hz", "loop_delay_s", "min_gain_margin_db",
-                     "min_phase_margin_deg"):
+                     "min_phase_margin_deg", "min_disk_margin_db"):
             object.__setattr__(self, name, _optional(getattr(self, name), name))
         if not isinstance(self.max_rms, Mapping):
             raise PlantError(f"expected a table of output = limit, got {describe(self.max_rms)}",

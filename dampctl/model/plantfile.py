@@ -81,6 +81,7 @@ _REQUIREMENT_KEYS = {
     "loop_delay_s",
     "min_gain_margin_db",
     "min_phase_margin_deg",
+    "min_disk_margin_db",
     "max_rms",
 }
 _STRING_KEYS = {"name", "kind", "site", "actuator", "sensor", "label"}
@@ -343,6 +344,7 @@ def _document(plant: ModalPlant) -> dict[str, Any]:
             "loop_delay_s",
             "min_gain_margin_db",
             "min_phase_margin_deg",
+            "min_disk_margin_db",
         )
         if getattr(req, key) not in (None, ())
     }

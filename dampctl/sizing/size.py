@@ -331,7 +331,9 @@ def size_pairs(
     templates, excluded = [], []
     for name in names:
         try:
-            unit = module.design(plant, [name], modes=[i + 1 for i in targets], gain=1.0)
+            unit = module.design(
+                plant, [name], modes=[i + 1 for i in targets], gain=1.0, report_margins=False
+            )
         except DesignRefused as exc:
             excluded.append((name, exc.message))
             continue

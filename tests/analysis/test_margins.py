@@ -216,9 +216,9 @@ def test_disk_margins_siso_and_mimo_against_python_control():
         ours = disk_margins(plant, design, delay_s=0.0, roll_off=False, freq_hz=omega / 2 / np.pi)
         alpha, dgm, dpm = ct.disk_margins(L, omega, skew=0.0)
         # ours is refined off the 300-point grid: never above the grid's value, and equal to
-        # python-control's on the same band sampled 1300 times more densely
+        # python-control's on the same band sampled 330 times more densely
         assert ours.alpha <= alpha * (1 + 1e-9)
-        dense = 2 * np.pi * np.geomspace(20, 2000, 400_001)
+        dense = 2 * np.pi * np.geomspace(20, 2000, 100_001)
         if len(pairs) == 1:
             alpha, dgm, dpm = ct.disk_margins(L, dense, skew=0.0)
             assert ours.alpha == pytest.approx(alpha, rel=1e-8)
@@ -275,7 +275,8 @@ def test_disk_margin_with_delay_is_refined_off_the_grid():
         return 2 * np.abs(1 + L) / np.abs(1 - L)
 
     grid_alpha = float(np.min(alpha_on(coarse)))
-    dense = np.min(alpha_on(np.geomspace(20, 3000, 2_000_001)))
+    near = ours.frequency_hz
+    dense = np.min(alpha_on(np.linspace(0.995 * near, 1.005 * near, 200_001)))
     assert ours.alpha <= grid_alpha
     assert ours.alpha == pytest.approx(dense, rel=1e-7)
     assert ours.loop_alpha[0] == pytest.approx(dense, rel=1e-7)

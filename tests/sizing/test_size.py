@@ -118,7 +118,8 @@ def test_no_disturbance_gives_no_effort():
 
 
 def test_margin_requirement_blocks_a_recommendation():
-    # with a loop delay the DVF loop has a finite gain margin; 60 dB cannot be met
+    # with a loop delay the DVF loop has a finite gain margin; the law's tuning holds the
+    # required 60 dB (issue 19), so the gain stays small and the target is missed
     plant = _dominant_plant()
     strict = type(plant)(
         modes=plant.modes, sites=plant.sites, actuators=plant.actuators, sensors=plant.sensors,
@@ -127,10 +128,10 @@ def test_margin_requirement_blocks_a_recommendation():
     )  # fmt: skip
     result = size_pairs(strict, max_pairs=1, target_damping=0.02)
     row = result.rows[0]
-    assert min(m["gain_margin_db"] for m in row.margins) < 60.0
-    assert row.margins_met is False and row.target_met
+    assert min(m["gain_margin_db"] for m in row.margins) >= 60.0 - 0.05
+    assert row.margins_met and not row.target_met
     assert result.recommended is None
-    assert "margin requirement" in result.statement
+    assert "against the target 0.02" in result.statement
 
 
 def test_json_has_the_issue_keys():
