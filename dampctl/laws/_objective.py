@@ -16,7 +16,10 @@ then maximizes the smallest damping among the modes the loops can move, and it k
 spillover floor like a mode outside the targets. Its reason is found by the same scan with the
 delay removed ("delay": it moves then), with the hardware roll-offs removed too ("roll-off"),
 or neither ("not seen": the loops barely reach or see it). Among gains whose objective is
-within 0.1 % of the best, the smallest are taken (:mod:`dampctl.laws._tuning`).
+within 0.1 % of the best, the smallest are taken (:mod:`dampctl.laws._tuning`); then, when
+maximizing, the next smallest group damping is raised with the smaller ones held within 0.1 %
+of their values, level by level (lexicographic max-min, :meth:`Objective.balance`), so that
+a mode the loops can push further is not left at the level of the hardest one.
 """
 
 from __future__ import annotations
@@ -26,6 +29,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from dampctl.laws._constraints import MarginLimits, design_margins, unit_responses
+from dampctl.laws._tuning import _refine_loops as refine_loops
 from dampctl.laws._tuning import stack_loops
 
 __all__ = ["CAP_TOLERANCE", "Objective", "build_objective", "constraint_info", "with_margins"]
@@ -35,6 +39,8 @@ __all__ = ["CAP_TOLERANCE", "Objective", "build_objective", "constraint_info", "
 CAP_TOLERANCE = 0.10
 #: smallest damping rise (ratio) that counts as moving a mode, for lightly damped modes
 CAP_FLOOR = 1e-4
+#: how much (relative) a smaller group damping may give up while the next one is raised
+LEX_TOLERANCE = 1e-3
 #: factor by which the chosen gains are raised to find the constraint that limits them
 PROBE = 1.1
 
@@ -69,6 +75,45 @@ class Objective:
         gains = np.atleast_2d(gains)
         score = self.request.model.evaluate_gains(self.unit, gains).score
         return self._margins(gains, score)
+
+    def sorted_values(self, gains: np.ndarray) -> np.ndarray:
+        """Each objective group's damping, ascending, per row (n_eval, n_groups); rows that
+        break a constraint are all −inf."""
+        gains = np.atleast_2d(gains)
+        ev = self.request.model.evaluate_gains(self.unit, gains)
+        groups = self.request.groups
+        cols = []
+        for members, rank in groups.groups:
+            values = -np.sort(-ev.damping[:, list(members)], axis=1)
+            cols.append(values[:, rank - 1])
+        values = np.sort(np.array(cols).T, axis=1) if cols else np.zeros((gains.shape[0], 0))
+        ok = np.isfinite(self._margins(gains, ev.score))
+        return np.where(ok[:, None], values, -np.inf)
+
+    def balance(self, gains: np.ndarray) -> np.ndarray:
+        """Lexicographic max-min after the max-min: with the smallest group damping held
+        within ``LEX_TOLERANCE`` of its value, raise the next smallest, and so on (a
+        loop-against-rest pattern search per level, :func:`dampctl.laws._tuning.refine_loops`).
+        """
+        gains = np.asarray(gains, dtype=float)
+        start = self.sorted_values(gains[None, :])[0]
+        if start.size < 2 or not np.all(np.isfinite(start)) or not np.any(gains > 0):
+            return gains
+        floors = []
+        for level in range(1, start.size):
+            floors.append(start[level - 1] * (1.0 - LEX_TOLERANCE))
+
+            def run(trial, level=level, floors=tuple(floors)):
+                values = self.sorted_values(trial)
+                held = np.all(values[:, :level] >= np.array(floors)[None, :], axis=1)
+                return np.where(held, values[:, level], -np.inf)
+
+            here = float(run(gains[None, :])[0])
+            if not np.isfinite(here):
+                break
+            gains, _ = refine_loops(run, gains, here)
+            start = self.sorted_values(gains[None, :])[0]
+        return gains
 
     def _margins(self, gains: np.ndarray, score: np.ndarray) -> np.ndarray:
         if self.limits is None:

@@ -180,6 +180,8 @@ def design(
         )
         gains, evaluations = result.gains, result.evaluations
         tuning, reached = search_outcome(request.target_damping, result.reached)
+        if not reached and refine:
+            gains = objective.balance(gains)
         limits = constraint_info(objective, gains, reached)
     loops = [_loop(p, g, f) for p, g, f in zip(request.pairs, gains, filters, strict=True)]
     final = model.evaluate_gains(unit, gains)

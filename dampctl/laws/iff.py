@@ -203,6 +203,8 @@ def design(
         )
         gains, evaluations = result.gains, result.evaluations
         tuning, reached = search_outcome(request.target_damping, result.reached)
+        if not reached and refine:
+            gains = objective.balance(gains)
         limits = constraint_info(objective, gains, reached)
     loops = [_loop(p, g, k, leak) for p, g, k in zip(request.pairs, gains, stiffness, strict=True)]
     final = model.evaluate_gains(unit, gains)
