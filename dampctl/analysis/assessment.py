@@ -186,8 +186,9 @@ class Curves:
         Largest |H| over the inputs, open and closed loop.
     loops : ndarray of complex, shape (n_loops, n_freq)
         Loop-at-a-time return ratios at the plant input (exact delay).
-    locus : GainLocus
-        Closed-loop poles for the controller scaled 0–3×.
+    locus : GainLocus or None
+        Closed-loop poles for the controller scaled 0–3× (31 full pole solves), or None when
+        :func:`assess` was asked for no figure data (``figures=False``).
     frf_open_h, frf_closed_h : ndarray of complex, shape (n_out, n_in, n_freq), or None
         The FRFs themselves (magnitude and phase), each output from each input.
     """
@@ -199,7 +200,7 @@ class Curves:
     frf_open: np.ndarray
     frf_closed: np.ndarray
     loops: np.ndarray
-    locus: GainLocus
+    locus: GainLocus | None
     frf_open_h: np.ndarray | None = None
     frf_closed_h: np.ndarray | None = None
 
@@ -308,6 +309,7 @@ def assess(
     samples: int = 64,
     seed: int = 0,
     roll_off: bool = True,
+    figures: bool = True,
     progress=None,
 ) -> Assessment:
     """Assess a design on its plant.
@@ -330,6 +332,10 @@ def assess(
         Seed of the random drift samples.
     roll_off : bool, optional
         Include the actuator and sensor roll-offs stated in the plant file.
+    figures : bool, optional
+        Compute the data only figures use (the root locus: 31 solves of every closed-loop
+        pole). False leaves ``curves.locus`` None and changes no other result; ``dampctl
+        assess`` passes False unless ``--plots`` asks for figures.
     progress : Progress, optional
         Advanced by one step per stage (8 stages).
 
@@ -362,8 +368,9 @@ def assess(
     top_target = max(plant.freqs_hz[m - 1] for m in targets)
     # the delay's phase is accurate up to 1.5 × the highest crossover, and at least up to the
     # reference every other pole computation uses (closedloop.reference_omega), so they agree
-    omega_ref = max(2 * np.pi * max([1.5 * max(crossings, default=0.0), top_target]),
-                    reference_omega(plant))
+    omega_ref = max(
+        2 * np.pi * max([1.5 * max(crossings, default=0.0), top_target]), reference_omega(plant)
+    )
     ctrl = loop_controller(plant, design, delay_s=delay, omega_ref=omega_ref, roll_off=roll_off)
     poles = loop_poles(plant, design, ctrl)
     open_poles = open_loop_poles(plant.omegas, plant.dampings)
@@ -414,7 +421,11 @@ def assess(
     mag_closed = np.max(np.abs(frf.closed), axis=1)
     rows = _mode_rows(plant, matched, grid, frf_out, mag_open, mag_closed)
     step()
-    locus = gain_locus(plant, design, delay_s=delay, omega_ref=omega_ref, roll_off=roll_off)
+    locus = (
+        gain_locus(plant, design, delay_s=delay, omega_ref=omega_ref, roll_off=roll_off)
+        if figures
+        else None
+    )
     loops_curve = input_loops(plant, design, grid, delay_s=delay, roll_off=roll_off)
     step()
     requirements = _requirements(plant, matched, margins, response, targets)

@@ -115,6 +115,7 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
             samples=args.samples,
             seed=args.seed,
             roll_off=not args.ideal_hardware,
+            figures=bool(args.plots),
             progress=progress,
         )
     written = []

@@ -49,7 +49,7 @@ COMMANDS = (
 EXIT_CODES = {
     0: "done (every stated requirement met)",
     1: "done, but a stated requirement is not met",
-    2: "bad input or usage",
+    2: "bad input or usage (also: the problem is too large for this machine's memory)",
     3: "internal error (please report it)",
     130: "interrupted",
     141: "the reader of the output went away (a closed pipe)",
@@ -182,6 +182,10 @@ def _run(args: argparse.Namespace, out: TextIO, err: TextIO, name: str, debug: b
         return 2
     except (BrokenPipeError, KeyboardInterrupt):
         raise  # the reader went away (entry_point ends quietly) / Ctrl-C (main says so)
+    except MemoryError as exc:  # the problem outgrew the memory: the user's size, not a bug
+        _traceback(err, debug)
+        err.write(f"{name}: error: {_out_of_memory(args, exc)}\n")
+        return 2
     except OSError as exc:  # a file the system refuses (permissions, full disk ...)
         _traceback(err, debug)
         where = f"{exc.filename}: " if exc.filename else ""
@@ -199,6 +203,29 @@ def _run(args: argparse.Namespace, out: TextIO, err: TextIO, name: str, debug: b
         err.write(f"{name}: internal error: the command returned {code!r}; please report it\n")
         return 3
     return code
+
+
+def _out_of_memory(args: argparse.Namespace, exc: MemoryError) -> str:
+    """One line for a command that ran out of memory: the plant's size and the failed request.
+
+    The plant file is read again for its number of modes (the memory of the failed run is
+    free by now); a plant that cannot be read again is left unnamed rather than failing twice.
+    """
+    size = ""
+    path = getattr(args, "plant", None)
+    if isinstance(path, str):
+        try:
+            from dampctl.model.plantfile import load_plant
+
+            size = f" on a plant of {load_plant(path).n_modes} modes ({path})"
+        except (Exception, MemoryError):
+            size = f" on the plant {path}"
+    detail = _one_line(str(exc))[:200]
+    detail = f" ({detail})" if detail else ""
+    return (
+        f"out of memory{size}{detail}; use fewer modes, pairs or cases, or a machine with "
+        "more memory"
+    )
 
 
 def _traceback(err: TextIO, debug: bool) -> None:

@@ -11,6 +11,7 @@ from __future__ import annotations
 import numpy as np
 
 from dampctl.analysis.loopshape import damping_rays, locus_hz, loop_shape, pole_damping
+from dampctl.errors import UsageError
 from dampctl.report.style import (
     AMBER,
     BRICK,
@@ -268,7 +269,17 @@ def plot_root_locus(assessment, *, ax=None, span: float = 3.0) -> Drawn:
     Returns
     -------
     Drawn
+
+    Raises
+    ------
+    UsageError
+        The assessment was made without figure data (``assess(..., figures=False)``).
     """
+    if assessment.curves.locus is None:
+        raise UsageError(
+            "the assessment holds no root-locus data: assess with figures=True to plot it",
+            field="figures",
+        )
     if ax is None:
         figure = _blank(11.0, 4.8)
         plane, spread = figure.subplots(1, 2, width_ratios=(1.0, 1.15))

@@ -295,3 +295,28 @@ def test_repeated_modes_a_loop_does_not_see_get_no_credit():
     assert one.closed_damping > 0.03
     assert two.peak_reduction_db is None and one.peak_reduction_db > 3.0
     assert not result.all_met
+
+
+def test_figure_data_only_when_asked_and_nothing_else_changes():
+    # Issue 20 point 4: the root locus (31 solves of every pole) is figure data only. Without
+    # it every result is the same. The locus itself: an SDOF under velocity feedback of gain
+    # k·g has s² + (2ζω + k·g)s + ω² = 0 (closed form), so the real part of its pole pair is
+    # affine in the scale g while |s| stays ω (up to the overdamped split).
+    plant = _sdof_with_requirements(min_gain_margin_db=6.0)
+    design = _dvf(plant, [30.0], ["fv"])
+    full = assess(plant, design, samples=4, roll_off=False, delay_s=0.0)
+    lean = assess(plant, design, samples=4, roll_off=False, delay_s=0.0, figures=False)
+    assert lean.curves.locus is None and full.curves.locus is not None
+    assert lean.modes == full.modes and lean.loops == full.loops
+    assert lean.requirements == full.requirements and lean.stable == full.stable
+    w = plant.omegas[0]
+    gains, poles = full.curves.locus.gains, full.curves.locus.poles
+    upper = np.array([p[np.argmax(p.imag)] for p in poles])
+    under = upper.imag > 0
+    fit = np.polyfit(gains[under], upper.real[under], 1)
+    np.testing.assert_allclose(np.polyval(fit, gains[under]), upper.real[under], atol=1e-6 * w)
+    np.testing.assert_allclose(np.abs(upper[under]), w, rtol=1e-9)
+    from dampctl.report.figures_loop import plot_root_locus
+
+    with pytest.raises(UsageError, match="root-locus"):
+        plot_root_locus(lean)

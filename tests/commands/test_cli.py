@@ -93,3 +93,24 @@ def test_exit_codes_are_documented_in_the_help():
     for code in (0, 1, 2, 3, 130):
         assert f"{code} " in text
     assert set(cli.EXIT_CODES) >= {0, 1, 2, 3, 130}
+
+
+def test_out_of_memory_is_one_line_naming_command_and_size_exit_2(monkeypatch, tmp_path):
+    # Issue 20 point 4: running out of memory is the size of the problem, not a bug: exit 2,
+    # one line naming the command and the plant's modes, never a traceback.
+    from dampctl.model.plantfile import dump_plant
+    from dampctl.testing import chain_plant
+
+    path = tmp_path / "chain.toml"
+    path.write_text(dump_plant(chain_plant([1.0] * 5, [1e4] * 5)))
+
+    def run(args, out, err):
+        raise MemoryError("Unable to allocate 7.2 GiB for an array with shape (31, 6000, 6000)")
+
+    monkeypatch.setattr(check, "run", run)
+    monkeypatch.delenv("DAMPCTL_DEBUG", raising=False)
+    code, _, err = _main(["check", str(path)])
+    assert code == 2
+    assert err.count("\n") == 1 and "Traceback" not in err
+    assert err.startswith("dampctl check: error: out of memory on a plant of 5 modes")
+    assert "7.2 GiB" in err
