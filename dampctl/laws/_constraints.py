@@ -167,7 +167,7 @@ class MarginLimits:
         disk = np.full(n_eval, np.inf)
         ok = np.ones(n_eval, dtype=bool)
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            S = np.linalg.inv(eye[None, None] + M) if n > 1 else 1.0 / (1.0 + M)
+            S = _inverse(eye[None, None] + M)
             if self.min_gain_margin_db is not None or self.min_phase_margin_deg is not None:
                 L = 1.0 / np.einsum("efkk->ekf", S) - 1.0  # (e, n, f)
                 gm, pm = _grid_margins(
@@ -186,6 +186,21 @@ class MarginLimits:
         if self.min_disk_margin_db is not None:
             ok &= disk >= self.min_disk_margin_db
         return MarginCheck(gain_margin_db=gm, phase_margin_deg=pm, disk_margin_db=disk, ok=ok)
+
+
+def _inverse(X: np.ndarray) -> np.ndarray:
+    """Inverse of each square matrix in X (..., n, n); closed form for n ≤ 2."""
+    n = X.shape[-1]
+    if n == 1:
+        return 1.0 / X
+    if n == 2:
+        a, b, c, d = X[..., 0, 0], X[..., 0, 1], X[..., 1, 0], X[..., 1, 1]
+        det = a * d - b * c
+        out = np.empty_like(X)
+        out[..., 0, 0], out[..., 0, 1] = d / det, -b / det
+        out[..., 1, 0], out[..., 1, 1] = -c / det, a / det
+        return out
+    return np.linalg.inv(X)
 
 
 def _largest_singular_value(X: np.ndarray) -> np.ndarray:

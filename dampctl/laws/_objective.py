@@ -111,7 +111,7 @@ class Objective:
             here = float(run(gains[None, :])[0])
             if not np.isfinite(here):
                 break
-            gains, _ = refine_loops(run, gains, here)
+            gains, _ = refine_loops(run, gains, here, passes=4)
             start = self.sorted_values(gains[None, :])[0]
         return gains
 
