@@ -115,6 +115,12 @@ def check_payload(plant, survey) -> dict:
     }
 
 
+#: the human modes table lists every mode up to this many, else the lowest ones and a summary
+TABLE_MODES = 30
+#: participation columns (one per mode) shown before the rest is summed up per pair
+TABLE_COLUMNS = 10
+
+
 def _count(n: int, word: str) -> str:
     return f"{n} {word}" if n == 1 else f"{n} {word}s"
 
@@ -159,38 +165,113 @@ def run(args: argparse.Namespace, out: TextIO, err: TextIO) -> int:
         )
     )
     out.write(f"{plant.title or args.plant}: {counts}\n\n")
+    shown = plant.n_modes if plant.n_modes <= TABLE_MODES else TABLE_MODES - 10
     rows = [
-        (k + 1, m.label, m.freq_hz, m.damping, m.modal_mass_kg) for k, m in enumerate(plant.modes)
+        (k + 1, m.label, m.freq_hz, m.damping, m.modal_mass_kg)
+        for k, m in enumerate(plant.modes[:shown])
     ]
     out.write(table(["mode", "label", "freq (Hz)", "damping", "modal mass (kg)"], rows) + "\n")
+    if shown < plant.n_modes:
+        out.write(_modes_summary(plant, shown))
     out.write(f"\nfirst natural frequency: {min(plant.freqs_hz):.4g} Hz\n")
     if survey.pairs:
         out.write("\nparticipation: share of each mode's Hankel singular value per pair\n")
-        headers = ["pair", "kind", "collocated"] + [f"m{k + 1}" for k in range(plant.n_modes)]
-        unseen = set(survey.unseen_modes)
-        rows = [
-            [p.pair, p.description, p.collocated]
-            + ["-" if k + 1 in unseen else f"{x:.2f}" for k, x in enumerate(p.participation)]
-            for p in survey.pairs
-        ]
-        out.write(table(headers, rows) + "\n")
-        if unseen:
-            out.write(
-                "(-: no pair sees the mode: at every pair its own response is below 1e-3 of "
-                "the other modes' at its frequency, so no loop can move it; the shares say "
-                "nothing)\n"
-            )
+        out.write(_participation(plant, survey) + "\n")
     for name, items in survey.dominant_modes.items():
         listing = ", ".join(f"mode {m} ({s:.0%})" for m, s in items) or "none"
         out.write(f"\noutput {name}: motion dominated by {listing}\n")
     if survey.warnings:
-        out.write("\nwarnings:\n" + "".join(f"  - {w}\n" for w in survey.warnings))
+        out.write("\nwarnings:\n" + "".join(f"  - {w}\n" for w in _warnings(plant, survey)))
     if comparison is not None:
         out.write(f"\nagainst measurement ({args.measured}):\n")
         out.write("\n".join(measured_lines(comparison)) + "\n")
         if written:
             out.write(f"wrote {len(written)} figures into {written[0].parent}\n")
     return 0
+
+
+def _modes_summary(plant, shown: int) -> str:
+    """Lines that sum up the modes past the first ``shown`` (a large plant's table)."""
+    rest = plant.n_modes - shown
+    freqs = plant.freqs_hz[shown:]
+    damp = plant.dampings[shown:]
+    return (
+        f"... and {rest} more modes, {min(freqs):.4g}-{max(freqs):.4g} Hz, damping "
+        f"{min(damp):.3g}-{max(damp):.3g} (every mode: dampctl check --json)\n"
+    )
+
+
+#: warnings listed in the human output, and the longest line one may take there
+TABLE_WARNINGS = 12
+WARNING_WIDTH = 160
+
+
+def _warnings(plant, survey) -> list[str]:
+    """The warnings as printed: all of them, or on a plant past ``TABLE_MODES`` modes the
+    first ``TABLE_WARNINGS`` ones, each cut to about ``WARNING_WIDTH`` characters."""
+    if plant.n_modes <= TABLE_MODES:
+        return list(survey.warnings)
+    return _short(list(survey.warnings))
+
+
+def _short(warnings) -> list[str]:
+    """The first ``TABLE_WARNINGS`` warnings, each cut to about ``WARNING_WIDTH`` characters.
+
+    A 3000-mode plant can warn of hundreds of near-repeated pairs, or list thousands of
+    unseen modes in one warning; the human output keeps its lines readable and points at
+    ``--json``, which holds every warning whole.
+    """
+    lines = []
+    for text in warnings[:TABLE_WARNINGS]:
+        if len(text) > WARNING_WIDTH:
+            cut = text.rfind(", ", 0, WARNING_WIDTH)
+            cut = cut if cut > 0 else WARNING_WIDTH
+            text = text[:cut] + ", ... (whole in --json)"
+        lines.append(text)
+    if len(warnings) > TABLE_WARNINGS:
+        lines.append(f"... and {len(warnings) - TABLE_WARNINGS} more warnings (all in --json)")
+    return lines
+
+
+def _participation(plant, survey) -> str:
+    """The participation table; past ``TABLE_COLUMNS`` modes each pair's strongest modes.
+
+    A plant of a few modes gets one column per mode. A large one (an FE model of hundreds or
+    thousands of modes) gets the first ``TABLE_COLUMNS`` modes and, per pair, the three modes
+    it sees best among the rest, so that no line grows with the number of modes.
+    """
+    unseen = set(survey.unseen_modes)
+    n_cols = min(plant.n_modes, TABLE_COLUMNS)
+    headers = ["pair", "kind", "collocated"] + [f"m{k + 1}" for k in range(n_cols)]
+    more = plant.n_modes > n_cols
+    if more:
+        headers.append(f"strongest above m{n_cols}")
+    rows = []
+    for p in survey.pairs:
+        share = list(p.participation)
+        row = [p.pair, p.description, p.collocated] + [
+            "-" if k + 1 in unseen else f"{x:.2f}" for k, x in enumerate(share[:n_cols])
+        ]
+        if more:
+            order = sorted(
+                (k for k in range(n_cols, len(share)) if k + 1 not in unseen),
+                key=lambda k: -share[k],
+            )[:3]
+            row.append(", ".join(f"m{k + 1} {share[k]:.2f}" for k in order) or "none")
+        rows.append(row)
+    text = table(headers, rows)
+    if unseen:
+        text += (
+            "\n(-: no pair sees the mode: at every pair its own response is below 1e-3 of "
+            "the other modes' at its frequency, so no loop can move it; the shares say "
+            "nothing)"
+        )
+    if more:
+        text += (
+            f"\n({plant.n_modes - n_cols} modes above m{n_cols} summed up by their strongest "
+            "shares; every share: dampctl check --json)"
+        )
+    return text
 
 
 def _measured(args: argparse.Namespace, plant):

@@ -112,3 +112,36 @@ def test_plant_without_pairs(tmp_path):
     assert any("no candidate pairs" in w for w in data["warnings"])
     code, out, _ = run(str(path))
     assert code == 0 and "0 candidate pairs" in out
+
+
+def test_human_output_of_a_3000_mode_plant_stays_readable(tmp_path):
+    # Issue 20 point 4: tables readable on a 3000-mode plant (summaries and the lowest modes;
+    # every mode and share in --json). The plant: the bending modes of a simply supported
+    # beam, ω_n = (nπ/L)² √(EI/ρA), shapes sin(nπx/L) (R. D. Blevins, Formulas for Natural
+    # Frequency and Mode Shape, 1979, table for beams: pinned-pinned), sampled at 3 points.
+    from dampctl.model.components import Actuator, Mode, Pair, Sensor
+    from dampctl.model.plant import ModalPlant
+    from dampctl.model.plantfile import dump_plant
+
+    n = np.arange(1, 3001)
+    freqs = (n * np.pi) ** 2 * 0.05 / (2 * np.pi)
+    sites = {f"x{j}": list(np.sin(n * np.pi * x)) for j, x in enumerate((0.13, 0.41, 0.77))}
+    plant = ModalPlant(
+        modes=[Mode(freq_hz=f, damping=0.01, modal_mass_kg=0.5) for f in freqs],
+        sites=sites,
+        actuators=[Actuator(name=f"f{j}", kind="force", site=f"x{j}") for j in range(2)],
+        sensors=[Sensor(name=f"v{j}", kind="velocity", site=f"x{j}") for j in range(2)],
+        pairs=[Pair(name=f"p{j}", actuator=f"f{j}", sensor=f"v{j}") for j in range(2)],
+        title="simply supported beam, 3000 modes",
+    )
+    path = tmp_path / "beam.toml"
+    path.write_text(dump_plant(plant))
+    code, out, err = run(str(path))
+    assert code == 0, err
+    lines = out.splitlines()
+    assert max(len(line) for line in lines) <= 200 and len(lines) < 120
+    assert "... and 2980 more modes" in out and "--json" in out
+    assert "strongest above m10" in out
+    code, out, err = run(str(path), "--json")
+    data = json.loads(out)
+    assert len(data["modes"]) == 3000 and len(data["pairs"][0]["participation"]) == 3000
