@@ -55,6 +55,13 @@ class Progress:
         False suppresses all output (``--quiet``).
     force : bool, optional
         Draw even when ``stream`` is not a terminal (tests).
+    clock : callable, optional
+        Seconds from an arbitrary origin (default ``time.monotonic``; tests pass their own).
+
+    Notes
+    -----
+    While the work runs the bar ends with an estimate of the time left, the time so far
+    scaled by the steps left over the steps done (steps of equal cost assumed).
     """
 
     def __init__(
@@ -66,6 +73,7 @@ class Progress:
         delay_s: float = 2.0,
         enabled: bool = True,
         force: bool = False,
+        clock=time.monotonic,
     ):
         self.total = max(int(total), 1)
         self.label = label
@@ -73,8 +81,10 @@ class Progress:
         self.delay_s = delay_s
         self.enabled = enabled and (force or is_terminal(self.stream))
         self.done = 0
-        self._start = time.monotonic()
+        self._clock = clock
+        self._start = clock()
         self._drawn = False
+        self._width = 0
 
     def advance(self, steps: int = 1) -> None:
         """Record finished steps and redraw when due.
@@ -85,7 +95,7 @@ class Progress:
             Number of steps finished since the last call.
         """
         self.done = min(self.done + steps, self.total)
-        if not self.enabled or time.monotonic() - self._start < self.delay_s:
+        if not self.enabled or self._clock() - self._start < self.delay_s:
             return
         self._draw()
 
@@ -93,7 +103,13 @@ class Progress:
         width = 30
         filled = int(width * self.done / self.total)
         bar = "#" * filled + "-" * (width - filled)
-        self.stream.write(f"\r{self.label} [{bar}] {self.done}/{self.total}")
+        text = f"{self.label} [{bar}] {self.done}/{self.total}"
+        if 0 < self.done < self.total:
+            elapsed = self._clock() - self._start
+            text += f", about {_duration(elapsed * (self.total - self.done) / self.done)} left"
+        # pad over the end of a longer frame drawn before (the estimate comes and goes)
+        self.stream.write(f"\r{text.ljust(self._width)}")
+        self._width = max(self._width, len(text))
         self.stream.flush()
         self._drawn = True
 
@@ -112,3 +128,13 @@ class Progress:
             self.done = self.total
             self._draw()
         self.close()
+
+
+def _duration(seconds: float) -> str:
+    """A time left as people read it: ``45 s``, ``3 min 10 s``, ``2 h 05 min``."""
+    seconds = max(0, round(seconds))
+    if seconds < 60:
+        return f"{seconds} s"
+    if seconds < 3600:
+        return f"{seconds // 60} min {seconds % 60:02d} s"
+    return f"{seconds // 3600} h {seconds % 3600 // 60:02d} min"

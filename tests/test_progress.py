@@ -14,7 +14,7 @@ def test_bar_ending_early_is_shown_finished():
     with Progress(10, "work", stream=stream, delay_s=0.0, force=True) as bar:
         bar.advance(4)
     frames = stream.getvalue().split("\r")
-    assert frames[-1] == "work [" + "#" * 30 + "] 10/10\n"
+    assert frames[-1].rstrip() == "work [" + "#" * 30 + "] 10/10"
 
 
 def test_bar_is_left_as_is_when_the_work_fails():
@@ -23,7 +23,7 @@ def test_bar_is_left_as_is_when_the_work_fails():
         with Progress(10, "work", stream=stream, delay_s=0.0, force=True) as bar:
             bar.advance(4)
             raise RuntimeError("stop")
-    assert stream.getvalue().endswith("4/10\n")
+    assert stream.getvalue().endswith("4/10, about 0 s left\n")
 
 
 def test_bar_silent_before_its_delay():
@@ -76,3 +76,19 @@ def test_closed_stream_is_not_a_terminal(tmp_path):
     stream.close()  # isatty() on a closed file raises ValueError
     assert not is_terminal(stream)
     assert not is_terminal(None)
+
+
+def test_time_left_is_the_time_so_far_scaled_by_the_steps_left():
+    # 3 of 12 steps in 20 s: 9 steps left at 20/3 s each is 60 s (issue 20 point 6)
+    now = [100.0]
+    stream = io.StringIO()
+    bar = Progress(12, "size", stream=stream, delay_s=0.0, force=True, clock=lambda: now[0])
+    now[0] = 120.0
+    bar.advance(3)
+    assert stream.getvalue() == "\rsize [" + "#" * 7 + "-" * 23 + "] 3/12, about 1 min 00 s left"
+    now[0] = 40000.0  # 39900 s for 11 steps: one more is 3627 s
+    bar.advance(8)
+    assert stream.getvalue().endswith("11/12, about 1 h 00 min left")
+    bar.advance(1)  # finished: no estimate, the longer frame before it blanked out
+    last = stream.getvalue().split("\r")[-1]
+    assert last.rstrip() == "size [" + "#" * 30 + "] 12/12" and len(last) > len(last.rstrip())
